@@ -1,0 +1,284 @@
+//! Stage 3: box-integration (finite-volume) discretisation of
+//! div(ε grad φ) = 0 and the linear system for the unknown potentials.
+//!
+//! Each node owns a control box bounded by the cell mid-lines. Each cell,
+//! with its own permittivity ε, contributes to the four edges along its
+//! sides the flux through the part of the box faces it contains:
+//!
+//! * planar, per metre of depth: horizontal edges `G = ε·(hy/2)/hx`,
+//!   vertical edges `G = ε·(hx/2)/hy`;
+//! * axisymmetric (whole revolution, factor 2π): radial edges
+//!   `G = 2π·ε·(hz/2)/ln(r2/r1)`, which is exact for the logarithmic
+//!   potential of a coaxial layer (the midpoint form `2π·ε·(hz/2)·r_mid/hr`
+//!   is used on cells touching the axis, where ln diverges); axial edges
+//!   `G = 2π·ε·A/hz` with A the annulus area `(r_o² − r_i²)/2` of the
+//!   half-cell beside the edge. Boxes on the axis are discs, so the axis is
+//!   a zero-flux boundary by construction and nothing divides by r = 0.
+//!
+//! The flux between nodes a and b is `G·(φa − φb)`. Because each edge's
+//! conductance sums the cells on both sides of it, normal flux is continuous
+//! across material interfaces and a layered planar stack is reproduced
+//! exactly. Outer edges that are not electrodes get no flux (natural
+//! Neumann condition). Fixed-potential nodes are eliminated into the
+//! right-hand side, which keeps the matrix symmetric; all nodes of a
+//! floating electrode share one unknown whose row is the sum of theirs,
+//! which states zero net charge. The matrix is symmetric positive definite
+//! whenever at least one node has a fixed potential.
+
+use crate::case::{Case, ElectrodeKind, Geometry};
+use crate::grid::{CONDUCTOR, CellIx, Grid, Layout, NO_ELECTRODE, NodeIx};
+use sprs::CsMat;
+use std::f64::consts::PI;
+
+/// Edge conductances of the discretised operator (F, or F/m when planar).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Stencil {
+    /// Edge (i, j)–(i+1, j) at index `j·(nx−1) + i`.
+    pub gx: Vec<f64>,
+    /// Edge (i, j)–(i, j+1) at index `j·nx + i`.
+    pub gy: Vec<f64>,
+}
+
+impl Stencil {
+    /// Conductances from the painted layout. `eps(c)` is the absolute
+    /// permittivity of cell c; conductor cells contribute nothing.
+    pub fn build(grid: &Grid, geometry: Geometry, eps: impl Fn(CellIx) -> Option<f64>) -> Stencil {
+        let (nx, ny) = (grid.nx(), grid.ny());
+        let mut gx = vec![0.0; (nx - 1) * ny];
+        let mut gy = vec![0.0; nx * (ny - 1)];
+        for j in 0..ny - 1 {
+            for i in 0..nx - 1 {
+                let Some(e) = eps(grid.cell(i, j)) else { continue };
+                let (x0, x1) = (grid.x[i], grid.x[i + 1]);
+                let (hx, hy) = (x1 - x0, grid.y[j + 1] - grid.y[j]);
+                let (g_h, g_left, g_right) = match geometry {
+                    Geometry::Planar => (e * 0.5 * hy / hx, e * 0.5 * hx / hy, e * 0.5 * hx / hy),
+                    Geometry::Axisymmetric => {
+                        let radial = if x0 > 0.0 { 1.0 / (x1 / x0).ln() } else { 0.5 * (x0 + x1) / hx };
+                        let xm = 0.5 * (x0 + x1);
+                        (
+                            2.0 * PI * e * 0.5 * hy * radial,
+                            2.0 * PI * e * 0.5 * (xm * xm - x0 * x0) / hy,
+                            2.0 * PI * e * 0.5 * (x1 * x1 - xm * xm) / hy,
+                        )
+                    }
+                };
+                gx[j * (nx - 1) + i] += g_h;
+                gx[(j + 1) * (nx - 1) + i] += g_h;
+                gy[j * nx + i] += g_left;
+                gy[j * nx + i + 1] += g_right;
+            }
+        }
+        Stencil { gx, gy }
+    }
+
+    /// The stencil of a case's painted layout.
+    pub fn for_case(case: &Case, grid: &Grid, layout: &Layout) -> Stencil {
+        let eps: Vec<f64> = layout.regions.iter().map(|r| case.materials[r.material].epsilon()).collect();
+        Stencil::build(grid, case.geometry, |c| {
+            let r = layout.cell_region[c.0];
+            (r != CONDUCTOR).then(|| eps[r as usize])
+        })
+    }
+
+    /// The up to four neighbours of node n with their edge conductances.
+    pub fn neighbours(&self, grid: &Grid, n: NodeIx) -> impl Iterator<Item = (NodeIx, f64)> {
+        let (nx, ny) = (grid.nx(), grid.ny());
+        let (i, j) = grid.node_ij(n);
+        let mut out = [(NodeIx(0), 0.0); 4];
+        let mut k = 0;
+        if i > 0 {
+            out[k] = (grid.node(i - 1, j), self.gx[j * (nx - 1) + i - 1]);
+            k += 1;
+        }
+        if i + 1 < nx {
+            out[k] = (grid.node(i + 1, j), self.gx[j * (nx - 1) + i]);
+            k += 1;
+        }
+        if j > 0 {
+            out[k] = (grid.node(i, j - 1), self.gy[(j - 1) * nx + i]);
+            k += 1;
+        }
+        if j + 1 < ny {
+            out[k] = (grid.node(i, j + 1), self.gy[j * nx + i]);
+            k += 1;
+        }
+        out.into_iter().take(k)
+    }
+
+    /// Discrete energy `½·Σ_edges G·(Δφ)²` of a nodal potential (J, or J/m).
+    pub fn energy(&self, grid: &Grid, phi: &[f64]) -> f64 {
+        let (nx, ny) = (grid.nx(), grid.ny());
+        let mut w = 0.0;
+        for j in 0..ny {
+            for i in 0..nx - 1 {
+                let d = phi[grid.node(i + 1, j).0] - phi[grid.node(i, j).0];
+                w += self.gx[j * (nx - 1) + i] * d * d;
+            }
+        }
+        for j in 0..ny - 1 {
+            for i in 0..nx {
+                let d = phi[grid.node(i, j + 1).0] - phi[grid.node(i, j).0];
+                w += self.gy[j * nx + i] * d * d;
+            }
+        }
+        0.5 * w
+    }
+
+    /// Net flux `Σ G·(φn − φm)` leaving a set of nodes: by Gauss's law the
+    /// charge enclosed (C, or C/m when planar).
+    pub fn outflux(&self, grid: &Grid, phi: &[f64], nodes: impl Iterator<Item = NodeIx>) -> f64 {
+        nodes.map(|n| self.neighbours(grid, n).map(|(m, g)| g * (phi[n.0] - phi[m.0])).sum::<f64>()).sum()
+    }
+}
+
+/// What the potential of a node is.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Constraint {
+    /// An unknown of its own.
+    Free,
+    /// Fixed potential in V.
+    Fixed(f64),
+    /// Shares one unknown with every node of the same group (a floating electrode).
+    Group(u32),
+}
+
+/// The constraints of a painted case.
+pub fn constraints(layout: &Layout) -> Vec<Constraint> {
+    layout
+        .node_electrode
+        .iter()
+        .map(|&e| {
+            if e == NO_ELECTRODE {
+                return Constraint::Free;
+            }
+            match layout.electrodes[e as usize].kind {
+                ElectrodeKind::Fixed { potential_v } => Constraint::Fixed(potential_v),
+                ElectrodeKind::Floating => Constraint::Group(e),
+            }
+        })
+        .collect()
+}
+
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Dof {
+    Unknown(usize),
+    Fixed(f64),
+}
+
+/// The linear system `A·u = b` for the unknown potentials.
+#[derive(Debug, Clone)]
+pub struct System {
+    /// Symmetric positive definite matrix (CSR, both triangles stored).
+    pub matrix: CsMat<f64>,
+    /// Right-hand side (from the fixed potentials).
+    pub rhs: Vec<f64>,
+    dofs: Vec<Dof>,
+}
+
+/// Why a system could not be assembled.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum AssembleError {
+    /// No node has a fixed potential, so the potential is undetermined.
+    #[error("no node has a fixed potential; the potential is undetermined")]
+    NoFixedPotential,
+}
+
+impl System {
+    /// Numbers the unknowns (free nodes in node order, then one per group)
+    /// and assembles the matrix row by row straight into CSR.
+    pub fn assemble(grid: &Grid, stencil: &Stencil, constraints: &[Constraint]) -> Result<System, AssembleError> {
+        if !constraints.iter().any(|c| matches!(c, Constraint::Fixed(_))) {
+            return Err(AssembleError::NoFixedPotential);
+        }
+        let mut dofs = vec![Dof::Fixed(0.0); constraints.len()];
+        let mut rows: Vec<Vec<NodeIx>> = Vec::new();
+        let mut group_row: std::collections::BTreeMap<u32, usize> = Default::default();
+        let mut free = 0usize;
+        for (n, c) in constraints.iter().enumerate() {
+            if let Constraint::Free = c {
+                dofs[n] = Dof::Unknown(free);
+                free += 1;
+            }
+        }
+        for (n, c) in constraints.iter().enumerate() {
+            match *c {
+                Constraint::Free => {}
+                Constraint::Fixed(v) => dofs[n] = Dof::Fixed(v),
+                Constraint::Group(g) => {
+                    let next = free + group_row.len();
+                    let r = *group_row.entry(g).or_insert(next);
+                    dofs[n] = Dof::Unknown(r);
+                    if r - free == rows.len() {
+                        rows.push(Vec::new());
+                    }
+                    rows[r - free].push(NodeIx(n));
+                }
+            }
+        }
+        let size = free + rows.len();
+        let mut indptr = Vec::with_capacity(size + 1);
+        let mut indices = Vec::with_capacity(5 * size);
+        let mut data = Vec::with_capacity(5 * size);
+        let mut rhs = vec![0.0; size];
+        indptr.push(0);
+        let mut entries: Vec<(usize, f64)> = Vec::new();
+        let mut emit_row =
+            |row: usize, nodes: &mut dyn Iterator<Item = NodeIx>, indices: &mut Vec<usize>, data: &mut Vec<f64>| {
+                entries.clear();
+                let mut b = 0.0;
+                for n in nodes {
+                    for (m, g) in stencil.neighbours(grid, n) {
+                        if g == 0.0 {
+                            continue;
+                        }
+                        entries.push((row, g));
+                        match dofs[m.0] {
+                            Dof::Unknown(q) => entries.push((q, -g)),
+                            Dof::Fixed(v) => b += g * v,
+                        }
+                    }
+                }
+                entries.sort_by_key(|e| e.0);
+                let start = indices.len();
+                for &(c, v) in entries.iter() {
+                    if indices.len() > start && indices[indices.len() - 1] == c {
+                        *data.last_mut().expect("entry pushed above") += v;
+                    } else {
+                        indices.push(c);
+                        data.push(v);
+                    }
+                }
+                b
+            };
+        for (n, d) in dofs.iter().enumerate() {
+            if let (Dof::Unknown(r), Constraint::Free) = (*d, constraints[n]) {
+                rhs[r] = emit_row(r, &mut std::iter::once(NodeIx(n)), &mut indices, &mut data);
+                indptr.push(indices.len());
+            }
+        }
+        for (k, nodes) in rows.iter().enumerate() {
+            rhs[free + k] = emit_row(free + k, &mut nodes.iter().copied(), &mut indices, &mut data);
+            indptr.push(indices.len());
+        }
+        let matrix = CsMat::new((size, size), indptr, indices, data);
+        Ok(System { matrix, rhs, dofs })
+    }
+
+    /// Number of unknowns.
+    pub fn unknowns(&self) -> usize {
+        self.rhs.len()
+    }
+
+    /// Nodal potentials from the solved unknowns.
+    pub fn expand(&self, u: &[f64]) -> Vec<f64> {
+        self.dofs
+            .iter()
+            .map(|d| match *d {
+                Dof::Unknown(k) => u[k],
+                Dof::Fixed(v) => v,
+            })
+            .collect()
+    }
+}

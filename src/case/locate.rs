@@ -1,0 +1,142 @@
+//! Where each key of a case file stands: a map from key path
+//! (`parts[2].shape.circle.radius`) to its line and column.
+//!
+//! serde reports only the first structural error; validation finds many more
+//! problems and needs their lines. The YAML event stream carries a position
+//! for every key and value, so one pass over it builds the map.
+
+use std::collections::HashMap;
+use yaml_rust2::parser::{Event, MarkedEventReceiver, Parser};
+use yaml_rust2::scanner::Marker;
+
+/// Line and column (both 1-based) of every key path in a YAML document.
+#[derive(Debug, Default)]
+pub struct Locations {
+    map: HashMap<String, (usize, usize)>,
+}
+
+impl Locations {
+    /// Builds the index; a syntax error comes back as (line, column, message).
+    pub fn index(text: &str) -> Result<Locations, (usize, usize, String)> {
+        let mut builder = Builder::default();
+        let mut parser = Parser::new_from_str(text);
+        parser
+            .load(&mut builder, false)
+            .map_err(|e| (e.marker().line(), e.marker().col() + 1, e.info().to_string()))?;
+        Ok(Locations { map: builder.map })
+    }
+
+    /// Position of `path`, or of its nearest ancestor that has one.
+    pub fn find(&self, path: &str) -> Option<(usize, usize)> {
+        let mut p = path;
+        loop {
+            if let Some(&pos) = self.map.get(p) {
+                return Some(pos);
+            }
+            let cut = p.rfind(['.', '['])?;
+            p = &p[..cut];
+        }
+    }
+}
+
+enum Frame {
+    Map { path: String, key: Option<String> },
+    Seq { path: String, index: usize },
+}
+
+#[derive(Default)]
+struct Builder {
+    stack: Vec<Frame>,
+    map: HashMap<String, (usize, usize)>,
+}
+
+fn join(parent: &str, key: &str) -> String {
+    if parent.is_empty() { key.to_string() } else { format!("{parent}.{key}") }
+}
+
+impl Builder {
+    /// Path of the value about to start, recording sequence items.
+    fn value_path(&mut self, mark: Marker) -> String {
+        match self.stack.last_mut() {
+            None => String::new(),
+            Some(Frame::Map { path, key }) => join(path, key.as_deref().unwrap_or("?")),
+            Some(Frame::Seq { path, index }) => {
+                let p = format!("{path}[{index}]");
+                self.map.entry(p.clone()).or_insert((mark.line(), mark.col() + 1));
+                p
+            }
+        }
+    }
+
+    /// Moves the parent on after a complete value.
+    fn value_done(&mut self) {
+        match self.stack.last_mut() {
+            Some(Frame::Map { key, .. }) => *key = None,
+            Some(Frame::Seq { index, .. }) => *index += 1,
+            None => {}
+        }
+    }
+
+    fn expecting_key(&self) -> bool {
+        matches!(self.stack.last(), Some(Frame::Map { key: None, .. }))
+    }
+}
+
+impl MarkedEventReceiver for Builder {
+    fn on_event(&mut self, ev: Event, mark: Marker) {
+        match ev {
+            Event::Scalar(value, ..) if self.expecting_key() => {
+                if let Some(Frame::Map { path, key }) = self.stack.last_mut() {
+                    let p = join(path, &value);
+                    self.map.entry(p).or_insert((mark.line(), mark.col() + 1));
+                    *key = Some(value);
+                }
+            }
+            Event::Scalar(..) | Event::Alias(..) => {
+                self.value_path(mark);
+                self.value_done();
+            }
+            Event::MappingStart(..) | Event::SequenceStart(..) => {
+                // A complex (non-scalar) key is rare; it gets the key name "?".
+                if self.expecting_key()
+                    && let Some(Frame::Map { key, .. }) = self.stack.last_mut()
+                {
+                    *key = Some("?".into());
+                }
+                let path = self.value_path(mark);
+                self.stack.push(if matches!(ev, Event::MappingStart(..)) {
+                    Frame::Map { path, key: None }
+                } else {
+                    Frame::Seq { path, index: 0 }
+                });
+            }
+            Event::MappingEnd | Event::SequenceEnd => {
+                self.stack.pop();
+                self.value_done();
+            }
+            _ => {}
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn finds_nested_keys_and_items() {
+        let text = "title: t\nparts:\n  - name: a\n    shape: { circle: { center: [1, 2], radius: 3 } }\n  - name: b\n";
+        let loc = Locations::index(text).unwrap();
+        assert_eq!(loc.find("title"), Some((1, 1)));
+        assert_eq!(loc.find("parts[0].name"), Some((3, 5)));
+        assert_eq!(loc.find("parts[0].shape.circle.radius").map(|p| p.0), Some(4));
+        assert_eq!(loc.find("parts[1].name"), Some((5, 5)));
+        assert_eq!(loc.find("parts[1].material").map(|p| p.0), Some(5));
+    }
+
+    #[test]
+    fn syntax_errors_carry_a_line() {
+        let err = Locations::index("a: [1, 2\nb: 3\n").unwrap_err();
+        assert!(err.0 >= 1);
+    }
+}

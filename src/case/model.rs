@@ -1,0 +1,125 @@
+//! The validated case in SI units: what the rest of the pipeline reads.
+
+use crate::materials::Material;
+use crate::shape::{Rect, Shape};
+
+/// Planar or axisymmetric cross-section.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Geometry {
+    /// Coordinates (x, y); the field is uniform along the depth z.
+    Planar,
+    /// Coordinates (r, z); the field is uniform around the axis r = 0.
+    Axisymmetric,
+}
+
+/// How extensive results (charge, capacitance, energy) are normalised.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Normalisation {
+    /// Planar: per metre of depth.
+    PerMetreDepth,
+    /// Axisymmetric coaxial stack: per metre of axial length, the model
+    /// having this axial length in metres.
+    PerMetreAxial {
+        /// Modelled axial length in m.
+        length_m: f64,
+    },
+    /// Axisymmetric: the whole body of revolution.
+    Whole,
+}
+
+/// Grid controls in metres.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct GridSpec {
+    /// Largest step.
+    pub max_step: f64,
+    /// Smallest step the grading may use (features thinner than this still
+    /// get one cell).
+    pub min_step: f64,
+    /// Cells placed across every interval between feature lines.
+    pub cells_across: usize,
+    /// Largest ratio between neighbouring steps.
+    pub growth: f64,
+}
+
+/// Index into [`Case::materials`].
+pub type MaterialId = usize;
+
+/// What a part is electrically.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Role {
+    /// Insulation of the given material.
+    Dielectric(MaterialId),
+    /// A conductor.
+    Electrode(ElectrodeKind),
+}
+
+/// How an electrode's potential is set.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum ElectrodeKind {
+    /// Fixed potential in volts.
+    Fixed {
+        /// Potential in V.
+        potential_v: f64,
+    },
+    /// Unknown potential, zero net charge.
+    Floating,
+}
+
+/// A painted part.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Part {
+    /// Unique name.
+    pub name: String,
+    /// Dielectric or electrode.
+    pub role: Role,
+    /// Outline in metres.
+    pub shape: Shape,
+    /// Key path in the case file (for messages).
+    pub key: String,
+    /// Line in the case file, where known (for messages).
+    pub line: Option<usize>,
+}
+
+/// A probe point.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Probe {
+    /// Name shown in the report.
+    pub name: String,
+    /// Position in m.
+    pub at: [f64; 2],
+}
+
+/// A validated case in SI units.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Case {
+    /// Free text.
+    pub title: String,
+    /// Planar or axisymmetric.
+    pub geometry: Geometry,
+    /// How extensive results are normalised.
+    pub normalisation: Normalisation,
+    /// Extent of the cross-section in m.
+    pub domain: Rect,
+    /// Material of cells no part covers.
+    pub background: MaterialId,
+    /// Grid controls.
+    pub grid: GridSpec,
+    /// Materials in use (library entries resolved, overrides applied).
+    pub materials: Vec<Material>,
+    /// Parts in painting order (stack layers and stack electrodes first).
+    pub parts: Vec<Part>,
+    /// Probe points.
+    pub probes: Vec<Probe>,
+    /// Required ratio of strength to peak field.
+    pub safety_factor: f64,
+}
+
+impl Case {
+    /// Indices of the electrode parts, in painting order.
+    pub fn electrodes(&self) -> impl Iterator<Item = (usize, &Part, ElectrodeKind)> {
+        self.parts.iter().enumerate().filter_map(|(i, p)| match p.role {
+            Role::Electrode(k) => Some((i, p, k)),
+            Role::Dielectric(_) => None,
+        })
+    }
+}

@@ -1,0 +1,244 @@
+//! The case file as written (format version 1): a serde mirror of the YAML.
+//!
+//! Lengths in mm, potentials in kV, strengths in kV/mm. Nothing here is
+//! validated beyond its type; `validate` turns it into the SI [`super::Case`].
+//! Unknown keys are rejected so a typo never silently falls back to a default.
+
+use serde::Deserialize;
+use std::collections::BTreeMap;
+
+/// The whole case file.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CaseFile {
+    /// Free text.
+    pub title: Option<String>,
+    /// `planar` or `axisymmetric`.
+    pub geometry: Option<GeometryKind>,
+    /// Only `mm` in this version.
+    pub units: Option<String>,
+    /// Extent of the cross-section.
+    pub domain: Option<DomainFile>,
+    /// Material of every cell no part covers.
+    pub background: Option<String>,
+    /// Grid controls.
+    pub grid: Option<GridFile>,
+    /// User materials and overrides of built-in ones.
+    pub materials: Option<BTreeMap<String, MaterialFile>>,
+    /// Shortcut for layered insulation between two electrodes.
+    pub stack: Option<StackFile>,
+    /// Parts painted in order.
+    pub parts: Option<Vec<PartFile>>,
+    /// Points where potential and field are reported.
+    pub probes: Option<Vec<ProbeFile>>,
+    /// Assessment limits.
+    pub limits: Option<LimitsFile>,
+}
+
+/// `geometry:` values.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum GeometryKind {
+    /// x, y; results per metre of depth.
+    Planar,
+    /// x = radius r ≥ 0, y = axial z.
+    Axisymmetric,
+}
+
+/// `domain:`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DomainFile {
+    /// [x min, x max] in mm.
+    pub x: [f64; 2],
+    /// [y min, y max] in mm.
+    pub y: [f64; 2],
+}
+
+/// `grid:`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct GridFile {
+    /// Largest step in mm.
+    pub max_step: Option<f64>,
+    /// Smallest step the grading may use in mm.
+    pub min_step: Option<f64>,
+    /// Cells placed across every layer, gap and feature.
+    pub cells_across: Option<u32>,
+    /// Largest ratio between neighbouring steps.
+    pub growth: Option<f64>,
+}
+
+/// One entry of `materials:`.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct MaterialFile {
+    /// Built-in material to inherit from.
+    pub base: Option<String>,
+    /// `gas`, `liquid` or `solid`.
+    pub class: Option<ClassFile>,
+    /// Relative permittivity.
+    pub permittivity: Option<f64>,
+    /// Typical short-term breakdown strength in kV/mm.
+    pub strength_kv_per_mm: Option<f64>,
+    /// Loss tangent.
+    pub loss_tangent: Option<f64>,
+    /// Where the values come from (required for user values).
+    pub source: Option<String>,
+}
+
+/// `class:` values.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum ClassFile {
+    /// A gas.
+    Gas,
+    /// A liquid.
+    Liquid,
+    /// A solid.
+    Solid,
+}
+
+/// `stack:`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct StackFile {
+    /// `planar` or `coaxial`.
+    pub form: StackForm,
+    /// Potential of the energised face in kV; the outer face is at 0.
+    pub voltage_kv: f64,
+    /// Planar only: extent along x in mm.
+    pub width: Option<f64>,
+    /// Coaxial only: radius of the energised conductor in mm.
+    pub inner_radius: Option<f64>,
+    /// Coaxial only: axial length modelled in mm (results are per metre).
+    pub length: Option<f64>,
+    /// Layers from the energised face outward.
+    pub layers: Vec<LayerFile>,
+}
+
+/// `stack.form:` values.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum StackForm {
+    /// Layers stacked along y from y = 0.
+    Planar,
+    /// Layers stacked along r from the inner radius.
+    Coaxial,
+}
+
+/// One layer of a stack.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LayerFile {
+    /// Optional name; unnamed layers are "layer N".
+    pub name: Option<String>,
+    /// Material name.
+    pub material: String,
+    /// Thickness in mm.
+    pub thickness: f64,
+}
+
+/// One entry of `parts:`.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct PartFile {
+    /// Unique name.
+    pub name: String,
+    /// Material (for dielectric parts).
+    pub material: Option<String>,
+    /// Electrode role (for conductors).
+    pub electrode: Option<ElectrodeFile>,
+    /// Outline.
+    pub shape: ShapeFile,
+}
+
+/// `electrode:` values: `floating` or `{ potential_kv: V }`.
+#[derive(Debug, Clone, Copy)]
+pub enum ElectrodeFile {
+    /// Unknown potential, zero net charge.
+    Floating,
+    /// Fixed potential in kV.
+    PotentialKv(f64),
+}
+
+impl<'de> Deserialize<'de> for ElectrodeFile {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct V;
+        const EXPECTED: &str = "`floating` or `{ potential_kv: <kV> }`";
+        impl<'de> serde::de::Visitor<'de> for V {
+            type Value = ElectrodeFile;
+            fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
+                f.write_str(EXPECTED)
+            }
+            fn visit_str<E: serde::de::Error>(self, v: &str) -> Result<Self::Value, E> {
+                match v {
+                    "floating" => Ok(ElectrodeFile::Floating),
+                    _ => Err(E::invalid_value(serde::de::Unexpected::Str(v), &EXPECTED)),
+                }
+            }
+            fn visit_map<A: serde::de::MapAccess<'de>>(self, mut map: A) -> Result<Self::Value, A::Error> {
+                let mut value = None;
+                while let Some(key) = map.next_key::<String>()? {
+                    match key.as_str() {
+                        "potential_kv" if value.is_none() => value = Some(map.next_value::<f64>()?),
+                        "potential_kv" => return Err(serde::de::Error::duplicate_field("potential_kv")),
+                        other => return Err(serde::de::Error::unknown_field(other, &["potential_kv"])),
+                    }
+                }
+                value.map(ElectrodeFile::PotentialKv).ok_or_else(|| serde::de::Error::missing_field("potential_kv"))
+            }
+        }
+        d.deserialize_any(V)
+    }
+}
+
+/// `shape:` — exactly one of `rect`, `circle` or `polygon`.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ShapeFile {
+    /// `{ rect: { x: [a, b], y: [c, d] } }`
+    pub rect: Option<RectFile>,
+    /// `{ circle: { center: [x, y], radius: r } }`
+    pub circle: Option<CircleFile>,
+    /// `{ polygon: [[x, y], ...] }`
+    pub polygon: Option<Vec<[f64; 2]>>,
+}
+
+/// A rectangle in mm.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RectFile {
+    /// [x min, x max]
+    pub x: [f64; 2],
+    /// [y min, y max]
+    pub y: [f64; 2],
+}
+
+/// A circle in mm.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CircleFile {
+    /// Centre [x, y].
+    pub center: [f64; 2],
+    /// Radius.
+    pub radius: f64,
+}
+
+/// One entry of `probes:`.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ProbeFile {
+    /// Name shown in the report.
+    pub name: String,
+    /// Position [x, y] in mm.
+    pub at: [f64; 2],
+}
+
+/// `limits:`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LimitsFile {
+    /// Required ratio of strength to peak field.
+    pub safety_factor: Option<f64>,
+}

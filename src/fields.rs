@@ -1,0 +1,361 @@
+//! Stage 5: from nodal potentials to fields, energies, charges and the
+//! statistics of every region.
+//!
+//! Edge quantities. On each horizontal edge the flux-like value
+//! `G = r·E_r` (axisymmetric) or `G = E_x` (planar) is taken from the same
+//! form the assembly used: `G = Δφ/ln(r2/r1)` on radial edges away from the
+//! axis (constant along a coaxial layer, so coaxial stacks come out exact),
+//! `G = r_mid·Δφ/h` next to the axis, `G = Δφ/h` in planar cases. Vertical
+//! edges carry `E_y = Δφ/h`. Each value is second-order accurate at its edge
+//! midpoint.
+//!
+//! Surface peaks. The field of a region at a node is recovered from the
+//! edges of that region only: interpolated between the two edges beside the
+//! node when both lie in the region, otherwise extrapolated linearly from
+//! the two nearest edges inside it (a second-order one-sided difference).
+//! Material interfaces and electrode surfaces are nodes, so the peak field
+//! of a part is evaluated on its real surface. A region's peak is the
+//! largest |E| over its nodes.
+//!
+//! Energies: `w = ½·ε0·εr·E²` and the polarisation share
+//! `w_pol = ½·ε0·(εr − 1)·E²` per unit volume. The stored energy reported is
+//! the discrete one, `½·Σ G·(Δφ)² = ½·Σ_k Q_k·V_k`; the energy integrated
+//! from cell-centre fields is kept for the capacitance cross-check.
+//! Charges are the Gauss flux out of each electrode's nodes.
+
+use crate::assemble::Stencil;
+use crate::case::{Case, ElectrodeKind, Geometry, Normalisation};
+use crate::grid::{CONDUCTOR, CellIx, Grid, Layout, NO_ELECTRODE, NodeIx};
+use std::f64::consts::PI;
+
+/// Relative difference under which two peak candidates count as equal.
+const TIE: f64 = 1e-9;
+
+/// Field statistics of one dielectric region (SI).
+#[derive(Debug, Clone, PartialEq)]
+pub struct RegionField {
+    /// Number of cells the region owns.
+    pub cells: usize,
+    /// Largest |E| in V/m.
+    pub e_max: f64,
+    /// Where it occurs (m).
+    pub e_max_at: [f64; 2],
+    /// Volume-weighted (area-weighted when planar) mean |E| in V/m.
+    pub e_mean: f64,
+}
+
+/// One electrode after the solve (SI, normalised as the case says).
+#[derive(Debug, Clone, PartialEq)]
+pub struct ElectrodeField {
+    /// Potential in V (solved for floating electrodes).
+    pub potential: f64,
+    /// Charge in C, C per metre of depth, or C per metre of axial length.
+    pub charge: f64,
+}
+
+/// A probe's values.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ProbeField {
+    /// Potential in V.
+    pub potential: f64,
+    /// |E| in V/m.
+    pub e: f64,
+    /// Name of the part the probe lies in.
+    pub part: String,
+}
+
+/// Shortest distance between electrodes at different fixed potentials.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Gap {
+    /// Distance in m.
+    pub distance: f64,
+    /// Largest difference between fixed potentials in V.
+    pub largest_difference: f64,
+}
+
+/// Everything the assessment needs from the solved potential.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Fields {
+    /// Per region of the layout (same order).
+    pub regions: Vec<RegionField>,
+    /// Per electrode of the layout (same order).
+    pub electrodes: Vec<ElectrodeField>,
+    /// Stored energy of the discrete solution (J, J/m), normalised.
+    pub energy: f64,
+    /// Energy integrated from cell-centre fields (J, J/m), normalised.
+    pub energy_from_cells: f64,
+    /// Per probe of the case (same order).
+    pub probes: Vec<ProbeField>,
+    /// Gap between electrodes at different potentials, if there are two.
+    pub gap: Option<Gap>,
+}
+
+/// Edge values of a nodal potential (see the module docs).
+struct EdgeValues {
+    gx: Vec<f64>,
+    gy: Vec<f64>,
+}
+
+fn edge_values(grid: &Grid, geometry: Geometry, phi: &[f64]) -> EdgeValues {
+    let (nx, ny) = (grid.nx(), grid.ny());
+    let mut gx = vec![0.0; (nx - 1) * ny];
+    let mut gy = vec![0.0; nx * (ny - 1)];
+    for j in 0..ny {
+        for i in 0..nx - 1 {
+            let d = phi[grid.node(i, j).0] - phi[grid.node(i + 1, j).0];
+            let (x0, x1) = (grid.x[i], grid.x[i + 1]);
+            gx[j * (nx - 1) + i] = match geometry {
+                Geometry::Planar => d / (x1 - x0),
+                Geometry::Axisymmetric if x0 > 0.0 => d / (x1 / x0).ln(),
+                Geometry::Axisymmetric => 0.5 * (x0 + x1) * d / (x1 - x0),
+            };
+        }
+    }
+    for j in 0..ny - 1 {
+        for i in 0..nx {
+            gy[j * nx + i] = (phi[grid.node(i, j).0] - phi[grid.node(i, j + 1).0]) / (grid.y[j + 1] - grid.y[j]);
+        }
+    }
+    EdgeValues { gx, gy }
+}
+
+/// Radial weight: E_x = G / weight(x).
+fn weight(geometry: Geometry, x: f64) -> Option<f64> {
+    match geometry {
+        Geometry::Planar => Some(1.0),
+        Geometry::Axisymmetric if x > 0.0 => Some(x),
+        Geometry::Axisymmetric => None, // on the axis E_r = 0 by symmetry
+    }
+}
+
+/// Linear inter- or extrapolation through (a, fa), (b, fb) at t.
+fn line(a: f64, fa: f64, b: f64, fb: f64, t: f64) -> f64 {
+    fa + (fb - fa) * (t - a) / (b - a)
+}
+
+/// Recovers one field component at coordinate `t` of a node from the edges
+/// along that axis. `coord` are the node coordinates along the axis, `k`
+/// the node's index on it, and `value(e)` / `inside(e)` give edge e's value
+/// (e runs over the axis' intervals) and whether it belongs to the region.
+fn recover(coord: &[f64], k: usize, value: impl Fn(usize) -> f64, inside: impl Fn(usize) -> bool) -> f64 {
+    let mid = |e: usize| 0.5 * (coord[e] + coord[e + 1]);
+    let t = coord[k];
+    let left = (k > 0 && inside(k - 1)).then(|| k - 1);
+    let right = (k + 1 < coord.len() && inside(k)).then_some(k);
+    match (left, right) {
+        (Some(l), Some(r)) => line(mid(l), value(l), mid(r), value(r), t),
+        (Some(l), None) if l > 0 && inside(l - 1) => line(mid(l), value(l), mid(l - 1), value(l - 1), t),
+        (None, Some(r)) if r + 2 < coord.len() && inside(r + 1) => line(mid(r), value(r), mid(r + 1), value(r + 1), t),
+        (Some(e), _) | (_, Some(e)) => value(e),
+        (None, None) => 0.0,
+    }
+}
+
+/// Volume of a cell (area when planar, per metre of depth).
+fn cell_volume(grid: &Grid, geometry: Geometry, c: CellIx) -> f64 {
+    let (i, j) = grid.cell_ij(c);
+    let (x0, x1, hy) = (grid.x[i], grid.x[i + 1], grid.y[j + 1] - grid.y[j]);
+    match geometry {
+        Geometry::Planar => (x1 - x0) * hy,
+        Geometry::Axisymmetric => PI * (x1 * x1 - x0 * x0) * hy,
+    }
+}
+
+/// Scale applied to extensive results (charge, energy).
+fn extensive_scale(n: Normalisation) -> f64 {
+    match n {
+        Normalisation::PerMetreAxial { length_m } => 1.0 / length_m,
+        Normalisation::PerMetreDepth | Normalisation::Whole => 1.0,
+    }
+}
+
+/// Computes every field result from the nodal potential `phi`.
+pub fn compute(case: &Case, grid: &Grid, layout: &Layout, stencil: &Stencil, phi: &[f64]) -> Fields {
+    let geo = case.geometry;
+    let ev = edge_values(grid, geo, phi);
+    let (nx, ny) = (grid.nx(), grid.ny());
+    let region_of = |i: usize, j: usize| layout.cell_region[grid.cell(i, j).0];
+    let eps: Vec<f64> = layout.regions.iter().map(|r| case.materials[r.material].epsilon()).collect();
+
+    let nreg = layout.regions.len();
+    let mut cells = vec![0usize; nreg];
+    let mut vol = vec![0.0; nreg];
+    let mut e_vol = vec![0.0; nreg];
+    let mut energy_cells = 0.0;
+    for j in 0..ny - 1 {
+        for i in 0..nx - 1 {
+            let c = grid.cell(i, j);
+            let r = layout.cell_region[c.0];
+            if r == CONDUCTOR {
+                continue;
+            }
+            let r = r as usize;
+            let (x0, x1, hy) = (grid.x[i], grid.x[i + 1], grid.y[j + 1] - grid.y[j]);
+            let g = 0.5 * (ev.gx[j * (nx - 1) + i] + ev.gx[(j + 1) * (nx - 1) + i]);
+            let ey = 0.5 * (ev.gy[j * nx + i] + ev.gy[j * nx + i + 1]);
+            let xc = 0.5 * (x0 + x1);
+            let ex = g / weight(geo, xc).unwrap_or(1.0);
+            let v = cell_volume(grid, geo, c);
+            let e = (ex * ex + ey * ey).sqrt();
+            cells[r] += 1;
+            vol[r] += v;
+            e_vol[r] += e * v;
+            // ∫E_r² dV in closed form for the 1/r profile of a log-form cell
+            let int_ex2 = match geo {
+                Geometry::Axisymmetric if x0 > 0.0 => 2.0 * PI * hy * g * g * (x1 / x0).ln(),
+                _ => ex * ex * v,
+            };
+            energy_cells += 0.5 * eps[r] * (int_ex2 + ey * ey * v);
+        }
+    }
+
+    let mut e_max = vec![0.0f64; nreg];
+    let mut e_max_at = vec![[f64::NAN; 2]; nreg];
+    let mut seen = [u32::MAX; 4];
+    for j in 0..ny {
+        for i in 0..nx {
+            seen.fill(u32::MAX);
+            let touching =
+                [(i.wrapping_sub(1), j.wrapping_sub(1)), (i, j.wrapping_sub(1)), (i.wrapping_sub(1), j), (i, j)];
+            for (s, &(ci, cj)) in touching.iter().enumerate() {
+                if ci >= nx - 1 || cj >= ny - 1 {
+                    continue;
+                }
+                let r = region_of(ci, cj);
+                if r == CONDUCTOR || seen.contains(&r) {
+                    continue;
+                }
+                seen[s] = r;
+                // horizontal edge e on row j touches cells (e, j−1) and (e, j)
+                let in_h = |e: usize| (j > 0 && region_of(e, j - 1) == r) || (j + 1 < ny && region_of(e, j) == r);
+                let in_v = |e: usize| (i > 0 && region_of(i - 1, e) == r) || (i + 1 < nx && region_of(i, e) == r);
+                let gx = recover(&grid.x, i, |e| ev.gx[j * (nx - 1) + e], in_h);
+                let ey = recover(&grid.y, j, |e| ev.gy[e * nx + i], in_v);
+                let ex = weight(geo, grid.x[i]).map_or(0.0, |w| gx / w);
+                let e = (ex * ex + ey * ey).sqrt();
+                let r = r as usize;
+                // ties (within rounding) keep the first node in grid order, so
+                // uniform fields report a stable location
+                if e > e_max[r] * (1.0 + TIE) || e_max_at[r][0].is_nan() {
+                    e_max[r] = e_max[r].max(e);
+                    e_max_at[r] = [grid.x[i], grid.y[j]];
+                }
+            }
+        }
+    }
+
+    let regions = (0..nreg)
+        .map(|r| RegionField {
+            cells: cells[r],
+            e_max: e_max[r],
+            e_max_at: e_max_at[r],
+            e_mean: if vol[r] > 0.0 { e_vol[r] / vol[r] } else { 0.0 },
+        })
+        .collect();
+
+    let scale = extensive_scale(case.normalisation);
+    let mut members: Vec<Vec<NodeIx>> = vec![Vec::new(); layout.electrodes.len()];
+    for (n, &e) in layout.node_electrode.iter().enumerate() {
+        if e != NO_ELECTRODE {
+            members[e as usize].push(NodeIx(n));
+        }
+    }
+    let electrodes = members
+        .iter()
+        .map(|nodes| ElectrodeField {
+            potential: phi[nodes[0].0],
+            charge: scale * stencil.outflux(grid, phi, nodes.iter().copied()),
+        })
+        .collect();
+
+    let probes = case.probes.iter().map(|p| probe(grid, layout, geo, phi, &ev, p.at)).collect();
+    Fields {
+        regions,
+        electrodes,
+        energy: scale * stencil.energy(grid, phi),
+        energy_from_cells: scale * energy_cells,
+        probes,
+        gap: gap(grid, layout, &members),
+    }
+}
+
+fn probe(grid: &Grid, layout: &Layout, geo: Geometry, phi: &[f64], ev: &EdgeValues, at: [f64; 2]) -> ProbeField {
+    let c = grid.locate(at);
+    let (i, j) = grid.cell_ij(c);
+    let nx = grid.nx();
+    let s = ((at[0] - grid.x[i]) / (grid.x[i + 1] - grid.x[i])).clamp(0.0, 1.0);
+    let t = ((at[1] - grid.y[j]) / (grid.y[j + 1] - grid.y[j])).clamp(0.0, 1.0);
+    let [a, b, cc, d] = grid.cell_nodes(c).map(|n| phi[n.0]);
+    let potential = (1.0 - t) * ((1.0 - s) * a + s * b) + t * ((1.0 - s) * cc + s * d);
+    let g = (1.0 - t) * ev.gx[j * (nx - 1) + i] + t * ev.gx[(j + 1) * (nx - 1) + i];
+    let ex = weight(geo, at[0]).map_or(0.0, |w| g / w);
+    let ey = (1.0 - s) * ev.gy[j * nx + i] + s * ev.gy[j * nx + i + 1];
+    let r = layout.cell_region[c.0];
+    let part = if r == CONDUCTOR {
+        let e = layout.node_electrode[grid.cell_nodes(c)[0].0];
+        layout.electrodes[e as usize].name.clone()
+    } else {
+        layout.regions[r as usize].name.clone()
+    };
+    ProbeField { potential, e: (ex * ex + ey * ey).sqrt(), part }
+}
+
+/// Nodes of an electrode that have a neighbour outside it.
+fn surface(grid: &Grid, layout: &Layout, nodes: &[NodeIx]) -> Vec<[f64; 2]> {
+    nodes
+        .iter()
+        .filter(|n| {
+            let (i, j) = grid.node_ij(**n);
+            let own = layout.node_electrode[n.0];
+            let around = [(i.wrapping_sub(1), j), (i + 1, j), (i, j.wrapping_sub(1)), (i, j + 1)];
+            around
+                .iter()
+                .any(|&(a, b)| a < grid.nx() && b < grid.ny() && layout.node_electrode[grid.node(a, b).0] != own)
+        })
+        .map(|n| grid.node_pos(*n))
+        .collect()
+}
+
+/// Smallest distance between two point sets (sweep over x-sorted `b`).
+fn min_distance(a: &[[f64; 2]], b: &mut [[f64; 2]]) -> f64 {
+    b.sort_by(|p, q| p[0].total_cmp(&q[0]));
+    let mut best = f64::INFINITY;
+    for p in a {
+        let k = b.partition_point(|q| q[0] < p[0]);
+        for q in b[k..].iter() {
+            if q[0] - p[0] >= best {
+                break;
+            }
+            best = best.min(((q[0] - p[0]).powi(2) + (q[1] - p[1]).powi(2)).sqrt());
+        }
+        for q in b[..k].iter().rev() {
+            if p[0] - q[0] >= best {
+                break;
+            }
+            best = best.min(((q[0] - p[0]).powi(2) + (q[1] - p[1]).powi(2)).sqrt());
+        }
+    }
+    best
+}
+
+fn gap(grid: &Grid, layout: &Layout, members: &[Vec<NodeIx>]) -> Option<Gap> {
+    let fixed: Vec<(f64, Vec<[f64; 2]>)> = layout
+        .electrodes
+        .iter()
+        .zip(members)
+        .filter_map(|(e, nodes)| match e.kind {
+            ElectrodeKind::Fixed { potential_v } => Some((potential_v, surface(grid, layout, nodes))),
+            ElectrodeKind::Floating => None,
+        })
+        .collect();
+    let (lo, hi) = fixed.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), e| (lo.min(e.0), hi.max(e.0)));
+    let mut distance = f64::INFINITY;
+    for (k, a) in fixed.iter().enumerate() {
+        for b in &fixed[k + 1..] {
+            if a.0 != b.0 {
+                distance = distance.min(min_distance(&a.1, &mut b.1.clone()));
+            }
+        }
+    }
+    (distance.is_finite() && hi > lo).then_some(Gap { distance, largest_difference: hi - lo })
+}

@@ -1,0 +1,213 @@
+//! Stage 2: the rectilinear grid and the parts painted onto it.
+//!
+//! Potentials live on nodes, materials on cells. Invariant: only this module
+//! maps a position or an (i, j) pair to a node or cell index; every other
+//! stage goes through [`Grid`]'s methods.
+
+mod axis;
+mod paint;
+
+pub use axis::graded_axis;
+pub use paint::{CONDUCTOR, ElectrodeInfo, Layout, NO_ELECTRODE, Region};
+
+use crate::case::Case;
+
+/// Node index (row-major, x fastest).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub struct NodeIx(pub usize);
+
+/// Cell index (row-major, x fastest).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub struct CellIx(pub usize);
+
+/// A non-uniform rectilinear grid.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Grid {
+    /// Node x (or r) coordinates in m, increasing.
+    pub x: Vec<f64>,
+    /// Node y (or z) coordinates in m, increasing.
+    pub y: Vec<f64>,
+}
+
+/// Limits on the grid size.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct GridLimits {
+    /// Largest number of nodes allowed.
+    pub max_nodes: usize,
+}
+
+/// Why a grid could not be built.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum GridError {
+    /// The grid would exceed the node limit.
+    #[error(
+        "the grid would need {nodes} nodes ({nx} × {ny}), above the limit of {limit}; raise grid.max_step or grid.min_step, lower grid.cells_across, or raise --max-nodes"
+    )]
+    TooLarge {
+        /// Nodes needed.
+        nodes: usize,
+        /// Nodes along x.
+        nx: usize,
+        /// Nodes along y.
+        ny: usize,
+        /// The limit.
+        limit: usize,
+    },
+    /// Two electrodes share grid nodes in a way that cannot be solved.
+    #[error("{key}: electrode '{a}' touches electrode '{b}' ({why}); separate them or merge them into one part")]
+    ElectrodesTouch {
+        /// Key path of the later electrode.
+        key: String,
+        /// Line of the later electrode, if known.
+        line: Option<usize>,
+        /// Earlier electrode.
+        a: String,
+        /// Later electrode.
+        b: String,
+        /// What is wrong with the contact.
+        why: &'static str,
+    },
+    /// An electrode shape contains no grid node.
+    #[error("{key}: electrode '{name}' covers no grid node inside the domain")]
+    EmptyElectrode {
+        /// Key path.
+        key: String,
+        /// Line, if known.
+        line: Option<usize>,
+        /// Part name.
+        name: String,
+    },
+}
+
+impl GridError {
+    /// Line of the part the error is about, where known.
+    pub fn line(&self) -> Option<usize> {
+        match self {
+            GridError::TooLarge { .. } => None,
+            GridError::ElectrodesTouch { line, .. } | GridError::EmptyElectrode { line, .. } => *line,
+        }
+    }
+}
+
+impl Grid {
+    /// Builds the graded grid for a case: grid lines on every part boundary.
+    pub fn for_case(case: &Case, limits: &GridLimits) -> Result<Grid, GridError> {
+        let d = case.domain;
+        let (mut fx, mut fy) = (Vec::new(), Vec::new());
+        for p in &case.parts {
+            let (bx, by) = p.shape.breakpoints();
+            fx.extend(bx);
+            fy.extend(by);
+        }
+        let x = graded_axis(d.x0, d.x1, &fx, &case.grid);
+        let y = graded_axis(d.y0, d.y1, &fy, &case.grid);
+        let nodes = x.len().saturating_mul(y.len());
+        if nodes > limits.max_nodes {
+            return Err(GridError::TooLarge { nodes, nx: x.len(), ny: y.len(), limit: limits.max_nodes });
+        }
+        Ok(Grid { x, y })
+    }
+
+    /// Nodes along x.
+    pub fn nx(&self) -> usize {
+        self.x.len()
+    }
+
+    /// Nodes along y.
+    pub fn ny(&self) -> usize {
+        self.y.len()
+    }
+
+    /// Number of nodes.
+    pub fn nodes(&self) -> usize {
+        self.nx() * self.ny()
+    }
+
+    /// Number of cells.
+    pub fn cells(&self) -> usize {
+        (self.nx() - 1) * (self.ny() - 1)
+    }
+
+    /// Node at column i, row j.
+    pub fn node(&self, i: usize, j: usize) -> NodeIx {
+        NodeIx(j * self.nx() + i)
+    }
+
+    /// Column and row of a node.
+    pub fn node_ij(&self, n: NodeIx) -> (usize, usize) {
+        (n.0 % self.nx(), n.0 / self.nx())
+    }
+
+    /// Position of a node.
+    pub fn node_pos(&self, n: NodeIx) -> [f64; 2] {
+        let (i, j) = self.node_ij(n);
+        [self.x[i], self.y[j]]
+    }
+
+    /// Cell at column i, row j (its lower-left node is node (i, j)).
+    pub fn cell(&self, i: usize, j: usize) -> CellIx {
+        CellIx(j * (self.nx() - 1) + i)
+    }
+
+    /// Column and row of a cell.
+    pub fn cell_ij(&self, c: CellIx) -> (usize, usize) {
+        (c.0 % (self.nx() - 1), c.0 / (self.nx() - 1))
+    }
+
+    /// The four corner nodes of a cell: lower-left, lower-right, upper-left, upper-right.
+    pub fn cell_nodes(&self, c: CellIx) -> [NodeIx; 4] {
+        let (i, j) = self.cell_ij(c);
+        [self.node(i, j), self.node(i + 1, j), self.node(i, j + 1), self.node(i + 1, j + 1)]
+    }
+
+    /// Centre of a cell.
+    pub fn cell_center(&self, c: CellIx) -> [f64; 2] {
+        let (i, j) = self.cell_ij(c);
+        [0.5 * (self.x[i] + self.x[i + 1]), 0.5 * (self.y[j] + self.y[j + 1])]
+    }
+
+    /// The cell containing `p` (points on a grid line go to the cell above / to the right,
+    /// except on the last line).
+    pub fn locate(&self, p: [f64; 2]) -> CellIx {
+        let find = |v: &[f64], t: f64| v.partition_point(|&c| c <= t).clamp(1, v.len() - 1) - 1;
+        self.cell(find(&self.x, p[0]), find(&self.y, p[1]))
+    }
+
+    /// Smallest and largest step over both axes.
+    pub fn step_range(&self) -> (f64, f64) {
+        self.x
+            .windows(2)
+            .chain(self.y.windows(2))
+            .map(|w| w[1] - w[0])
+            .fold((f64::INFINITY, 0.0), |(lo, hi), h| (lo.min(h), hi.max(h)))
+    }
+
+    /// Index range of grid lines within [lo, hi] (inclusive) on an axis.
+    pub fn line_range(v: &[f64], lo: f64, hi: f64, tol: f64) -> std::ops::Range<usize> {
+        let a = v.partition_point(|&c| c < lo - tol);
+        let b = v.partition_point(|&c| c <= hi + tol);
+        a..b.max(a)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn index_maps_round_trip_on_a_non_square_grid() {
+        let g = Grid { x: vec![0.0, 1.0, 2.0, 3.0], y: vec![0.0, 0.5] };
+        for n in 0..g.nodes() {
+            let (i, j) = g.node_ij(NodeIx(n));
+            assert_eq!(g.node(i, j), NodeIx(n));
+        }
+        for c in 0..g.cells() {
+            let (i, j) = g.cell_ij(CellIx(c));
+            assert_eq!(g.cell(i, j), CellIx(c));
+        }
+        assert_eq!(g.locate([2.5, 0.25]), g.cell(2, 0));
+        assert_eq!(g.locate([3.0, 0.5]), g.cell(2, 0));
+        assert_eq!(g.cell_nodes(g.cell(1, 0)), [NodeIx(1), NodeIx(2), NodeIx(5), NodeIx(6)]);
+    }
+}

@@ -1,0 +1,177 @@
+//! hvstack: electrostatic screening of layered insulation cross-sections.
+//!
+//! A YAML case goes in; the 2D electrostatic field (planar or
+//! axisymmetric), where it concentrates, the stored and polarisation
+//! energy, the margin of every material to its typical breakdown strength,
+//! and a verdict with findings come out. The pipeline runs forward only:
+//!
+//! `case` (parse, validate) → `grid` (graded grid, painting) → `assemble`
+//! (box integration, sparse system) → `solve` (PCG) → `fields` (E, energy,
+//! charge) → `assess` (margins, verdicts, findings) → `report` (result
+//! model, JSON, text).
+//!
+//! The library performs no I/O: it takes the case text and returns values.
+//!
+//! ```
+//! let text = "
+//! title: two layers
+//! stack:
+//!   form: planar
+//!   voltage_kv: 10
+//!   width: 20
+//!   layers:
+//!     - { material: air, thickness: 1 }
+//!     - { material: epoxy, thickness: 1 }
+//! ";
+//! let report = hvstack::check(text, "example.yaml", &hvstack::Options::default())?;
+//! // the air layer takes 10·3.7/4.7 = 7.9 kV/mm, above 3 kV/mm: the case fails
+//! assert_eq!(report.verdict, hvstack::report::VerdictOut::Fail);
+//! # Ok::<(), hvstack::Error>(())
+//! ```
+#![deny(missing_docs)]
+
+pub mod assemble;
+pub mod assess;
+pub mod case;
+pub mod fields;
+pub mod grid;
+pub mod materials;
+pub mod report;
+pub mod shape;
+pub mod solve;
+pub mod units;
+
+use assemble::{AssembleError, Stencil, System};
+use case::{Case, CaseError};
+use grid::{Grid, GridError, GridLimits, Layout};
+use solve::{Jacobi, SolveError, SolveOptions, SolveReport};
+
+/// Default node limit: about 2 million nodes keeps a check within a few GB
+/// and within minutes on a 2-core machine with the current solver.
+pub const DEFAULT_MAX_NODES: usize = 2_000_000;
+
+/// Options of a check.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Options {
+    /// Grid size limits.
+    pub limits: GridLimits,
+    /// Solver tolerance and iteration limit.
+    pub solve: SolveOptions,
+}
+
+impl Default for Options {
+    fn default() -> Self {
+        Options { limits: GridLimits { max_nodes: DEFAULT_MAX_NODES }, solve: SolveOptions::default() }
+    }
+}
+
+/// Why a case could not be evaluated (exit status 2 at the command line).
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum Error {
+    /// The case file is malformed or invalid.
+    #[error("{0}")]
+    Case(#[from] CaseError),
+    /// The grid could not be built or painted.
+    #[error("{file}{}: {source}", .source.line().map(|l| format!(":{l}")).unwrap_or_default())]
+    Grid {
+        /// Case file name.
+        file: String,
+        /// The problem.
+        source: Box<GridError>,
+    },
+    /// The system could not be assembled.
+    #[error("{file}: {source}")]
+    Assemble {
+        /// Case file name.
+        file: String,
+        /// The problem.
+        source: AssembleError,
+    },
+    /// The solve failed; no verdict may be given.
+    #[error("{file}: {source}")]
+    Solve {
+        /// Case file name.
+        file: String,
+        /// The problem.
+        source: SolveError,
+    },
+}
+
+/// A case made ready to solve: grid, layout, stencil and system.
+#[derive(Debug, Clone)]
+pub struct Prepared {
+    /// The validated case.
+    pub case: Case,
+    /// Case file name (for messages).
+    pub file: String,
+    /// The graded grid.
+    pub grid: Grid,
+    /// Parts painted onto the grid.
+    pub layout: Layout,
+    /// Edge conductances.
+    pub stencil: Stencil,
+    /// The linear system.
+    pub system: System,
+}
+
+/// The solved potential.
+#[derive(Debug, Clone)]
+pub struct Solution {
+    /// Potential at every node in V.
+    pub phi: Vec<f64>,
+    /// What the solver did.
+    pub report: SolveReport,
+}
+
+/// Grids, paints and assembles a validated case.
+pub fn prepare(case: Case, file: &str, options: &Options) -> Result<Prepared, Error> {
+    let grid =
+        Grid::for_case(&case, &options.limits).map_err(|e| Error::Grid { file: file.into(), source: Box::new(e) })?;
+    let layout = Layout::paint(&case, &grid).map_err(|e| Error::Grid { file: file.into(), source: Box::new(e) })?;
+    let stencil = Stencil::for_case(&case, &grid, &layout);
+    let system = System::assemble(&grid, &stencil, &assemble::constraints(&layout))
+        .map_err(|source| Error::Assemble { file: file.into(), source })?;
+    Ok(Prepared { case, file: file.into(), grid, layout, stencil, system })
+}
+
+impl Prepared {
+    /// Solves for the potential.
+    pub fn solve(&self, options: &SolveOptions) -> Result<Solution, Error> {
+        let m = Jacobi::new(&self.system.matrix);
+        let (u, report) = solve::pcg(&self.system.matrix, &self.system.rhs, &m, options)
+            .map_err(|source| Error::Solve { file: self.file.clone(), source })?;
+        Ok(Solution { phi: self.system.expand(&u), report })
+    }
+
+    /// Fields and assessment of a solution.
+    pub fn evaluate(&self, solution: &Solution) -> (fields::Fields, assess::Assessment) {
+        let f = fields::compute(&self.case, &self.grid, &self.layout, &self.stencil, &solution.phi);
+        let a = assess::assess(&self.case, &self.layout, &f);
+        (f, a)
+    }
+
+    /// The result model; `seconds` is the solve time measured by the caller.
+    pub fn report(&self, solution: &Solution, seconds: f64) -> report::CheckReport {
+        let (f, a) = self.evaluate(solution);
+        report::build(
+            &report::Inputs {
+                case: &self.case,
+                grid: &self.grid,
+                layout: &self.layout,
+                solve: &solution.report,
+                fields: &f,
+                assessment: &a,
+            },
+            seconds,
+        )
+    }
+}
+
+/// Runs the whole pipeline on case text (solve time reported as 0).
+pub fn check(text: &str, file: &str, options: &Options) -> Result<report::CheckReport, Error> {
+    let case = case::parse(text, file)?;
+    let prepared = prepare(case, file, options)?;
+    let solution = prepared.solve(&options.solve)?;
+    Ok(prepared.report(&solution, 0.0))
+}

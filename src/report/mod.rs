@@ -1,0 +1,249 @@
+//! Stage 7: the result model and its renderings (JSON and text).
+//!
+//! Invariant: this module converts units and words findings, nothing more;
+//! every number it shows was computed by `fields` or `assess`.
+
+mod model;
+mod text;
+
+pub use model::*;
+pub use text::{render_materials, render_text};
+
+use crate::assess::{Assessment, FindingKind, Severity, Verdict};
+use crate::case::{Case, ElectrodeKind, Geometry, Normalisation};
+use crate::fields::Fields;
+use crate::grid::{Grid, Layout};
+use crate::materials::LIBRARY;
+use crate::solve::SolveReport;
+use crate::units::{to_kv, to_kv_per_mm, to_mm, to_nc, to_pf};
+
+/// The caution carried by every result.
+pub const CAUTION: &str = "Screening estimate only: an electrostatic model of the drawn geometry with typical \
+material values. Real breakdown strengths vary with thickness, stressed area and volume, temperature, moisture, \
+ageing and waveform. Check every design against the applicable codes and standards and have it reviewed by a \
+licensed or otherwise qualified engineer. A result from this tool never authorises energising or testing \
+equipment.";
+
+/// Everything `build` needs.
+pub struct Inputs<'a> {
+    /// The case.
+    pub case: &'a Case,
+    /// The grid.
+    pub grid: &'a Grid,
+    /// The painted layout.
+    pub layout: &'a Layout,
+    /// The solve's report.
+    pub solve: &'a SolveReport,
+    /// The fields.
+    pub fields: &'a Fields,
+    /// The assessment.
+    pub assessment: &'a Assessment,
+}
+
+fn verdict(v: Verdict) -> VerdictOut {
+    match v {
+        Verdict::Pass => VerdictOut::Pass,
+        Verdict::Review => VerdictOut::Review,
+        Verdict::Fail => VerdictOut::Fail,
+    }
+}
+
+/// Units of extensive results: (capacitance, charge, energy).
+fn extensive_units(n: Normalisation) -> (&'static str, &'static str, &'static str, &'static str) {
+    match n {
+        Normalisation::PerMetreDepth => ("pF/m", "nC/m", "J/m", "per metre of depth"),
+        Normalisation::PerMetreAxial { .. } => ("pF/m", "nC/m", "J/m", "per metre of axial length"),
+        Normalisation::Whole => ("pF", "nC", "J", "for the whole body of revolution"),
+    }
+}
+
+/// Three significant digits for numbers inside sentences.
+fn g3(v: f64) -> String {
+    if v == 0.0 || !v.is_finite() {
+        return format!("{v}");
+    }
+    let mag = v.abs().log10().floor() as i32;
+    if !(-3..6).contains(&mag) {
+        return format!("{v:.2e}");
+    }
+    let decimals = (2 - mag).max(0) as usize;
+    format!("{v:.decimals$}")
+}
+
+/// Words a finding: what it means and what to do next.
+pub fn message(kind: &FindingKind) -> String {
+    match kind {
+        FindingKind::AboveBreakdown { e_max, strength } => format!(
+            "peak field {} kV/mm is above the typical short-term strength {} kV/mm: expect breakdown. Thicken the \
+             insulation, lower the local stress (round edges, add grading) or use a stronger material, then re-check.",
+            g3(to_kv_per_mm(*e_max)),
+            g3(to_kv_per_mm(*strength))
+        ),
+        FindingKind::GasAboveBreakdown { e_max, strength } => format!(
+            "peak field {} kV/mm is above the breakdown field {} kV/mm of this gas: expect discharges (partial \
+             discharges where solid insulation encloses the gas, flashover where it bridges electrodes). Remove or \
+             fill the gas space, or lower its stress.",
+            g3(to_kv_per_mm(*e_max)),
+            g3(to_kv_per_mm(*strength))
+        ),
+        FindingKind::BelowSafetyFactor { margin, required } => format!(
+            "margin {} is below the required safety factor {}: check the design stress against the datasheet \
+             strength at this thickness and the applicable standard.",
+            g3(*margin),
+            g3(*required)
+        ),
+        FindingKind::NoStrength { material } => format!(
+            "{material} has no breakdown strength (it is not an insulator here), so its margin cannot be assessed; \
+             the stress it pushes onto neighbouring parts is assessed in those parts."
+        ),
+        FindingKind::GenericMaterial { material, parts } => format!(
+            "{material} (in {}) uses generic library values: put the datasheet values under `materials:` with a \
+             `source:`.",
+            parts.join(", ")
+        ),
+        FindingKind::CapacitanceMismatch { from_charge, from_energy } => format!(
+            "capacitance from charge ({} pF) and from field energy ({} pF) differ by {} %: the grid is too coarse \
+             somewhere, often at sharp edges; lower grid.max_step or raise grid.cells_across.",
+            g3(to_pf(*from_charge)),
+            g3(to_pf(*from_energy)),
+            g3(100.0 * ((from_energy - from_charge) / from_charge).abs())
+        ),
+        FindingKind::NoPotentialDifference => {
+            "all fixed electrodes are at one potential, so there is no field to assess; check the electrode \
+             potentials."
+                .to_string()
+        }
+        FindingKind::CoarseGrid { cells_across } => format!(
+            "only {cells_across} grid cell(s) across this part, so its peak field is uncertain; lower grid.max_step \
+             or grid.min_step, or raise grid.cells_across."
+        ),
+        FindingKind::PartHidden => {
+            "the part is completely covered by later parts or electrodes and owns no cells; check the part order."
+                .to_string()
+        }
+    }
+}
+
+/// Builds the result model. `seconds` is the solve's wall time, measured by
+/// the caller.
+pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
+    let Inputs { case, grid, layout, solve, fields, assessment } = *inp;
+    let (c_unit, q_unit, w_unit, per) = extensive_units(case.normalisation);
+    let (min_step, max_step) = grid.step_range();
+    let parts = assessment
+        .parts
+        .iter()
+        .map(|p| {
+            let region = &layout.regions[p.region];
+            let f = &fields.regions[p.region];
+            let m = &case.materials[region.material];
+            PartOut {
+                name: region.name.clone(),
+                material: m.name.clone(),
+                permittivity: m.permittivity,
+                e_max_kv_per_mm: to_kv_per_mm(f.e_max),
+                e_max_at_mm: f.e_max_at.map(to_mm),
+                e_mean_kv_per_mm: to_kv_per_mm(f.e_mean),
+                w_max_j_per_m3: p.w_max,
+                w_pol_max_j_per_m3: p.w_pol_max,
+                strength_kv_per_mm: m.strength_v_per_m.map(to_kv_per_mm),
+                margin: p.margin,
+                verdict: verdict(p.verdict),
+            }
+        })
+        .collect();
+    let electrodes = layout
+        .electrodes
+        .iter()
+        .zip(&fields.electrodes)
+        .map(|(e, f)| ElectrodeOut {
+            name: e.name.clone(),
+            kind: match e.kind {
+                ElectrodeKind::Fixed { .. } => "fixed",
+                ElectrodeKind::Floating => "floating",
+            },
+            potential_kv: to_kv(f.potential),
+            charge: Quantity { value: to_nc(f.charge), unit: q_unit },
+        })
+        .collect();
+    let probes = case
+        .probes
+        .iter()
+        .zip(&fields.probes)
+        .map(|(p, f)| ProbeOut {
+            name: p.name.clone(),
+            at_mm: p.at.map(to_mm),
+            part: f.part.clone(),
+            potential_kv: to_kv(f.potential),
+            e_kv_per_mm: to_kv_per_mm(f.e),
+        })
+        .collect();
+    let findings = assessment
+        .findings
+        .iter()
+        .map(|f| FindingOut {
+            code: f.kind.code(),
+            severity: match f.kind.severity() {
+                Severity::Info => SeverityOut::Info,
+                Severity::Warning => SeverityOut::Warning,
+                Severity::Fail => SeverityOut::Fail,
+            },
+            part: f.part.clone(),
+            message: message(&f.kind),
+        })
+        .collect();
+    CheckReport {
+        verdict: verdict(assessment.verdict),
+        title: case.title.clone(),
+        geometry: match case.geometry {
+            Geometry::Planar => "planar",
+            Geometry::Axisymmetric => "axisymmetric",
+        },
+        results_per: per,
+        grid: GridOut {
+            nodes: grid.nodes(),
+            nodes_x: grid.nx(),
+            nodes_y: grid.ny(),
+            min_step_mm: to_mm(min_step),
+            max_step_mm: to_mm(max_step),
+        },
+        solve: SolveOut {
+            method: solve.method.clone(),
+            iterations: solve.iterations,
+            relative_residual: solve.relative_residual,
+            unknowns: solve.unknowns,
+            seconds,
+        },
+        capacitance: assessment.capacitance.map(|c| Quantity { value: to_pf(c.from_charge), unit: c_unit }),
+        energy: Quantity { value: fields.energy, unit: w_unit },
+        field_concentration: assessment.concentration.map(|c| ConcentrationOut {
+            e_max_kv_per_mm: to_kv_per_mm(c.e_max),
+            gap_mm: to_mm(c.gap),
+            e_uniform_kv_per_mm: to_kv_per_mm(c.e_uniform),
+            factor: c.factor,
+        }),
+        parts,
+        electrodes,
+        probes,
+        findings,
+        caution: CAUTION,
+        safety_factor: case.safety_factor,
+        format_version: RESULT_FORMAT_VERSION,
+        hvstack_version: env!("CARGO_PKG_VERSION"),
+    }
+}
+
+/// The built-in library in report units.
+pub fn materials() -> Vec<MaterialOut> {
+    LIBRARY
+        .iter()
+        .map(|e| MaterialOut {
+            name: e.name,
+            class: e.class.name(),
+            permittivity: e.permittivity,
+            strength_kv_per_mm: e.strength_kv_per_mm,
+            loss_tangent: e.loss_tangent,
+            source: e.source,
+        })
+        .collect()
+}

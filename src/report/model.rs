@@ -1,0 +1,212 @@
+//! The result model: the only serialisable output of a check, in report
+//! units (mm, kV, kV/mm, pF, nC, J) with the unit in every field name or
+//! beside every value. Building it converts units and words findings; it
+//! computes nothing physical.
+
+use serde::Serialize;
+
+/// Version of the result JSON layout.
+pub const RESULT_FORMAT_VERSION: u32 = 1;
+
+/// A value with its unit.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Quantity {
+    /// Number.
+    pub value: f64,
+    /// Unit, e.g. `pF/m`.
+    pub unit: &'static str,
+}
+
+/// Verdict words.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum VerdictOut {
+    /// Every margin met.
+    Pass,
+    /// Needs an engineer's look.
+    Review,
+    /// Typical strength exceeded.
+    Fail,
+}
+
+/// Severity words.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum SeverityOut {
+    /// For information.
+    Info,
+    /// Needs attention.
+    Warning,
+    /// Fails the case.
+    Fail,
+}
+
+/// `grid`
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct GridOut {
+    /// Node count.
+    pub nodes: usize,
+    /// Nodes along x (or r).
+    pub nodes_x: usize,
+    /// Nodes along y (or z).
+    pub nodes_y: usize,
+    /// Smallest step.
+    pub min_step_mm: f64,
+    /// Largest step.
+    pub max_step_mm: f64,
+}
+
+/// `solve`
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SolveOut {
+    /// Method and preconditioner.
+    pub method: String,
+    /// Iterations.
+    pub iterations: usize,
+    /// True relative residual.
+    pub relative_residual: f64,
+    /// Unknowns.
+    pub unknowns: usize,
+    /// Wall time of the solve (set by the caller; the library has no clock).
+    pub seconds: f64,
+}
+
+/// `field_concentration`
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ConcentrationOut {
+    /// Highest field in any dielectric part.
+    pub e_max_kv_per_mm: f64,
+    /// Shortest distance between electrodes at different fixed potentials.
+    pub gap_mm: f64,
+    /// Largest potential difference / gap.
+    pub e_uniform_kv_per_mm: f64,
+    /// Field enhancement factor e_max / e_uniform.
+    pub factor: f64,
+}
+
+/// One dielectric part.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PartOut {
+    /// Part name.
+    pub name: String,
+    /// Material name.
+    pub material: String,
+    /// Relative permittivity.
+    pub permittivity: f64,
+    /// Peak field (on the part's surface or inside).
+    pub e_max_kv_per_mm: f64,
+    /// Where the peak is, [x, y] (or [r, z]).
+    pub e_max_at_mm: [f64; 2],
+    /// Area- (planar) or volume- (axisymmetric) weighted mean field.
+    pub e_mean_kv_per_mm: f64,
+    /// Largest energy density ½·ε·E².
+    pub w_max_j_per_m3: f64,
+    /// Largest polarisation energy density ½·ε0·(εr−1)·E².
+    pub w_pol_max_j_per_m3: f64,
+    /// Typical short-term breakdown strength (null when the material has none).
+    pub strength_kv_per_mm: Option<f64>,
+    /// strength / e_max (null when there is no strength or no field).
+    pub margin: Option<f64>,
+    /// Part verdict.
+    pub verdict: VerdictOut,
+}
+
+/// One electrode.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ElectrodeOut {
+    /// Part name.
+    pub name: String,
+    /// `fixed` or `floating`.
+    pub kind: &'static str,
+    /// Potential (solved for floating electrodes).
+    pub potential_kv: f64,
+    /// Charge by the Gauss flux integral.
+    pub charge: Quantity,
+}
+
+/// One probe.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ProbeOut {
+    /// Probe name.
+    pub name: String,
+    /// Position.
+    pub at_mm: [f64; 2],
+    /// Part the probe lies in.
+    pub part: String,
+    /// Potential.
+    pub potential_kv: f64,
+    /// |E|.
+    pub e_kv_per_mm: f64,
+}
+
+/// One finding.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct FindingOut {
+    /// Stable kebab-case code.
+    pub code: &'static str,
+    /// Weight.
+    pub severity: SeverityOut,
+    /// Part concerned.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub part: Option<String>,
+    /// What it means and what to do next.
+    pub message: String,
+}
+
+/// The result of `check`.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CheckReport {
+    /// Case verdict.
+    pub verdict: VerdictOut,
+    /// Case title.
+    pub title: String,
+    /// `planar` or `axisymmetric`.
+    pub geometry: &'static str,
+    /// What extensive results refer to.
+    pub results_per: &'static str,
+    /// Grid summary.
+    pub grid: GridOut,
+    /// Solve summary.
+    pub solve: SolveOut,
+    /// Capacitance from the electrode charge (two distinct fixed potentials only).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub capacitance: Option<Quantity>,
+    /// Stored electrostatic energy.
+    pub energy: Quantity,
+    /// Field concentration (electrodes at different potentials only).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub field_concentration: Option<ConcentrationOut>,
+    /// Dielectric parts, background included when it has cells.
+    pub parts: Vec<PartOut>,
+    /// Electrodes.
+    pub electrodes: Vec<ElectrodeOut>,
+    /// Probes.
+    pub probes: Vec<ProbeOut>,
+    /// Findings, most severe first.
+    pub findings: Vec<FindingOut>,
+    /// The screening caution that goes with every result.
+    pub caution: &'static str,
+    /// Required safety factor used.
+    pub safety_factor: f64,
+    /// Result layout version.
+    pub format_version: u32,
+    /// Version of hvstack that produced the result.
+    pub hvstack_version: &'static str,
+}
+
+/// One material of the built-in library, as listed by `materials`.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct MaterialOut {
+    /// Name used in cases.
+    pub name: &'static str,
+    /// gas, liquid or solid.
+    pub class: &'static str,
+    /// Relative permittivity.
+    pub permittivity: f64,
+    /// Typical short-term breakdown strength.
+    pub strength_kv_per_mm: Option<f64>,
+    /// Loss tangent.
+    pub loss_tangent: Option<f64>,
+    /// Source of the values.
+    pub source: &'static str,
+}

@@ -1,0 +1,213 @@
+//! The human report: aligned tables, findings and the caution footer.
+
+use super::{CheckReport, MaterialOut, SeverityOut, VerdictOut};
+use comfy_table::{CellAlignment, Table, presets::NOTHING};
+use std::fmt::Write;
+
+const WIDTH: usize = 100;
+
+/// Four significant digits, switching to exponent form for very large or
+/// small magnitudes.
+pub fn sig4(v: f64) -> String {
+    if v == 0.0 {
+        return "0".to_string();
+    }
+    if !v.is_finite() {
+        return format!("{v}");
+    }
+    let mag = v.abs().log10().floor() as i32;
+    if !(-3..6).contains(&mag) {
+        return format!("{v:.3e}");
+    }
+    let decimals = (3 - mag).max(0) as usize;
+    format!("{v:.decimals$}")
+}
+
+fn opt(v: Option<f64>) -> String {
+    v.map_or_else(|| "—".to_string(), sig4)
+}
+
+fn verdict_word(v: VerdictOut) -> &'static str {
+    match v {
+        VerdictOut::Pass => "pass",
+        VerdictOut::Review => "review",
+        VerdictOut::Fail => "fail",
+    }
+}
+
+fn table(header: &[&str], rows: Vec<Vec<String>>, right: &[usize]) -> String {
+    let mut t = Table::new();
+    t.load_style(NOTHING).set_header(header.to_vec());
+    for r in rows {
+        t.add_row(r);
+    }
+    for &c in right {
+        if let Some(col) = t.column_mut(c) {
+            col.set_cell_alignment(CellAlignment::Right);
+        }
+    }
+    t.lines().map(|l| l.trim_end().to_string()).collect::<Vec<_>>().join("\n")
+}
+
+fn wrap(out: &mut String, first: &str, text: &str) {
+    let indent = " ".repeat(first.chars().count());
+    let opts = textwrap::Options::new(WIDTH).initial_indent(first).subsequent_indent(&indent);
+    for line in textwrap::wrap(text, opts) {
+        let _ = writeln!(out, "{line}");
+    }
+}
+
+/// Renders a check result for a terminal. Deterministic: the solve time is
+/// left out so the same case always gives the same text.
+pub fn render_text(r: &CheckReport) -> String {
+    let mut o = String::new();
+    let _ = writeln!(o, "hvstack {} — screening check", r.hvstack_version);
+    let _ = writeln!(o, "case       {}", r.title);
+    let verdict = match r.verdict {
+        VerdictOut::Pass => "PASS — every part meets the safety factor and nothing is flagged",
+        VerdictOut::Review => "REVIEW — something needs an engineer's look (see findings)",
+        VerdictOut::Fail => "FAIL — a typical breakdown strength is exceeded (see findings)",
+    };
+    let _ = writeln!(o, "verdict    {verdict}");
+    let _ = writeln!(o, "geometry   {}; charge, capacitance and energy {}", r.geometry, r.results_per);
+    let g = &r.grid;
+    let _ = writeln!(
+        o,
+        "grid       {} × {} = {} nodes, steps {} to {} mm",
+        g.nodes_x,
+        g.nodes_y,
+        g.nodes,
+        sig4(g.min_step_mm),
+        sig4(g.max_step_mm)
+    );
+    let s = &r.solve;
+    let _ = writeln!(
+        o,
+        "solve      {}, {} iterations, relative residual {:.1e}, {} unknowns",
+        s.method, s.iterations, s.relative_residual, s.unknowns
+    );
+    let _ = writeln!(o, "limits     safety factor {}", sig4(r.safety_factor));
+
+    let _ = writeln!(o, "\nparts");
+    let rows = r
+        .parts
+        .iter()
+        .map(|p| {
+            vec![
+                p.name.clone(),
+                p.material.clone(),
+                sig4(p.permittivity),
+                sig4(p.e_max_kv_per_mm),
+                format!("{}, {}", sig4(p.e_max_at_mm[0]), sig4(p.e_max_at_mm[1])),
+                sig4(p.e_mean_kv_per_mm),
+                sig4(p.w_pol_max_j_per_m3),
+                opt(p.strength_kv_per_mm),
+                opt(p.margin),
+                verdict_word(p.verdict).to_string(),
+            ]
+        })
+        .collect();
+    let head = [
+        "part",
+        "material",
+        "εr",
+        "E max kV/mm",
+        "at mm",
+        "E mean kV/mm",
+        "w_pol max J/m³",
+        "strength kV/mm",
+        "margin",
+        "verdict",
+    ];
+    let _ = writeln!(o, "{}", table(&head, rows, &[2, 3, 4, 5, 6, 7, 8]));
+
+    let _ = writeln!(o, "\nelectrodes");
+    let unit = r.electrodes.first().map_or("nC", |e| e.charge.unit);
+    let rows = r
+        .electrodes
+        .iter()
+        .map(|e| vec![e.name.clone(), e.kind.to_string(), sig4(e.potential_kv), sig4(e.charge.value)])
+        .collect();
+    let charge_head = format!("charge {unit}");
+    let _ = writeln!(o, "{}", table(&["electrode", "kind", "potential kV", &charge_head], rows, &[2, 3]));
+
+    let _ = writeln!(o);
+    if let Some(c) = &r.field_concentration {
+        let _ = writeln!(
+            o,
+            "field      peak {} kV/mm, gap {} mm, uniform-field value {} kV/mm, enhancement factor {}",
+            sig4(c.e_max_kv_per_mm),
+            sig4(c.gap_mm),
+            sig4(c.e_uniform_kv_per_mm),
+            sig4(c.factor)
+        );
+    }
+    if let Some(c) = &r.capacitance {
+        let _ = writeln!(o, "capacity   {} {} (from the electrode charge)", sig4(c.value), c.unit);
+    }
+    let _ = writeln!(o, "energy     {} {}", sig4(r.energy.value), r.energy.unit);
+
+    if !r.probes.is_empty() {
+        let _ = writeln!(o, "\nprobes");
+        let rows = r
+            .probes
+            .iter()
+            .map(|p| {
+                vec![
+                    p.name.clone(),
+                    format!("{}, {}", sig4(p.at_mm[0]), sig4(p.at_mm[1])),
+                    p.part.clone(),
+                    sig4(p.potential_kv),
+                    sig4(p.e_kv_per_mm),
+                ]
+            })
+            .collect();
+        let _ = writeln!(o, "{}", table(&["probe", "at mm", "in part", "potential kV", "E kV/mm"], rows, &[1, 3, 4]));
+    }
+
+    let _ = writeln!(o, "\nfindings");
+    if r.findings.is_empty() {
+        let _ = writeln!(o, "  none");
+    }
+    for f in &r.findings {
+        let sev = match f.severity {
+            SeverityOut::Info => "info",
+            SeverityOut::Warning => "WARNING",
+            SeverityOut::Fail => "FAIL",
+        };
+        let part = f.part.as_ref().map_or(String::new(), |p| format!(" [{p}]"));
+        wrap(&mut o, &format!("  {sev:<8}"), &format!("{}{part}: {}", f.code, f.message));
+    }
+    let _ = writeln!(o, "\ncaution");
+    wrap(&mut o, "  ", r.caution);
+    o
+}
+
+/// Renders the built-in material library.
+pub fn render_materials(list: &[MaterialOut]) -> String {
+    let mut o = String::new();
+    let rows = list
+        .iter()
+        .map(|m| {
+            vec![
+                m.name.to_string(),
+                m.class.to_string(),
+                sig4(m.permittivity),
+                opt(m.strength_kv_per_mm),
+                opt(m.loss_tangent),
+            ]
+        })
+        .collect();
+    let _ = writeln!(o, "{}", table(&["material", "class", "εr", "strength kV/mm", "tan δ"], rows, &[2, 3, 4]));
+    let _ = writeln!(o, "\nsources");
+    for m in list {
+        wrap(&mut o, &format!("  {:<22}", m.name), m.source);
+    }
+    let _ = writeln!(o);
+    wrap(
+        &mut o,
+        "",
+        "Typical screening values at power frequency and about 20 °C, not design values: use the datasheet of the material you buy, at your thickness, temperature and waveform.",
+    );
+    o
+}

@@ -1,0 +1,164 @@
+//! Plane shapes in SI coordinates (metres) and their point tests.
+//!
+//! Coordinates are (x, y) for planar cases and (r, z) for axisymmetric ones.
+//! Shapes know nothing about grids: painting them onto a grid is `grid`'s job.
+
+/// An axis-aligned rectangle; zero width or height makes a line (a foil).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Rect {
+    /// Lower x bound.
+    pub x0: f64,
+    /// Upper x bound.
+    pub x1: f64,
+    /// Lower y bound.
+    pub y0: f64,
+    /// Upper y bound.
+    pub y1: f64,
+}
+
+impl Rect {
+    /// Width along x.
+    pub fn width(&self) -> f64 {
+        self.x1 - self.x0
+    }
+
+    /// Height along y.
+    pub fn height(&self) -> f64 {
+        self.y1 - self.y0
+    }
+
+    /// True when `p` lies in the closed rectangle grown by `tol` on every side.
+    pub fn contains_closed(&self, p: [f64; 2], tol: f64) -> bool {
+        p[0] >= self.x0 - tol && p[0] <= self.x1 + tol && p[1] >= self.y0 - tol && p[1] <= self.y1 + tol
+    }
+
+    /// True when the two closed rectangles share at least one point.
+    pub fn intersects(&self, other: &Rect) -> bool {
+        self.x0 <= other.x1 && other.x0 <= self.x1 && self.y0 <= other.y1 && other.y0 <= self.y1
+    }
+}
+
+/// A shape a part is drawn with.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Shape {
+    /// Axis-aligned rectangle (or line, when thin in one direction).
+    Rect(Rect),
+    /// Circle (in axisymmetric cases: a torus, or a sphere when centred on the axis).
+    Circle {
+        /// Centre.
+        center: [f64; 2],
+        /// Radius.
+        radius: f64,
+    },
+    /// Simple polygon given by its vertices in order.
+    Polygon(Vec<[f64; 2]>),
+}
+
+impl Shape {
+    /// Bounding box.
+    pub fn bounds(&self) -> Rect {
+        match self {
+            Shape::Rect(r) => *r,
+            Shape::Circle { center, radius } => {
+                Rect { x0: center[0] - radius, x1: center[0] + radius, y0: center[1] - radius, y1: center[1] + radius }
+            }
+            Shape::Polygon(v) => v.iter().fold(
+                Rect { x0: f64::INFINITY, x1: f64::NEG_INFINITY, y0: f64::INFINITY, y1: f64::NEG_INFINITY },
+                |b, p| Rect { x0: b.x0.min(p[0]), x1: b.x1.max(p[0]), y0: b.y0.min(p[1]), y1: b.y1.max(p[1]) },
+            ),
+        }
+    }
+
+    /// Area enclosed (zero for a line).
+    pub fn area(&self) -> f64 {
+        match self {
+            Shape::Rect(r) => r.width() * r.height(),
+            Shape::Circle { radius, .. } => std::f64::consts::PI * radius * radius,
+            Shape::Polygon(v) => polygon_signed_area(v).abs(),
+        }
+    }
+
+    /// Coordinates along x and along y where the shape has an edge, a vertex
+    /// or an extreme point; grid lines are placed there.
+    pub fn breakpoints(&self) -> (Vec<f64>, Vec<f64>) {
+        match self {
+            Shape::Rect(r) => (vec![r.x0, r.x1], vec![r.y0, r.y1]),
+            Shape::Circle { center, radius } => (
+                vec![center[0] - radius, center[0], center[0] + radius],
+                vec![center[1] - radius, center[1], center[1] + radius],
+            ),
+            Shape::Polygon(v) => (v.iter().map(|p| p[0]).collect(), v.iter().map(|p| p[1]).collect()),
+        }
+    }
+
+    /// True when `p` lies inside the shape or within `tol` of its outline.
+    pub fn contains_closed(&self, p: [f64; 2], tol: f64) -> bool {
+        match self {
+            Shape::Rect(r) => r.contains_closed(p, tol),
+            Shape::Circle { center, radius } => {
+                let (dx, dy) = (p[0] - center[0], p[1] - center[1]);
+                (dx * dx + dy * dy).sqrt() <= radius + tol
+            }
+            Shape::Polygon(v) => {
+                point_in_polygon(v, p) || polygon_edges(v).any(|(a, b)| segment_distance(a, b, p) <= tol)
+            }
+        }
+    }
+}
+
+fn polygon_edges(v: &[[f64; 2]]) -> impl Iterator<Item = ([f64; 2], [f64; 2])> + '_ {
+    (0..v.len()).map(move |i| (v[i], v[(i + 1) % v.len()]))
+}
+
+/// Shoelace formula.
+fn polygon_signed_area(v: &[[f64; 2]]) -> f64 {
+    0.5 * polygon_edges(v).map(|(a, b)| a[0] * b[1] - b[0] * a[1]).sum::<f64>()
+}
+
+/// Crossing-number test (points on the outline may go either way).
+fn point_in_polygon(v: &[[f64; 2]], p: [f64; 2]) -> bool {
+    let mut inside = false;
+    for (a, b) in polygon_edges(v) {
+        if (a[1] > p[1]) != (b[1] > p[1]) {
+            let x = a[0] + (p[1] - a[1]) / (b[1] - a[1]) * (b[0] - a[0]);
+            if p[0] < x {
+                inside = !inside;
+            }
+        }
+    }
+    inside
+}
+
+/// Euclidean distance from `p` to the segment `a`–`b`.
+pub fn segment_distance(a: [f64; 2], b: [f64; 2], p: [f64; 2]) -> f64 {
+    let (dx, dy) = (b[0] - a[0], b[1] - a[1]);
+    let len2 = dx * dx + dy * dy;
+    let t = if len2 > 0.0 { (((p[0] - a[0]) * dx + (p[1] - a[1]) * dy) / len2).clamp(0.0, 1.0) } else { 0.0 };
+    let (qx, qy) = (a[0] + t * dx - p[0], a[1] + t * dy - p[1]);
+    (qx * qx + qy * qy).sqrt()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn polygon_area_and_membership() {
+        // unit square and a right triangle: elementary geometry, common practice
+        let sq = Shape::Polygon(vec![[0.0, 0.0], [1.0, 0.0], [1.0, 1.0], [0.0, 1.0]]);
+        assert!((sq.area() - 1.0).abs() < 1e-15);
+        assert!(sq.contains_closed([0.5, 0.5], 0.0));
+        assert!(sq.contains_closed([1.0, 0.5], 1e-12));
+        assert!(!sq.contains_closed([1.1, 0.5], 1e-12));
+        let tri = Shape::Polygon(vec![[0.0, 0.0], [2.0, 0.0], [0.0, 2.0]]);
+        assert!((tri.area() - 2.0).abs() < 1e-15);
+        assert!(!tri.contains_closed([1.5, 1.5], 1e-9));
+    }
+
+    #[test]
+    fn circle_membership_is_closed() {
+        let c = Shape::Circle { center: [0.0, 0.0], radius: 1.0 };
+        assert!(c.contains_closed([1.0, 0.0], 1e-12));
+        assert!(!c.contains_closed([0.8, 0.8], 1e-12));
+    }
+}
