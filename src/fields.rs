@@ -3,9 +3,10 @@
 //!
 //! Edge quantities. On each horizontal edge the flux-like value
 //! `G = r·E_r` (axisymmetric) or `G = E_x` (planar) is taken from the same
-//! form the assembly used: `G = Δφ/ln(r2/r1)` on radial edges away from the
-//! axis (constant along a coaxial layer, so coaxial stacks come out exact),
-//! `G = r_mid·Δφ/h` next to the axis, `G = Δφ/h` in planar cases. Vertical
+//! form the assembly used (`assemble::radial_weight`): `G = Δφ/ln(r2/r1)`
+//! on radial edges away from the axis (constant along a coaxial layer, so
+//! coaxial stacks come out exact), `G = r_mid·Δφ/h` in the first cells off
+//! the axis, `G = Δφ/h` in planar cases. Vertical
 //! edges carry `E_y = Δφ/h`. Each value is second-order accurate at its edge
 //! midpoint.
 //!
@@ -23,7 +24,7 @@
 //! from cell-centre fields is kept for the capacitance cross-check.
 //! Charges are the Gauss flux out of each electrode's nodes.
 
-use crate::assemble::Stencil;
+use crate::assemble::{Stencil, is_log_form, radial_weight};
 use crate::case::{Case, ElectrodeKind, Geometry, Normalisation};
 use crate::grid::{CONDUCTOR, CellIx, Grid, Layout, NO_ELECTRODE, NodeIx};
 use std::f64::consts::PI;
@@ -106,8 +107,7 @@ fn edge_values(grid: &Grid, geometry: Geometry, phi: &[f64]) -> EdgeValues {
             let (x0, x1) = (grid.x[i], grid.x[i + 1]);
             gx[j * (nx - 1) + i] = match geometry {
                 Geometry::Planar => d / (x1 - x0),
-                Geometry::Axisymmetric if x0 > 0.0 => d / (x1 / x0).ln(),
-                Geometry::Axisymmetric => 0.5 * (x0 + x1) * d / (x1 - x0),
+                Geometry::Axisymmetric => d * radial_weight(x0, x1),
             };
         }
     }
@@ -202,7 +202,7 @@ pub fn compute(case: &Case, grid: &Grid, layout: &Layout, stencil: &Stencil, phi
             e_vol[r] += e * v;
             // ∫E_r² dV in closed form for the 1/r profile of a log-form cell
             let int_ex2 = match geo {
-                Geometry::Axisymmetric if x0 > 0.0 => 2.0 * PI * hy * g * g * (x1 / x0).ln(),
+                Geometry::Axisymmetric if is_log_form(x0) => 2.0 * PI * hy * g * g / radial_weight(x0, x1),
                 _ => ex * ex * v,
             };
             energy_cells += 0.5 * eps[r] * (int_ex2 + ey * ey * v);

@@ -1,0 +1,166 @@
+//! Numerical properties of the discretisation and the solver: observed
+//! convergence order, agreement with an independent dense solver, symmetry,
+//! residuals and the maximum principle.
+
+use hvstack::assemble::{Constraint, Stencil, System};
+use hvstack::case::{Geometry, GridSpec};
+use hvstack::grid::{Grid, graded_axis};
+use hvstack::solve::{Jacobi, SolveOptions, pcg, relative_residual};
+use nalgebra::{DMatrix, DVector};
+
+const TIGHT: SolveOptions = SolveOptions { rel_tol: 1e-13, max_iterations: 100_000 };
+
+/// Solves div(grad φ) = 0 with φ = exact on the boundary nodes (except the
+/// axis in axisymmetric cases, which is a natural zero-flux boundary) and
+/// returns the largest nodal error.
+fn max_error(grid: &Grid, geometry: Geometry, exact: impl Fn(f64, f64) -> f64) -> f64 {
+    let stencil = Stencil::build(grid, geometry, |_| Some(1.0));
+    let (nx, ny) = (grid.nx(), grid.ny());
+    let mut cons = vec![Constraint::Free; grid.nodes()];
+    for j in 0..ny {
+        for i in 0..nx {
+            let on_axis = geometry == Geometry::Axisymmetric && i == 0;
+            if (i == nx - 1 || j == 0 || j == ny - 1 || i == 0) && !(on_axis && j > 0 && j < ny - 1) {
+                cons[grid.node(i, j).0] = Constraint::Fixed(exact(grid.x[i], grid.y[j]));
+            }
+        }
+    }
+    let sys = System::assemble(grid, &stencil, &cons).unwrap();
+    let (u, _) = pcg(&sys.matrix, &sys.rhs, &Jacobi::new(&sys.matrix), &TIGHT).unwrap();
+    let phi = sys.expand(&u);
+    (0..grid.nodes())
+        .map(|n| {
+            let [x, y] = grid.node_pos(hvstack::grid::NodeIx(n));
+            (phi[n] - exact(x, y)).abs()
+        })
+        .fold(0.0, f64::max)
+}
+
+/// Nested graded grids on [0, 1]²: a graded base grid (steps growing by
+/// 1.3 away from a thin feature at 0.10–0.13), then each step halved
+/// `level` times, so every level has the same grading pattern.
+fn graded_grid(level: u32) -> Grid {
+    let spec = GridSpec { max_step: 0.125, min_step: 1e-9, cells_across: 2, growth: 1.3 };
+    let mut v = graded_axis(0.0, 1.0, &[0.1, 0.13], &spec);
+    for _ in 0..level {
+        let mut w: Vec<f64> = v.windows(2).flat_map(|p| [p[0], 0.5 * (p[0] + p[1])]).collect();
+        w.push(1.0);
+        v = w;
+    }
+    Grid { x: v.clone(), y: v }
+}
+
+fn observed_orders(errors: &[f64]) -> Vec<f64> {
+    errors.windows(2).map(|w| (w[0] / w[1]).log2()).collect()
+}
+
+/// The 5-point box-integration scheme is second-order accurate for smooth
+/// solutions (common practice; e.g. LeVeque, Finite Difference Methods for
+/// ODEs and PDEs, SIAM 2007, ch. 3).
+#[test]
+fn planar_scheme_converges_at_second_order() {
+    // e^{πx}·sin(πy) is harmonic (common practice)
+    let exact = |x: f64, y: f64| (std::f64::consts::PI * x).exp() * (std::f64::consts::PI * y).sin();
+    let errors: Vec<f64> = (0..4).map(|l| max_error(&graded_grid(l), Geometry::Planar, exact)).collect();
+    let orders = observed_orders(&errors);
+    eprintln!("errors {errors:?}, orders {orders:?}");
+    assert!(orders.iter().all(|p| (*p - 2.0).abs() < 0.1), "errors {errors:?}, orders {orders:?}");
+}
+
+/// The r-weighted axisymmetric scheme, axis included, is second-order
+/// accurate too. 1/|x − x0| with x0 = (0, −0.5) off the domain is harmonic in
+/// 3D and axisymmetric (potential of a point charge, common practice).
+#[test]
+fn axisymmetric_scheme_converges_at_second_order() {
+    let exact = |r: f64, z: f64| 1.0 / (r * r + (z + 0.5) * (z + 0.5)).sqrt();
+    let errors: Vec<f64> = (0..4).map(|l| max_error(&graded_grid(l), Geometry::Axisymmetric, exact)).collect();
+    let orders = observed_orders(&errors);
+    eprintln!("errors {errors:?}, orders {orders:?}");
+    assert!(orders.iter().all(|p| (*p - 2.0).abs() < 0.1), "errors {errors:?}, orders {orders:?}");
+}
+
+fn small_cases() -> Vec<&'static str> {
+    vec![
+        "
+title: dense check planar
+geometry: planar
+domain: { x: [0, 20], y: [0, 12] }
+grid: { max_step: 1.0, cells_across: 2 }
+parts:
+  - { name: slab, material: glass, shape: { rect: { x: [2, 18], y: [0, 5] } } }
+  - { name: ground, electrode: { potential_kv: 0 }, shape: { rect: { x: [0, 20], y: [0, 0] } } }
+  - { name: bar, electrode: { potential_kv: 5 }, shape: { rect: { x: [8, 12], y: [5, 7] } } }
+  - { name: foil, electrode: floating, shape: { rect: { x: [3, 7], y: [3, 3] } } }
+",
+        "
+title: dense check axisymmetric
+geometry: axisymmetric
+domain: { x: [0, 15], y: [0, 15] }
+grid: { max_step: 1.0, cells_across: 2 }
+parts:
+  - { name: sleeve, material: porcelain, shape: { rect: { x: [4, 9], y: [2, 13] } } }
+  - { name: rod, electrode: { potential_kv: 12 }, shape: { rect: { x: [0, 3], y: [0, 15] } } }
+  - { name: ring, electrode: floating, shape: { rect: { x: [6, 6], y: [5, 10] } } }
+  - { name: tank, electrode: { potential_kv: 0 }, shape: { rect: { x: [15, 15], y: [0, 15] } } }
+",
+    ]
+}
+
+/// Independent check: the same matrix solved by a dense Cholesky
+/// factorisation (nalgebra) agrees with PCG to near machine precision.
+#[test]
+fn pcg_agrees_with_a_dense_direct_solve() {
+    for yaml in small_cases() {
+        let case = hvstack::case::parse(yaml, "dense.yaml").unwrap();
+        let prepared = hvstack::prepare(case, "dense.yaml", &hvstack::Options::default()).unwrap();
+        let a = &prepared.system.matrix;
+        let n = a.rows();
+        assert!(n < 700, "keep the dense test small: {n}");
+        let dense = DMatrix::from_fn(n, n, |i, j| a.get(i, j).copied().unwrap_or(0.0));
+        assert_eq!(dense, dense.transpose(), "the assembled matrix is symmetric");
+        let b = DVector::from_vec(prepared.system.rhs.clone());
+        let direct = dense.clone().cholesky().expect("symmetric positive definite").solve(&b);
+        let (u, rep) = pcg(a, &prepared.system.rhs, &Jacobi::new(a), &TIGHT).unwrap();
+        let scale = b.amax().max(1.0);
+        let direct_res = (&b - &dense * &direct).amax() / scale;
+        // round-off of a dense factorisation: a few hundred ulps of the data
+        assert!(direct_res < 1e-12, "dense residual {direct_res}");
+        let diff = u.iter().zip(direct.iter()).map(|(p, q)| (p - q).abs()).fold(0.0, f64::max);
+        let vmax = 12e3;
+        assert!(diff < 1e-9 * vmax, "PCG vs dense: {diff} V");
+        assert!(rep.relative_residual <= 10.0 * TIGHT.rel_tol);
+        assert!(relative_residual(a, &u, &prepared.system.rhs) <= 10.0 * TIGHT.rel_tol);
+    }
+}
+
+/// Maximum principle: without space charge, potentials lie between the
+/// lowest and highest electrode potentials (common practice).
+#[test]
+fn potentials_obey_the_maximum_principle_on_every_demo_case() {
+    let mut seen = 0;
+    for entry in std::fs::read_dir("cases").unwrap() {
+        let path = entry.unwrap().path();
+        if path.extension().and_then(|e| e.to_str()) != Some("yaml") {
+            continue;
+        }
+        let text = std::fs::read_to_string(&path).unwrap();
+        let file = path.display().to_string();
+        let opts = hvstack::Options::default();
+        let prepared = hvstack::prepare(hvstack::case::parse(&text, &file).unwrap(), &file, &opts).unwrap();
+        let sol = prepared.solve(&opts.solve).unwrap();
+        let fixed: Vec<f64> = prepared
+            .case
+            .electrodes()
+            .filter_map(|(_, _, k)| match k {
+                hvstack::case::ElectrodeKind::Fixed { potential_v } => Some(potential_v),
+                _ => None,
+            })
+            .collect();
+        let lo = fixed.iter().copied().fold(f64::INFINITY, f64::min);
+        let hi = fixed.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        let tol = 1e-8 * (hi - lo);
+        assert!(sol.phi.iter().all(|p| *p >= lo - tol && *p <= hi + tol), "{file}");
+        seen += 1;
+    }
+    assert!(seen >= 5);
+}
