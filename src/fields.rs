@@ -29,6 +29,10 @@ use crate::case::{Case, ElectrodeKind, Geometry, Normalisation};
 use crate::grid::{CONDUCTOR, CellIx, Grid, Layout, NO_ELECTRODE, NodeIx};
 use std::f64::consts::PI;
 
+/// Charges below this fraction of the largest electrode charge are reported
+/// as zero (solver round-off, well above the 1e-10 solve tolerance's effect).
+const CHARGE_RESOLUTION: f64 = 1e-8;
+
 /// Relative difference under which two peak candidates count as equal.
 const TIE: f64 = 1e-9;
 
@@ -260,13 +264,21 @@ pub fn compute(case: &Case, grid: &Grid, layout: &Layout, stencil: &Stencil, phi
             members[e as usize].push(NodeIx(n));
         }
     }
-    let electrodes = members
+    let mut electrodes: Vec<ElectrodeField> = members
         .iter()
         .map(|nodes| ElectrodeField {
             potential: phi[nodes[0].0],
             charge: scale * stencil.outflux(grid, phi, nodes.iter().copied()),
         })
         .collect();
+    // Charges far below the largest one are solver round-off (a floating
+    // electrode's net charge is zero by construction): report them as zero.
+    let largest = electrodes.iter().map(|e| e.charge.abs()).fold(0.0, f64::max);
+    for e in &mut electrodes {
+        if e.charge.abs() <= CHARGE_RESOLUTION * largest {
+            e.charge = 0.0;
+        }
+    }
 
     let probes = case.probes.iter().map(|p| probe(grid, layout, geo, phi, &ev, p.at)).collect();
     Fields {

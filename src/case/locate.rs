@@ -23,7 +23,10 @@ impl Locations {
         parser
             .load(&mut builder, false)
             .map_err(|e| (e.marker().line(), e.marker().col() + 1, e.info().to_string()))?;
-        Ok(Locations { map: builder.map })
+        let mut map = builder.map;
+        // top-level problems (a missing key) point at the start of the file
+        map.insert(String::new(), (1, 1));
+        Ok(Locations { map })
     }
 
     /// Position of `path`, or of its nearest ancestor that has one.
@@ -33,8 +36,10 @@ impl Locations {
             if let Some(&pos) = self.map.get(p) {
                 return Some(pos);
             }
-            let cut = p.rfind(['.', '['])?;
-            p = &p[..cut];
+            if p.is_empty() {
+                return None;
+            }
+            p = &p[..p.rfind(['.', '[']).unwrap_or(0)];
         }
     }
 }

@@ -84,7 +84,11 @@ pub fn parse(text: &str, file: &str) -> Result<Case, CaseError> {
             },
         };
         let message = strip_location(&inner.to_string());
-        let message = message.strip_prefix(&format!("{key}: ")).map(str::to_string).unwrap_or(message);
+        // serde_yaml may put its own (shorter) path in front; ours is shown already
+        let message = match message.split_once(": ") {
+            Some((head, rest)) if !head.is_empty() && key.starts_with(head) => rest.to_string(),
+            _ => message,
+        };
         fail(vec![Diagnostic { key, line, column, message }])
     })?;
     let (case, mut diagnostics) = validate::validate(parsed, &locations);

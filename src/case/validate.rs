@@ -77,6 +77,8 @@ impl Ctx<'_> {
 /// Materials in use, resolved on first use so the list stays small and ordered.
 struct MaterialTable {
     user: BTreeMap<String, Material>,
+    /// User materials that failed validation (already reported).
+    invalid: BTreeSet<String>,
     used: Vec<Material>,
     ids: BTreeMap<String, MaterialId>,
 }
@@ -85,6 +87,9 @@ impl MaterialTable {
     fn resolve(&mut self, ctx: &mut Ctx, key: &str, name: &str) -> Option<MaterialId> {
         if let Some(&id) = self.ids.get(name) {
             return Some(id);
+        }
+        if self.invalid.contains(name) {
+            return None;
         }
         let m = match self.user.get(name) {
             Some(m) => m.clone(),
@@ -356,6 +361,12 @@ fn grid_spec(ctx: &mut Ctx, g: Option<&GridFile>, domain: &Rect) -> Option<GridS
         ok &= ctx.positive("grid.min_step", s, "min_step");
         spec.min_step = units::mm(s);
     }
+    // A step given alone pulls the other default along rather than clash with it.
+    match (g.max_step, g.min_step) {
+        (Some(_), None) => spec.min_step = spec.min_step.min(spec.max_step),
+        (None, Some(_)) => spec.max_step = spec.max_step.max(spec.min_step),
+        _ => {}
+    }
     if ok && spec.min_step > spec.max_step {
         ctx.err("grid.min_step", "min_step must not exceed max_step");
         ok = false;
@@ -389,13 +400,17 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
         ok = false;
     }
 
-    let mut table = MaterialTable { user: BTreeMap::new(), used: Vec::new(), ids: BTreeMap::new() };
+    let mut table =
+        MaterialTable { user: BTreeMap::new(), invalid: BTreeSet::new(), used: Vec::new(), ids: BTreeMap::new() };
     for (name, m) in f.materials.iter().flatten() {
         match user_material(&mut ctx, name, m) {
             Some(m) => {
                 table.user.insert(name.clone(), m);
             }
-            None => ok = false,
+            None => {
+                table.invalid.insert(name.clone());
+                ok = false;
+            }
         }
     }
 

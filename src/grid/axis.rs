@@ -17,28 +17,66 @@ use crate::case::GridSpec;
 /// Relative tolerance under which two feature coordinates are one grid line.
 pub const MERGE_TOLERANCE: f64 = 1e-9;
 
+/// The planned cells of one axis: each interval between feature lines with
+/// its step-size function and cell count. Counting is cheap, so the grid
+/// size can be checked before any node is placed.
+pub struct AxisPlan {
+    intervals: Vec<(f64, f64, StepSize, usize)>,
+}
+
+impl AxisPlan {
+    /// Plans the axis from `lo` to `hi` with grid lines at every feature
+    /// coordinate that lies inside.
+    pub fn new(lo: f64, hi: f64, features: &[f64], spec: &GridSpec) -> AxisPlan {
+        let lines = feature_lines(lo, hi, features);
+        let beta = spec.growth - 1.0;
+        let requests: Vec<f64> = lines
+            .windows(2)
+            .map(|w| {
+                let len = w[1] - w[0];
+                (len / spec.cells_across as f64).max(spec.min_step).min(spec.max_step).min(len)
+            })
+            .collect();
+        let k = requests.len();
+        // Influence of the intervals to the left / right, as lines in x:
+        // prefix and suffix minima of h_j ∓ β·(nearest end of interval j).
+        let mut left = vec![f64::INFINITY; k];
+        let mut right = vec![f64::INFINITY; k];
+        for j in 1..k {
+            left[j] = left[j - 1].min(requests[j - 1] - beta * lines[j]);
+        }
+        for j in (0..k.saturating_sub(1)).rev() {
+            right[j] = right[j + 1].min(requests[j + 1] + beta * lines[j + 1]);
+        }
+        let intervals = (0..k)
+            .map(|j| {
+                let size = StepSize { cap: requests[j], left: left[j], right: right[j], beta };
+                let n = size.cells(lines[j], lines[j + 1]);
+                (lines[j], lines[j + 1], size, n)
+            })
+            .collect();
+        AxisPlan { intervals }
+    }
+
+    /// Number of nodes the axis will have (saturating).
+    pub fn nodes(&self) -> usize {
+        self.intervals.iter().fold(1usize, |acc, i| acc.saturating_add(i.3))
+    }
+
+    /// Places the nodes.
+    pub fn place(&self) -> Vec<f64> {
+        let mut nodes = vec![self.intervals[0].0];
+        for (a, b, size, n) in &self.intervals {
+            nodes.extend(size.place(*a, *b, *n).into_iter().skip(1));
+        }
+        nodes
+    }
+}
+
 /// Node coordinates from `lo` to `hi`, including every feature coordinate
 /// that lies inside.
 pub fn graded_axis(lo: f64, hi: f64, features: &[f64], spec: &GridSpec) -> Vec<f64> {
-    let lines = feature_lines(lo, hi, features);
-    let beta = spec.growth - 1.0;
-    let requests: Vec<f64> = lines
-        .windows(2)
-        .map(|w| {
-            let len = w[1] - w[0];
-            (len / spec.cells_across as f64).max(spec.min_step).min(spec.max_step).min(len)
-        })
-        .collect();
-    let mut nodes = vec![lines[0]];
-    for k in 0..requests.len() {
-        let (a, b) = (lines[k], lines[k + 1]);
-        // Nearest-side influence of the other intervals, as lines in x.
-        let left = (0..k).map(|j| requests[j] - beta * lines[j + 1]).fold(f64::INFINITY, f64::min);
-        let right = (k + 1..requests.len()).map(|j| requests[j] + beta * lines[j]).fold(f64::INFINITY, f64::min);
-        let size = StepSize { cap: requests[k], left, right, beta };
-        nodes.extend(size.place(a, b).into_iter().skip(1));
-    }
-    nodes
+    AxisPlan::new(lo, hi, features, spec).place()
 }
 
 /// Sorted, merged feature coordinates clipped to [lo, hi], ends included.
@@ -128,12 +166,18 @@ impl StepSize {
             .collect()
     }
 
-    /// Node positions from a to b (both included).
-    fn place(&self, a: f64, b: f64) -> Vec<f64> {
+    /// Cells needed from a to b: `∫ dx/h` rounded up (at least 1; capped to
+    /// stay a usize).
+    fn cells(&self, a: f64, b: f64) -> usize {
+        let total: f64 = self.pieces(a, b).iter().map(|p| p.integral_to(p.v)).sum();
+        (total - 1e-9).ceil().clamp(1.0, 1e15) as usize
+    }
+
+    /// `n` cells from a to b (both ends included), equidistributing ∫ dx/h.
+    fn place(&self, a: f64, b: f64, n: usize) -> Vec<f64> {
         let pieces = self.pieces(a, b);
         let shares: Vec<f64> = pieces.iter().map(|p| p.integral_to(p.v)).collect();
         let total: f64 = shares.iter().sum();
-        let n = (total - 1e-9).ceil().max(1.0) as usize;
         let mut out = Vec::with_capacity(n + 1);
         out.push(a);
         let (mut k, mut before) = (0, 0.0);

@@ -7,7 +7,7 @@
 mod axis;
 mod paint;
 
-pub use axis::graded_axis;
+pub use axis::{AxisPlan, graded_axis};
 pub use paint::{CONDUCTOR, ElectrodeInfo, Layout, NO_ELECTRODE, Region};
 
 use crate::case::Case;
@@ -100,13 +100,14 @@ impl Grid {
             fx.extend(bx);
             fy.extend(by);
         }
-        let x = graded_axis(d.x0, d.x1, &fx, &case.grid);
-        let y = graded_axis(d.y0, d.y1, &fy, &case.grid);
-        let nodes = x.len().saturating_mul(y.len());
+        let px = AxisPlan::new(d.x0, d.x1, &fx, &case.grid);
+        let py = AxisPlan::new(d.y0, d.y1, &fy, &case.grid);
+        let (nx, ny) = (px.nodes(), py.nodes());
+        let nodes = nx.saturating_mul(ny);
         if nodes > limits.max_nodes {
-            return Err(GridError::TooLarge { nodes, nx: x.len(), ny: y.len(), limit: limits.max_nodes });
+            return Err(GridError::TooLarge { nodes, nx, ny, limit: limits.max_nodes });
         }
-        Ok(Grid { x, y })
+        Ok(Grid { x: px.place(), y: py.place() })
     }
 
     /// Nodes along x.

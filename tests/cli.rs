@@ -1,0 +1,113 @@
+//! The command line as a user meets it: exit status, streams, messages.
+
+use std::path::Path;
+use std::process::{Command, Output};
+
+fn hvstack(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_hvstack")).args(args).output().expect("binary runs")
+}
+
+fn stderr(o: &Output) -> String {
+    String::from_utf8_lossy(&o.stderr).into_owned()
+}
+
+/// Every file in tests/bad states the message fragment it must produce
+/// (`# expect: …`) and, where a line applies, the line (`# line: N`).
+#[test]
+fn bad_inputs_exit_2_with_a_located_message() {
+    let mut count = 0;
+    let mut paths: Vec<_> = std::fs::read_dir("tests/bad").unwrap().map(|e| e.unwrap().path()).collect();
+    paths.sort();
+    for path in paths {
+        if path.extension().and_then(|e| e.to_str()) != Some("yaml") {
+            continue;
+        }
+        let text = std::fs::read_to_string(&path).unwrap();
+        let header = |key: &str| text.lines().find_map(|l| l.strip_prefix(&format!("# {key}: ")).map(str::to_string));
+        let expect = header("expect").unwrap_or_else(|| panic!("{}: no `# expect:` line", path.display()));
+        let file = path.to_str().unwrap();
+        let out = hvstack(&["check", file]);
+        let err = stderr(&out);
+        assert_eq!(out.status.code(), Some(2), "{file}: {err}");
+        assert!(out.stdout.is_empty(), "{file}: nothing on stdout");
+        assert!(err.contains(&expect), "{file}: expected «{expect}» in «{err}»");
+        assert!(err.starts_with(file), "{file}: message names the file: «{err}»");
+        if let Some(line) = header("line") {
+            assert!(err.contains(&format!("{file}:{line}")), "{file}: expected line {line} in «{err}»");
+        }
+        assert!(!err.contains("panicked"), "{file}");
+        count += 1;
+    }
+    assert!(count >= 30, "catalogue has {count} files");
+}
+
+#[test]
+fn demo_cases_exit_by_verdict_and_json_is_alone_on_stdout() {
+    let mut seen = 0;
+    for entry in std::fs::read_dir("cases").unwrap() {
+        let path = entry.unwrap().path();
+        if path.extension().and_then(|e| e.to_str()) != Some("yaml") {
+            continue;
+        }
+        let out = hvstack(&["check", path.to_str().unwrap(), "--format", "json"]);
+        let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("stdout is one JSON document");
+        let expected = if v["verdict"] == "pass" { 0 } else { 1 };
+        assert_eq!(out.status.code(), Some(expected), "{}", path.display());
+        for key in
+            ["verdict", "title", "geometry", "grid", "solve", "energy", "parts", "electrodes", "probes", "findings"]
+        {
+            assert!(v.get(key).is_some(), "{}: missing {key}", path.display());
+        }
+        assert!(v["caution"].as_str().unwrap().contains("licensed"));
+        let text = hvstack(&["check", path.to_str().unwrap()]);
+        assert_eq!(text.status.code(), Some(expected));
+        assert!(String::from_utf8_lossy(&text.stdout).contains("caution"));
+        seen += 1;
+    }
+    assert!(seen >= 5);
+}
+
+#[test]
+fn same_case_gives_identical_json_apart_from_the_solve_time() {
+    let run = || {
+        let out = hvstack(&["check", "cases/condenser-foils.yaml", "--format", "json"]);
+        let mut v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+        v["solve"]["seconds"] = serde_json::Value::Null;
+        serde_json::to_string(&v).unwrap()
+    };
+    assert_eq!(run(), run());
+}
+
+#[test]
+fn materials_are_listed_with_sources() {
+    let out = hvstack(&["materials", "--format", "json"]);
+    assert_eq!(out.status.code(), Some(0));
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let list = v.as_array().unwrap();
+    assert!(list.len() >= 15);
+    assert!(list.iter().all(|m| !m["source"].as_str().unwrap().is_empty()));
+    let text = hvstack(&["materials"]);
+    assert!(String::from_utf8_lossy(&text.stdout).contains("polyimide"));
+}
+
+#[test]
+fn help_is_there_for_every_command() {
+    for args in [vec!["--help"], vec!["check", "--help"], vec!["materials", "--help"]] {
+        let out = hvstack(&args);
+        assert_eq!(out.status.code(), Some(0));
+        assert!(!out.stdout.is_empty());
+    }
+    let out = hvstack(&["check", "--help"]);
+    assert!(
+        String::from_utf8_lossy(&out.stdout).contains("Exit status")
+            || String::from_utf8_lossy(&hvstack(&["--help"]).stdout).contains("Exit status")
+    );
+}
+
+#[test]
+fn a_missing_file_is_exit_2() {
+    let out = hvstack(&["check", "no/such/case.yaml"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(stderr(&out).contains("no/such/case.yaml"));
+    assert!(!Path::new("no").exists());
+}
