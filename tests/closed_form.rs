@@ -181,3 +181,65 @@ fn energy_and_charge_capacitances_agree() {
         assert!(!assessment.findings.iter().any(|f| f.kind.code() == "capacitance-cross-check"));
     }
 }
+
+/// A coaxial stack inside a given domain is still a slice of cable: results
+/// per metre of the domain's axial extent (C' = 2π·ε0·εr / ln(R/r),
+/// common practice), and a foil across that extent sits at the log divider.
+#[test]
+fn coaxial_stack_in_a_given_domain_reports_per_metre() {
+    let r = run("
+title: coax in a domain
+domain: { x: [5, 20], y: [0, 12] }
+stack:
+  form: coaxial
+  voltage_kv: 40
+  inner_radius: 5
+  layers:
+    - { name: wall, material: epr, thickness: 15 }
+parts:
+  - { name: foil, electrode: floating, shape: { rect: { x: [10, 10], y: [0, 12] } } }
+");
+    let c = r.capacitance.as_ref().unwrap();
+    assert_eq!(c.unit, "pF/m");
+    let expect = 2.0 * std::f64::consts::PI * EPSILON_0 * 3.0 / (20.0f64 / 5.0).ln() * 1e12;
+    assert!(rel(c.value, expect) < 1e-6, "{} vs {expect}", c.value);
+    let foil = r.electrodes.iter().find(|e| e.name == "foil").unwrap();
+    assert!(rel(foil.potential_kv, 40.0 * (20.0f64 / 10.0).ln() / (20.0f64 / 5.0).ln()) < 1e-6);
+    // E(r) = U / (r·ln(R/r_i)) at the conductor (common practice)
+    assert!(rel(part(&r, "wall").e_max_kv_per_mm, 40.0 / (5.0 * (4.0f64).ln())) < 1e-6);
+}
+
+/// Two electrodes at one potential: no field, and a warning instead of a
+/// clean pass (issue contract).
+#[test]
+fn electrodes_without_potential_difference_are_flagged() {
+    let r = run("
+title: both earthed
+geometry: planar
+domain: { x: [0, 10], y: [0, 10] }
+parts:
+  - { name: a, electrode: { potential_kv: 0 }, shape: { rect: { x: [0, 10], y: [0, 0] } } }
+  - { name: b, electrode: { potential_kv: 0 }, shape: { rect: { x: [0, 10], y: [10, 10] } } }
+");
+    assert!(r.findings.iter().any(|f| f.code == "no-potential-difference"));
+    assert_eq!(r.verdict, VerdictOut::Review);
+    assert!(r.capacitance.is_none() && r.field_concentration.is_none());
+}
+
+/// A layer with fewer than three cells across gets the coarse-grid warning.
+#[test]
+fn a_grid_too_coarse_for_a_layer_is_flagged() {
+    let r = run("
+title: coarse
+grid: { max_step: 5, cells_across: 1 }
+stack:
+  form: planar
+  voltage_kv: 1
+  width: 10
+  layers:
+    - { name: film, material: polyimide, thickness: 0.1 }
+    - { name: board, material: glass, thickness: 3 }
+");
+    assert!(r.findings.iter().any(|f| f.code == "coarse-grid" && f.part.as_deref() == Some("film")));
+    assert_eq!(r.verdict, VerdictOut::Review);
+}

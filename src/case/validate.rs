@@ -238,12 +238,16 @@ fn shape(ctx: &mut Ctx, key: &str, s: &ShapeFile) -> Option<Shape> {
 
 struct Stack {
     parts: Vec<Part>,
+    /// The domain the stack implies (used when the case gives none).
     domain: Rect,
-    normalisation: Normalisation,
-    geometry: Geometry,
+    coaxial: bool,
 }
 
-fn stack(ctx: &mut Ctx, s: &StackFile, table: &mut MaterialTable) -> Option<Stack> {
+/// Builds a stack's layers and electrodes as parts. Planar layers span the
+/// `width` (else the given domain's x range, else the default width);
+/// coaxial layers span the `length` (else the given domain's y range, else
+/// the total insulation thickness).
+fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut MaterialTable) -> Option<Stack> {
     let mut ok = ctx.finite("stack.voltage_kv", s.voltage_kv);
     if s.layers.is_empty() {
         ctx.err("stack.layers", "a stack needs at least one layer");
@@ -279,30 +283,30 @@ fn stack(ctx: &mut Ctx, s: &StackFile, table: &mut MaterialTable) -> Option<Stac
                     ok = false;
                 }
             }
-            let w = s.width.unwrap_or(DEFAULT_STACK_WIDTH_MM);
-            ok &= ctx.positive("stack.width", w, "width");
-            let w = units::mm(w);
+            let (x0, w) = match (s.width, domain) {
+                (Some(w), _) => {
+                    ok &= ctx.positive("stack.width", w, "width");
+                    (0.0, units::mm(w))
+                }
+                (None, Some(d)) => (d.x0, d.x1),
+                (None, None) => (0.0, units::mm(DEFAULT_STACK_WIDTH_MM)),
+            };
             let mut y = 0.0;
             let mut parts = Vec::new();
             for (name, m, t, key) in layers {
                 parts.push(Part {
                     name,
                     role: Role::Dielectric(m),
-                    shape: Shape::Rect(Rect { x0: 0.0, x1: w, y0: y, y1: y + t }),
+                    shape: Shape::Rect(Rect { x0, x1: w, y0: y, y1: y + t }),
                     line: None,
                     key,
                 });
                 y += t;
             }
-            parts.push(electrode("energised face", Rect { x0: 0.0, x1: w, y0: 0.0, y1: 0.0 }, v));
-            parts.push(electrode("earthed face", Rect { x0: 0.0, x1: w, y0: total, y1: total }, 0.0));
-            let domain = Rect { x0: 0.0, x1: w, y0: 0.0, y1: total };
-            ok.then_some(Stack {
-                parts,
-                domain,
-                normalisation: Normalisation::PerMetreDepth,
-                geometry: Geometry::Planar,
-            })
+            parts.push(electrode("energised face", Rect { x0, x1: w, y0: 0.0, y1: 0.0 }, v));
+            parts.push(electrode("earthed face", Rect { x0, x1: w, y0: total, y1: total }, 0.0));
+            let domain = Rect { x0, x1: w, y0: 0.0, y1: total };
+            ok.then_some(Stack { parts, domain, coaxial: false })
         }
         StackForm::Coaxial => {
             if s.width.is_some() {
@@ -315,12 +319,13 @@ fn stack(ctx: &mut Ctx, s: &StackFile, table: &mut MaterialTable) -> Option<Stac
             };
             ok &= ctx.positive("stack.inner_radius", ri, "inner radius");
             let ri = units::mm(ri);
-            let len = match s.length {
-                Some(l) => {
+            let (z0, len) = match (s.length, domain) {
+                (Some(l), _) => {
                     ok &= ctx.positive("stack.length", l, "length");
-                    units::mm(l)
+                    (0.0, units::mm(l))
                 }
-                None => total,
+                (None, Some(d)) => (d.y0, d.y1),
+                (None, None) => (0.0, total),
             };
             let mut r = ri;
             let mut parts = Vec::new();
@@ -328,17 +333,16 @@ fn stack(ctx: &mut Ctx, s: &StackFile, table: &mut MaterialTable) -> Option<Stac
                 parts.push(Part {
                     name,
                     role: Role::Dielectric(m),
-                    shape: Shape::Rect(Rect { x0: r, x1: r + t, y0: 0.0, y1: len }),
+                    shape: Shape::Rect(Rect { x0: r, x1: r + t, y0: z0, y1: len }),
                     line: None,
                     key,
                 });
                 r += t;
             }
-            parts.push(electrode("conductor", Rect { x0: 0.0, x1: ri, y0: 0.0, y1: len }, v));
-            parts.push(electrode("screen", Rect { x0: r, x1: r, y0: 0.0, y1: len }, 0.0));
-            let domain = Rect { x0: ri, x1: r, y0: 0.0, y1: len };
-            let normalisation = Normalisation::PerMetreAxial { length_m: len };
-            ok.then_some(Stack { parts, domain, normalisation, geometry: Geometry::Axisymmetric })
+            parts.push(electrode("conductor", Rect { x0: 0.0, x1: ri, y0: z0, y1: len }, v));
+            parts.push(electrode("screen", Rect { x0: r, x1: r, y0: z0, y1: len }, 0.0));
+            let domain = Rect { x0: ri, x1: r, y0: z0, y1: len };
+            ok.then_some(Stack { parts, domain, coaxial: true })
         }
     }
 }
@@ -414,46 +418,51 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
         }
     }
 
-    let stack = match &f.stack {
-        Some(s) => {
-            let st = stack(&mut ctx, s, &mut table);
-            ok &= st.is_some();
-            st
-        }
-        None => None,
-    };
-
-    let geometry = match (f.geometry, &stack, &f.stack) {
-        (Some(GeometryKind::Planar), Some(_), Some(s)) if s.form == StackForm::Coaxial => {
+    let form = f.stack.as_ref().map(|s| s.form);
+    let geometry = match (f.geometry, form) {
+        (Some(GeometryKind::Planar), Some(StackForm::Coaxial)) => {
             ctx.err("geometry", "a coaxial stack is axisymmetric; write `geometry: axisymmetric` or leave it out");
             ok = false;
             Geometry::Axisymmetric
         }
-        (Some(GeometryKind::Planar), ..) => Geometry::Planar,
-        (Some(GeometryKind::Axisymmetric), ..) => Geometry::Axisymmetric,
-        (None, Some(st), _) => st.geometry,
-        (None, None, Some(_)) => Geometry::Planar, // the stack had errors, already reported
-        (None, None, None) => {
+        (Some(GeometryKind::Planar), _) => Geometry::Planar,
+        (Some(GeometryKind::Axisymmetric), _) | (None, Some(StackForm::Coaxial)) => Geometry::Axisymmetric,
+        (None, Some(StackForm::Planar)) => Geometry::Planar,
+        (None, None) => {
             ctx.err("geometry", "missing `geometry:` (planar or axisymmetric)");
             ok = false;
             Geometry::Planar
         }
     };
 
-    let domain = match (&f.domain, &stack) {
-        (Some(d), _) => {
+    let given_domain = match &f.domain {
+        Some(d) => {
             let good = ctx.interval("domain.x", d.x, false) & ctx.interval("domain.y", d.y, false);
-            ok &= good;
             let r = Rect { x0: units::mm(d.x[0]), x1: units::mm(d.x[1]), y0: units::mm(d.y[0]), y1: units::mm(d.y[1]) };
             if good && geometry == Geometry::Axisymmetric && r.x0 < 0.0 {
                 ctx.err("domain.x", "axisymmetric cases have x = radius, which cannot be negative");
                 ok = false;
             }
+            ok &= good;
             good.then_some(r)
         }
+        None => None,
+    };
+
+    let stack = match &f.stack {
+        Some(s) => {
+            let st = stack(&mut ctx, s, given_domain, &mut table);
+            ok &= st.is_some();
+            st
+        }
+        None => None,
+    };
+
+    let domain = match (given_domain, &stack) {
+        (Some(d), _) => Some(d),
         (None, Some(st)) => Some(st.domain),
         (None, None) => {
-            if f.stack.is_none() {
+            if f.domain.is_none() && f.stack.is_none() {
                 ctx.err("domain", "missing `domain:` (needed when there is no stack)");
             }
             ok = false;
@@ -461,10 +470,13 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
         }
     };
 
-    let normalisation = match (geometry, &stack) {
-        (Geometry::Planar, _) => Normalisation::PerMetreDepth,
-        (Geometry::Axisymmetric, Some(st)) if Some(st.domain) == domain => st.normalisation,
-        (Geometry::Axisymmetric, _) => Normalisation::Whole,
+    let normalisation = match (geometry, &stack, domain) {
+        (Geometry::Planar, ..) => Normalisation::PerMetreDepth,
+        // a coaxial stack models a slice of cable: per metre of its axial extent
+        (Geometry::Axisymmetric, Some(st), Some(d)) if st.coaxial => {
+            Normalisation::PerMetreAxial { length_m: d.height() }
+        }
+        (Geometry::Axisymmetric, ..) => Normalisation::Whole,
     };
 
     let background = match &f.background {

@@ -62,18 +62,18 @@ fn wrap(out: &mut String, first: &str, text: &str) {
 pub fn render_text(r: &CheckReport) -> String {
     let mut o = String::new();
     let _ = writeln!(o, "hvstack {} — screening check", r.hvstack_version);
-    let _ = writeln!(o, "case       {}", r.title);
+    let _ = writeln!(o, "case         {}", r.title);
     let verdict = match r.verdict {
         VerdictOut::Pass => "PASS — every part meets the safety factor and nothing is flagged",
         VerdictOut::Review => "REVIEW — something needs an engineer's look (see findings)",
         VerdictOut::Fail => "FAIL — a typical breakdown strength is exceeded (see findings)",
     };
-    let _ = writeln!(o, "verdict    {verdict}");
-    let _ = writeln!(o, "geometry   {}; charge, capacitance and energy {}", r.geometry, r.results_per);
+    let _ = writeln!(o, "verdict      {verdict}");
+    let _ = writeln!(o, "geometry     {}; charge, capacitance and energy {}", r.geometry, r.results_per);
     let g = &r.grid;
     let _ = writeln!(
         o,
-        "grid       {} × {} = {} nodes, steps {} to {} mm",
+        "grid         {} × {} = {} nodes, steps {} to {} mm",
         g.nodes_x,
         g.nodes_y,
         g.nodes,
@@ -83,10 +83,10 @@ pub fn render_text(r: &CheckReport) -> String {
     let s = &r.solve;
     let _ = writeln!(
         o,
-        "solve      {}, {} iterations, relative residual {:.1e}, {} unknowns",
+        "solve        {}, {} iterations, relative residual {:.1e}, {} unknowns",
         s.method, s.iterations, s.relative_residual, s.unknowns
     );
-    let _ = writeln!(o, "limits     safety factor {}", sig4(r.safety_factor));
+    let _ = writeln!(o, "limits       safety factor {}", sig4(r.safety_factor));
 
     let _ = writeln!(o, "\nparts");
     let rows = r
@@ -135,7 +135,7 @@ pub fn render_text(r: &CheckReport) -> String {
     if let Some(c) = &r.field_concentration {
         let _ = writeln!(
             o,
-            "field      peak {} kV/mm, gap {} mm, uniform-field value {} kV/mm, enhancement factor {}",
+            "peak field   {} kV/mm; gap {} mm, uniform-field value {} kV/mm, enhancement factor {}",
             sig4(c.e_max_kv_per_mm),
             sig4(c.gap_mm),
             sig4(c.e_uniform_kv_per_mm),
@@ -143,9 +143,9 @@ pub fn render_text(r: &CheckReport) -> String {
         );
     }
     if let Some(c) = &r.capacitance {
-        let _ = writeln!(o, "capacity   {} {} (from the electrode charge)", sig4(c.value), c.unit);
+        let _ = writeln!(o, "capacitance  {} {} (from the electrode charge)", sig4(c.value), c.unit);
     }
-    let _ = writeln!(o, "energy     {} {}", sig4(r.energy.value), r.energy.unit);
+    let _ = writeln!(o, "energy       {} {}", sig4(r.energy.value), r.energy.unit);
 
     if !r.probes.is_empty() {
         let _ = writeln!(o, "\nprobes");
