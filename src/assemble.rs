@@ -27,7 +27,7 @@
 
 use crate::case::{Case, ElectrodeKind, Geometry};
 use crate::grid::{CONDUCTOR, CellIx, Grid, Layout, NO_ELECTRODE, NodeIx};
-use sprs::CsMat;
+use crate::solve::Matrix;
 use std::f64::consts::PI;
 
 /// `w` such that the radial flux per radian and unit length is `ε·w·Δφ` on
@@ -195,7 +195,7 @@ enum Dof {
 #[derive(Debug, Clone)]
 pub struct System {
     /// Symmetric positive definite matrix (CSR, both triangles stored).
-    pub matrix: CsMat<f64>,
+    pub matrix: Matrix,
     /// Right-hand side (from the fixed potentials).
     pub rhs: Vec<f64>,
     dofs: Vec<Dof>,
@@ -244,13 +244,13 @@ impl System {
         }
         let size = free + rows.len();
         let mut indptr = Vec::with_capacity(size + 1);
-        let mut indices = Vec::with_capacity(5 * size);
+        let mut indices: Vec<u32> = Vec::with_capacity(5 * size);
         let mut data = Vec::with_capacity(5 * size);
         let mut rhs = vec![0.0; size];
         indptr.push(0);
         let mut entries: Vec<(usize, f64)> = Vec::new();
         let mut emit_row =
-            |row: usize, nodes: &mut dyn Iterator<Item = NodeIx>, indices: &mut Vec<usize>, data: &mut Vec<f64>| {
+            |row: usize, nodes: &mut dyn Iterator<Item = NodeIx>, indices: &mut Vec<u32>, data: &mut Vec<f64>| {
                 entries.clear();
                 let mut b = 0.0;
                 for n in nodes {
@@ -268,6 +268,7 @@ impl System {
                 entries.sort_by_key(|e| e.0);
                 let start = indices.len();
                 for &(c, v) in entries.iter() {
+                    let c = c as u32;
                     if indices.len() > start && indices[indices.len() - 1] == c {
                         *data.last_mut().expect("entry pushed above") += v;
                     } else {
@@ -287,7 +288,7 @@ impl System {
             rhs[free + k] = emit_row(free + k, &mut nodes.iter().copied(), &mut indices, &mut data);
             indptr.push(indices.len());
         }
-        let matrix = CsMat::new((size, size), indptr, indices, data);
+        let matrix = Matrix::new((size, size), indptr, indices, data);
         Ok(System { matrix, rhs, dofs })
     }
 

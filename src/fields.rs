@@ -33,8 +33,9 @@ use std::f64::consts::PI;
 /// as zero (solver round-off, well above the 1e-10 solve tolerance's effect).
 const CHARGE_RESOLUTION: f64 = 1e-8;
 
-/// Relative difference under which two peak candidates count as equal.
-const TIE: f64 = 1e-9;
+/// Relative difference under which two peak candidates count as equal
+/// (well above what the solve tolerance leaves in a uniform field).
+const TIE: f64 = 1e-6;
 
 /// Field statistics of one dielectric region (SI).
 #[derive(Debug, Clone, PartialEq)]

@@ -44,7 +44,7 @@ pub mod units;
 use assemble::{AssembleError, Stencil, System};
 use case::{Case, CaseError};
 use grid::{Grid, GridError, GridLimits, Layout};
-use solve::{Jacobi, SolveError, SolveOptions, SolveReport};
+use solve::{SolveError, SolveReport, SolverConfig};
 
 /// Default node limit: about 2 million nodes keeps a check within a few GB
 /// and within minutes on a 2-core machine with the current solver.
@@ -55,13 +55,13 @@ pub const DEFAULT_MAX_NODES: usize = 2_000_000;
 pub struct Options {
     /// Grid size limits.
     pub limits: GridLimits,
-    /// Solver tolerance and iteration limit.
-    pub solve: SolveOptions,
+    /// Solver tolerance, iteration limit and preconditioner.
+    pub solve: SolverConfig,
 }
 
 impl Default for Options {
     fn default() -> Self {
-        Options { limits: GridLimits { max_nodes: DEFAULT_MAX_NODES }, solve: SolveOptions::default() }
+        Options { limits: GridLimits { max_nodes: DEFAULT_MAX_NODES }, solve: SolverConfig::default() }
     }
 }
 
@@ -128,6 +128,12 @@ pub struct Solution {
 pub fn prepare(case: Case, file: &str, options: &Options) -> Result<Prepared, Error> {
     let grid =
         Grid::for_case(&case, &options.limits).map_err(|e| Error::Grid { file: file.into(), source: Box::new(e) })?;
+    prepare_on_grid(case, file, grid)
+}
+
+/// Paints and assembles a validated case on a grid given by the caller
+/// (benchmarks and convergence studies use this to control the grid).
+pub fn prepare_on_grid(case: Case, file: &str, grid: Grid) -> Result<Prepared, Error> {
     let layout = Layout::paint(&case, &grid).map_err(|e| Error::Grid { file: file.into(), source: Box::new(e) })?;
     let stencil = Stencil::for_case(&case, &grid, &layout);
     let system = System::assemble(&grid, &stencil, &assemble::constraints(&layout))
@@ -137,9 +143,8 @@ pub fn prepare(case: Case, file: &str, options: &Options) -> Result<Prepared, Er
 
 impl Prepared {
     /// Solves for the potential.
-    pub fn solve(&self, options: &SolveOptions) -> Result<Solution, Error> {
-        let m = Jacobi::new(&self.system.matrix);
-        let (u, report) = solve::pcg(&self.system.matrix, &self.system.rhs, &m, options)
+    pub fn solve(&self, config: &SolverConfig) -> Result<Solution, Error> {
+        let (u, report) = solve::solve(&self.system.matrix, &self.system.rhs, config)
             .map_err(|source| Error::Solve { file: self.file.clone(), source })?;
         Ok(Solution { phi: self.system.expand(&u), report })
     }

@@ -26,7 +26,7 @@ fn max_error(grid: &Grid, geometry: Geometry, exact: impl Fn(f64, f64) -> f64) -
         }
     }
     let sys = System::assemble(grid, &stencil, &cons).unwrap();
-    let (u, _) = pcg(&sys.matrix, &sys.rhs, &Jacobi::new(&sys.matrix), &TIGHT).unwrap();
+    let (u, _) = pcg(&sys.matrix, &sys.rhs, &mut Jacobi::new(&sys.matrix), &TIGHT, None).unwrap();
     let phi = sys.expand(&u);
     (0..grid.nodes())
         .map(|n| {
@@ -120,7 +120,7 @@ fn pcg_agrees_with_a_dense_direct_solve() {
         assert_eq!(dense, dense.transpose(), "the assembled matrix is symmetric");
         let b = DVector::from_vec(prepared.system.rhs.clone());
         let direct = dense.clone().cholesky().expect("symmetric positive definite").solve(&b);
-        let (u, rep) = pcg(a, &prepared.system.rhs, &Jacobi::new(a), &TIGHT).unwrap();
+        let (u, rep) = pcg(a, &prepared.system.rhs, &mut Jacobi::new(a), &TIGHT, None).unwrap();
         let scale = b.amax().max(1.0);
         let direct_res = (&b - &dense * &direct).amax() / scale;
         // round-off of a dense factorisation: a few hundred ulps of the data

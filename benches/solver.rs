@@ -1,0 +1,137 @@
+//! Solver benchmark on generated square cases (no report overhead).
+//!
+//! Case: a square, bottom edge 0 V, top edge 1 V, zero-flux sides; εr = 4
+//! in the lower half, 1 in the upper half; a disc of εr = 80, radius 0.15 of
+//! the side, at the centre. Uniform grids of N × N nodes.
+//!
+//! Run: `cargo bench --bench solver` (all sizes) or
+//! `cargo bench --bench solver -- 256 512` (chosen sizes). Each size runs in
+//! a child process so that its peak memory (VmHWM) is its own.
+
+use hvstack::grid::Grid;
+use hvstack::solve::{Amg, AmgOptions, Jacobi, SolveOptions, matvec, pcg};
+use std::time::Instant;
+
+const CASE: &str = "
+title: benchmark square
+geometry: planar
+domain: { x: [0, 100], y: [0, 100] }
+background: upper
+materials:
+  upper: { permittivity: 1.0, strength_kv_per_mm: 3, source: benchmark value }
+  lower: { permittivity: 4.0, strength_kv_per_mm: 20, source: benchmark value }
+  disc: { permittivity: 80.0, source: benchmark value }
+parts:
+  - { name: lower half, material: lower, shape: { rect: { x: [0, 100], y: [0, 50] } } }
+  - { name: disc, material: disc, shape: { circle: { center: [50, 50], radius: 15 } } }
+  - { name: bottom, electrode: { potential_kv: 0 }, shape: { rect: { x: [0, 100], y: [0, 0] } } }
+  - { name: top, electrode: { potential_kv: 0.001 }, shape: { rect: { x: [0, 100], y: [100, 100] } } }
+";
+
+fn peak_memory_mb() -> f64 {
+    let status = std::fs::read_to_string("/proc/self/status").unwrap_or_default();
+    status
+        .lines()
+        .find_map(|l| l.strip_prefix("VmHWM:"))
+        .and_then(|v| v.trim().trim_end_matches("kB").trim().parse::<f64>().ok())
+        .map_or(f64::NAN, |kb| kb / 1024.0)
+}
+
+fn run(n: usize, with_jacobi: bool) {
+    let text = if std::env::var("HV_UNIFORM").is_ok() {
+        CASE.replace("permittivity: 80.0", "permittivity: 1.0").replace("permittivity: 4.0", "permittivity: 1.0")
+    } else {
+        CASE.to_string()
+    };
+    let case = hvstack::case::parse(&text, "bench.yaml").expect("benchmark case parses");
+    let axis: Vec<f64> = (0..n).map(|i| 0.1 * i as f64 / (n - 1) as f64).collect();
+    let t = Instant::now();
+    let prepared = hvstack::prepare_on_grid(case, "bench.yaml", Grid { x: axis.clone(), y: axis }).unwrap();
+    let assembly = t.elapsed().as_secs_f64();
+    let a = &prepared.system.matrix;
+    let b = &prepared.system.rhs;
+    let x: Vec<f64> = (0..a.rows()).map(|i| (i % 7) as f64).collect();
+    let mut y = vec![0.0; a.rows()];
+    let reps = (2e7 / a.nnz() as f64).clamp(3.0, 200.0) as usize;
+    let t = Instant::now();
+    for _ in 0..reps {
+        matvec(a, &x, &mut y);
+    }
+    let mv = t.elapsed().as_secs_f64() / reps as f64;
+    let opts = SolveOptions { rel_tol: 1e-8, max_iterations: 20_000 };
+    let t = Instant::now();
+    let mut ao = AmgOptions::default();
+    let env = |k: &str| std::env::var(k).ok().and_then(|v| v.parse::<f64>().ok());
+    if let Some(v) = env("HV_THETA") {
+        ao.strength_threshold = v;
+    }
+    if let Some(v) = env("HV_DEG") {
+        ao.smoother_degree = v as usize;
+    }
+    if let Some(v) = env("HV_RATIO") {
+        ao.eigen_ratio = v;
+    }
+    let mut amg = Amg::new(a, &ao).expect("hierarchy builds");
+    let setup = t.elapsed().as_secs_f64();
+    let t = Instant::now();
+    let (_, rep) = pcg(a, b, &mut amg, &opts, None).expect("converges");
+    let solve = t.elapsed().as_secs_f64();
+    let unknowns = a.rows();
+    println!(
+        "{n:>5}² {unknowns:>9} {assembly:>8.3} {setup:>8.3} {solve:>8.3} {:>8.3} {:>5} {:>9.1} {:>8.1} {:>9.3} {:>8.1} {:>5} {:>5.2}",
+        setup + solve,
+        rep.iterations,
+        (setup + solve) / unknowns as f64 * 1e9,
+        peak_memory_mb(),
+        mv * 1e3,
+        solve / mv,
+        amg.depth(),
+        amg.operator_complexity(),
+    );
+    if with_jacobi {
+        let t = Instant::now();
+        let r = pcg(a, b, &mut Jacobi::new(a), &opts, None);
+        let j = t.elapsed().as_secs_f64();
+        match r {
+            Ok((_, rep)) => println!("        jacobi-pcg for comparison: {j:.3} s, {} iterations", rep.iterations),
+            Err(e) => println!("        jacobi-pcg for comparison: {e}"),
+        }
+    }
+}
+
+fn main() {
+    let args: Vec<String> = std::env::args().skip(1).filter(|a| !a.starts_with('-')).collect();
+    if let Some(n) = std::env::var("HVSTACK_BENCH_CHILD").ok().and_then(|v| v.parse::<usize>().ok()) {
+        run(n, std::env::var("HVSTACK_BENCH_JACOBI").is_ok());
+        return;
+    }
+    let sizes: Vec<usize> =
+        if args.is_empty() { vec![256, 512, 1024, 2048] } else { args.iter().filter_map(|a| a.parse().ok()).collect() };
+    println!(
+        "threads: {}; relative residual target 1e-8; times in s; memory = peak resident (VmHWM) of the size's own process",
+        rayon::current_num_threads()
+    );
+    println!(
+        "{:>6} {:>9} {:>8} {:>8} {:>8} {:>8} {:>5} {:>9} {:>8} {:>9} {:>8} {:>5} {:>5}",
+        "nodes",
+        "unknowns",
+        "assembly",
+        "setup",
+        "solve",
+        "total",
+        "iter",
+        "ns/unkn",
+        "peak MB",
+        "matvec ms",
+        "solve/mv",
+        "lvls",
+        "opcx"
+    );
+    let exe = std::env::current_exe().expect("own path");
+    for n in sizes {
+        let status = std::process::Command::new(&exe).env("HVSTACK_BENCH_CHILD", n.to_string()).status();
+        if !status.map(|s| s.success()).unwrap_or(false) {
+            println!("{n}: failed");
+        }
+    }
+}
