@@ -6,7 +6,9 @@
 //!
 //! Run: `cargo bench --bench solver` (all sizes) or
 //! `cargo bench --bench solver -- 256 512` (chosen sizes). Each size runs in
-//! a child process so that its peak memory (VmHWM) is its own.
+//! a child process so that its peak memory (VmHWM) is its own, three times
+//! (`HVSTACK_BENCH_REPEAT`), and the fastest run is shown: the machines this
+//! runs on are shared and their timings vary by tens of percent.
 
 use hvstack::grid::Grid;
 use hvstack::solve::{Amg, AmgOptions, Jacobi, SolveOptions, matvec, pcg};
@@ -53,11 +55,13 @@ fn run(n: usize, with_jacobi: bool) {
     let x: Vec<f64> = (0..a.rows()).map(|i| (i % 7) as f64).collect();
     let mut y = vec![0.0; a.rows()];
     let reps = (2e7 / a.nnz() as f64).clamp(3.0, 200.0) as usize;
-    let t = Instant::now();
+    // the fastest single product: the memory-bandwidth floor
+    let mut mv = f64::INFINITY;
     for _ in 0..reps {
+        let t = Instant::now();
         matvec(a, &x, &mut y);
+        mv = mv.min(t.elapsed().as_secs_f64());
     }
-    let mv = t.elapsed().as_secs_f64() / reps as f64;
     let opts = SolveOptions { rel_tol: 1e-8, max_iterations: 20_000 };
     let t = Instant::now();
     let mut ao = AmgOptions::default();
@@ -108,7 +112,7 @@ fn main() {
     let sizes: Vec<usize> =
         if args.is_empty() { vec![256, 512, 1024, 2048] } else { args.iter().filter_map(|a| a.parse().ok()).collect() };
     println!(
-        "threads: {}; relative residual target 1e-8; times in s; memory = peak resident (VmHWM) of the size's own process",
+        "threads: {}; relative residual target 1e-8; times in s; fastest of the repeats; peak MB = VmHWM of that run",
         rayon::current_num_threads()
     );
     println!(
@@ -128,10 +132,24 @@ fn main() {
         "opcx"
     );
     let exe = std::env::current_exe().expect("own path");
+    let repeat: usize = std::env::var("HVSTACK_BENCH_REPEAT").ok().and_then(|v| v.parse().ok()).unwrap_or(3);
     for n in sizes {
-        let status = std::process::Command::new(&exe).env("HVSTACK_BENCH_CHILD", n.to_string()).status();
-        if !status.map(|s| s.success()).unwrap_or(false) {
-            println!("{n}: failed");
+        // The machine is shared: run each size `repeat` times, keep the fastest.
+        let mut best: Option<(f64, String)> = None;
+        for _ in 0..repeat {
+            let out = std::process::Command::new(&exe).env("HVSTACK_BENCH_CHILD", n.to_string()).output();
+            let Some(out) = out.ok().filter(|o| o.status.success()) else {
+                println!("{n}: failed");
+                break;
+            };
+            let text = String::from_utf8_lossy(&out.stdout).to_string();
+            let total = text.split_whitespace().nth(5).and_then(|t| t.parse::<f64>().ok()).unwrap_or(f64::INFINITY);
+            if best.as_ref().is_none_or(|b| total < b.0) {
+                best = Some((total, text));
+            }
+        }
+        if let Some((_, text)) = best {
+            print!("{text}");
         }
     }
 }

@@ -27,7 +27,8 @@
 
 use crate::case::{Case, ElectrodeKind, Geometry};
 use crate::grid::{CONDUCTOR, CellIx, Grid, Layout, NO_ELECTRODE, NodeIx};
-use crate::solve::Matrix;
+use crate::solve::{Matrix, RowBlock, from_row_blocks};
+use rayon::prelude::*;
 use std::f64::consts::PI;
 
 /// `w` such that the radial flux per radian and unit length is `ε·w·Δφ` on
@@ -157,6 +158,9 @@ impl Stencil {
     }
 }
 
+/// Nodes per parallel assembly task.
+const NODE_CHUNK: usize = 8192;
+
 /// What the potential of a node is.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Constraint {
@@ -212,7 +216,8 @@ pub enum AssembleError {
 
 impl System {
     /// Numbers the unknowns (free nodes in node order, then one per group)
-    /// and assembles the matrix row by row straight into CSR.
+    /// and assembles the matrix row by row straight into CSR, free rows in
+    /// parallel chunks (each row summed in a fixed order: deterministic).
     pub fn assemble(grid: &Grid, stencil: &Stencil, constraints: &[Constraint]) -> Result<System, AssembleError> {
         if !constraints.iter().any(|c| matches!(c, Constraint::Fixed(_))) {
             return Err(AssembleError::NoFixedPotential);
@@ -243,52 +248,62 @@ impl System {
             }
         }
         let size = free + rows.len();
-        let mut indptr = Vec::with_capacity(size + 1);
-        let mut indices: Vec<u32> = Vec::with_capacity(5 * size);
-        let mut data = Vec::with_capacity(5 * size);
-        let mut rhs = vec![0.0; size];
-        indptr.push(0);
-        let mut entries: Vec<(usize, f64)> = Vec::new();
-        let mut emit_row =
-            |row: usize, nodes: &mut dyn Iterator<Item = NodeIx>, indices: &mut Vec<u32>, data: &mut Vec<f64>| {
-                entries.clear();
-                let mut b = 0.0;
-                for n in nodes {
-                    for (m, g) in stencil.neighbours(grid, n) {
-                        if g == 0.0 {
-                            continue;
-                        }
-                        entries.push((row, g));
-                        match dofs[m.0] {
-                            Dof::Unknown(q) => entries.push((q, -g)),
-                            Dof::Fixed(v) => b += g * v,
-                        }
+        // One row: the flux balance of a node (or of all nodes of a group),
+        // merged by column. Returns the right-hand side.
+        let emit = |row: usize, nodes: &mut dyn Iterator<Item = NodeIx>, entries: &mut Vec<(u32, f64)>| {
+            entries.clear();
+            let mut b = 0.0;
+            for n in nodes {
+                for (m, g) in stencil.neighbours(grid, n) {
+                    if g == 0.0 {
+                        continue;
+                    }
+                    entries.push((row as u32, g));
+                    match dofs[m.0] {
+                        Dof::Unknown(q) => entries.push((q as u32, -g)),
+                        Dof::Fixed(v) => b += g * v,
                     }
                 }
-                entries.sort_by_key(|e| e.0);
-                let start = indices.len();
-                for &(c, v) in entries.iter() {
-                    let c = c as u32;
-                    if indices.len() > start && indices[indices.len() - 1] == c {
-                        *data.last_mut().expect("entry pushed above") += v;
-                    } else {
-                        indices.push(c);
-                        data.push(v);
-                    }
-                }
-                b
-            };
-        for (n, d) in dofs.iter().enumerate() {
-            if let (Dof::Unknown(r), Constraint::Free) = (*d, constraints[n]) {
-                rhs[r] = emit_row(r, &mut std::iter::once(NodeIx(n)), &mut indices, &mut data);
-                indptr.push(indices.len());
             }
+            entries.sort_unstable_by_key(|e| e.0);
+            entries.dedup_by(|later, kept| {
+                if later.0 == kept.0 {
+                    kept.1 += later.1;
+                    true
+                } else {
+                    false
+                }
+            });
+            b
+        };
+        // Free rows in parallel over chunks of nodes (rows come in node order).
+        let parts: Vec<(RowBlock, Vec<f64>)> = (0..constraints.len().div_ceil(NODE_CHUNK))
+            .into_par_iter()
+            .map(|c| {
+                let (mut block, mut b) = (RowBlock::default(), Vec::new());
+                let mut entries = Vec::new();
+                for n in c * NODE_CHUNK..((c + 1) * NODE_CHUNK).min(constraints.len()) {
+                    if let (Dof::Unknown(r), Constraint::Free) = (dofs[n], constraints[n]) {
+                        b.push(emit(r, &mut std::iter::once(NodeIx(n)), &mut entries));
+                        block.push_row(entries.iter().copied());
+                    }
+                }
+                (block, b)
+            })
+            .collect();
+        let mut rhs = Vec::with_capacity(size);
+        let mut blocks = Vec::with_capacity(parts.len() + 1);
+        for (block, b) in parts {
+            rhs.extend_from_slice(&b);
+            blocks.push(block);
         }
+        let (mut groups, mut entries) = (RowBlock::default(), Vec::new());
         for (k, nodes) in rows.iter().enumerate() {
-            rhs[free + k] = emit_row(free + k, &mut nodes.iter().copied(), &mut indices, &mut data);
-            indptr.push(indices.len());
+            rhs.push(emit(free + k, &mut nodes.iter().copied(), &mut entries));
+            groups.push_row(entries.iter().copied());
         }
-        let matrix = Matrix::new((size, size), indptr, indices, data);
+        blocks.push(groups);
+        let matrix = from_row_blocks(size, size, blocks);
         Ok(System { matrix, rhs, dofs })
     }
 

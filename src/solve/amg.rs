@@ -35,7 +35,7 @@
 use super::kernels::{
     CHUNK, chebyshev_direction, gershgorin_scaled, inverse_diagonal, jacobi_into, matvec, matvec_add, residual,
 };
-use super::{Matrix, Preconditioner};
+use super::{Matrix, Preconditioner, RowBlock, from_row_blocks};
 use nalgebra::{Cholesky, DMatrix, DVector, Dyn};
 use rayon::prelude::*;
 use std::borrow::Cow;
@@ -49,15 +49,25 @@ pub struct AmgOptions {
     pub max_coarse: usize,
     /// Most levels built.
     pub max_levels: usize,
-    /// Chebyshev degree of the pre- and post-smoother.
+    /// Chebyshev degree of the pre- and post-smoother on the finest level.
     pub smoother_degree: usize,
+    /// Chebyshev degree on the coarser levels (cheap there, and it buys
+    /// iterations).
+    pub coarse_smoother_degree: usize,
     /// Ratio of the largest to the smallest eigenvalue the smoother damps.
     pub eigen_ratio: f64,
 }
 
 impl Default for AmgOptions {
     fn default() -> Self {
-        AmgOptions { strength_threshold: 0.03, max_coarse: 400, max_levels: 20, smoother_degree: 1, eigen_ratio: 20.0 }
+        AmgOptions {
+            strength_threshold: 0.03,
+            max_coarse: 400,
+            max_levels: 20,
+            smoother_degree: 1,
+            coarse_smoother_degree: 1,
+            eigen_ratio: 20.0,
+        }
     }
 }
 
@@ -217,12 +227,14 @@ fn prolongator(a: &Matrix, strong: &[bool], agg: &[u32], coarse: usize) -> Matri
         })
         .reduce(|| 1.0, f64::max);
     let omega = 4.0 / (3.0 * rho);
-    // Rows in chunks: each chunk fills its own (counts, columns, values).
-    let chunks: Vec<(Vec<usize>, Vec<u32>, Vec<f64>)> = (0..n.div_ceil(CHUNK))
+    let blocks: Vec<RowBlock> = (0..n.div_ceil(CHUNK))
         .into_par_iter()
         .map(|c| {
-            let (mut counts, mut cols, mut vals) =
-                (Vec::with_capacity(CHUNK), Vec::with_capacity(4 * CHUNK), Vec::with_capacity(4 * CHUNK));
+            let mut block = RowBlock {
+                counts: Vec::with_capacity(CHUNK),
+                cols: Vec::with_capacity(4 * CHUNK),
+                vals: Vec::with_capacity(4 * CHUNK),
+            };
             let mut row: Vec<(u32, f64)> = Vec::new();
             for i in c * CHUNK..((c + 1) * CHUNK).min(n) {
                 row.clear();
@@ -233,36 +245,20 @@ fn prolongator(a: &Matrix, strong: &[bool], agg: &[u32], coarse: usize) -> Matri
                     }
                 }
                 row.sort_unstable_by_key(|x| x.0);
-                let before = cols.len();
-                for &(col, v) in &row {
-                    if cols.len() > before && *cols.last().expect("pushed") == col {
-                        *vals.last_mut().expect("pushed") += v;
+                row.dedup_by(|later, kept| {
+                    if later.0 == kept.0 {
+                        kept.1 += later.1;
+                        true
                     } else {
-                        cols.push(col);
-                        vals.push(v);
+                        false
                     }
-                }
-                counts.push(cols.len() - before);
+                });
+                block.push_row(row.iter().copied());
             }
-            (counts, cols, vals)
+            block
         })
         .collect();
-    concat_rows(n, coarse, chunks)
-}
-
-/// Assembles CSR rows produced chunk by chunk as (row lengths, columns, values).
-fn concat_rows(rows: usize, cols: usize, chunks: Vec<(Vec<usize>, Vec<u32>, Vec<f64>)>) -> Matrix {
-    let total: usize = chunks.iter().map(|c| c.1.len()).sum();
-    let (mut ip, mut ix, mut dv) = (Vec::with_capacity(rows + 1), Vec::with_capacity(total), Vec::with_capacity(total));
-    ip.push(0);
-    for (counts, c, v) in chunks {
-        for k in counts {
-            ip.push(ip[ip.len() - 1] + k);
-        }
-        ix.extend_from_slice(&c);
-        dv.extend_from_slice(&v);
-    }
-    Matrix::new((rows, cols), ip, ix, dv)
+    from_row_blocks(n, coarse, blocks)
 }
 
 /// Pᵀ in CSR by a counting sort over columns; rows of the result list
@@ -307,14 +303,17 @@ fn galerkin(a: &Matrix, p: &Matrix, r: &Matrix) -> Matrix {
     // A few blocks per thread, each with its own accumulator of nc entries.
     let blocks = (rayon::current_num_threads() * 4).clamp(1, nc.max(1));
     let rows_per_task = nc.div_ceil(blocks).max(1);
-    let chunks: Vec<(Vec<usize>, Vec<u32>, Vec<f64>)> = (0..nc.div_ceil(rows_per_task))
+    let blocks: Vec<RowBlock> = (0..nc.div_ceil(rows_per_task))
         .into_par_iter()
         .map_init(
             || (vec![0.0f64; nc], vec![u32::MAX; nc], Vec::<u32>::new()),
             |(acc, mark, touched), c| {
                 let guess = 9 * rows_per_task;
-                let (mut counts, mut cols, mut vals) =
-                    (Vec::with_capacity(rows_per_task), Vec::with_capacity(guess), Vec::with_capacity(guess));
+                let mut block = RowBlock {
+                    counts: Vec::with_capacity(rows_per_task),
+                    cols: Vec::with_capacity(guess),
+                    vals: Vec::with_capacity(guess),
+                };
                 for row in c * rows_per_task..((c + 1) * rows_per_task).min(nc) {
                     touched.clear();
                     for e in rip[row]..rip[row + 1] {
@@ -333,17 +332,13 @@ fn galerkin(a: &Matrix, p: &Matrix, r: &Matrix) -> Matrix {
                         }
                     }
                     touched.sort_unstable();
-                    for &col in touched.iter() {
-                        cols.push(col);
-                        vals.push(acc[col as usize]);
-                    }
-                    counts.push(touched.len());
+                    block.push_row(touched.iter().map(|&col| (col, acc[col as usize])));
                 }
-                (counts, cols, vals)
+                block
             },
         )
         .collect();
-    concat_rows(nc, nc, chunks)
+    from_row_blocks(nc, nc, blocks)
 }
 
 impl<'a> Amg<'a> {
@@ -352,35 +347,19 @@ impl<'a> Amg<'a> {
         let mut levels = Vec::new();
         let mut current: Cow<'a, Matrix> = Cow::Borrowed(a);
         while current.rows() > options.max_coarse && levels.len() + 1 < options.max_levels {
-            let t0 = std::time::Instant::now();
             let strong = strong_entries(&current, options.strength_threshold);
-            let t1 = t0.elapsed().as_secs_f64();
             let (agg, coarse) = aggregate(&current, &strong);
-            let t2 = t0.elapsed().as_secs_f64();
             if coarse as f64 > 0.85 * current.rows() as f64 {
                 break;
             }
             let p = prolongator(&current, &strong, &agg, coarse);
-            let t3 = t0.elapsed().as_secs_f64();
             let r = transpose(&p);
-            let t4 = t0.elapsed().as_secs_f64();
-            let t5 = t0.elapsed().as_secs_f64();
             let next = galerkin(&current, &p, &r);
-            let t6 = t0.elapsed().as_secs_f64();
-            if std::env::var("HV_PROFILE").is_ok() {
-                eprintln!(
-                    "level n={} strong {t1:.3} agg {:.3} P {:.3} R {:.3} RAP {:.3} nnzP {} nnzAc {}",
-                    current.rows(),
-                    t2 - t1,
-                    t3 - t2,
-                    t4 - t3,
-                    t6 - t5,
-                    p.nnz(),
-                    next.nnz()
-                );
-            }
             let inv_diag = inverse_diagonal(&current);
-            let lambda_max = if levels.is_empty() || std::env::var("HV_GERSH").is_ok() {
+            // The finest matrix is diagonally dominant, where Gershgorin's
+            // bound is close; coarse Galerkin operators are not, and the
+            // bound would overestimate λ and weaken the smoother there.
+            let lambda_max = if levels.is_empty() {
                 gershgorin_scaled(&current, &inv_diag)
             } else {
                 power_estimate(&current, &inv_diag, 12)
@@ -491,7 +470,8 @@ impl Preconditioner for Amg<'_> {
     /// One V-cycle from a zero initial guess. The finest level works in its
     /// own scratch vector and its last smoothing step writes `z`.
     fn apply(&mut self, r_in: &[f64], z: &mut [f64]) {
-        let (deg, ratio) = (self.options.smoother_degree, self.options.eigen_ratio);
+        let ratio = self.options.eigen_ratio;
+        let (fine_deg, coarse_deg) = (self.options.smoother_degree, self.options.coarse_smoother_degree);
         let nl = self.levels.len();
         if nl == 0 {
             let sol = self.coarse.solve(&DVector::from_column_slice(r_in));
@@ -504,6 +484,7 @@ impl Preconditioner for Amg<'_> {
             let Scratch { b: sb, x, r, d } = &mut lo[l];
             let lvl = &self.levels[l];
             let b: &[f64] = if l == 0 { r_in } else { sb };
+            let deg = if l == 0 { fine_deg } else { coarse_deg };
             chebyshev(lvl, deg, ratio, b, x, r, d, true);
             residual(&lvl.a, x, b, r);
             matvec(&lvl.r, r, &mut hi[0].b);
@@ -520,6 +501,7 @@ impl Preconditioner for Amg<'_> {
             let lvl = &self.levels[l];
             let b: &[f64] = if l == 0 { r_in } else { sb };
             matvec_add(&lvl.p, &hi[0].x, x);
+            let deg = if l == 0 { fine_deg } else { coarse_deg };
             if deg == 1 {
                 // damped Jacobi with the degree-1 Chebyshev weight, into a second buffer
                 let c = 2.0 / (1.1 * lvl.lambda_max + lvl.lambda_max / ratio);

@@ -16,6 +16,45 @@ pub use kernels::{dot, matvec, norm};
 
 use kernels::{inverse_diagonal, xpby};
 
+/// Rows of a CSR matrix built by one parallel task: the length of each row,
+/// then all their columns and values in row order.
+#[derive(Debug, Clone, Default)]
+pub struct RowBlock {
+    /// Entries in each row.
+    pub counts: Vec<usize>,
+    /// Column of each entry.
+    pub cols: Vec<u32>,
+    /// Value of each entry.
+    pub vals: Vec<f64>,
+}
+
+impl RowBlock {
+    /// Appends a row.
+    pub fn push_row(&mut self, entries: impl Iterator<Item = (u32, f64)>) {
+        let before = self.cols.len();
+        for (c, v) in entries {
+            self.cols.push(c);
+            self.vals.push(v);
+        }
+        self.counts.push(self.cols.len() - before);
+    }
+}
+
+/// Joins row blocks, in order, into a `rows × cols` CSR matrix.
+pub fn from_row_blocks(rows: usize, cols: usize, blocks: Vec<RowBlock>) -> Matrix {
+    let total: usize = blocks.iter().map(|b| b.cols.len()).sum();
+    let (mut ip, mut ix, mut dv) = (Vec::with_capacity(rows + 1), Vec::with_capacity(total), Vec::with_capacity(total));
+    ip.push(0);
+    for b in blocks {
+        for k in b.counts {
+            ip.push(ip[ip.len() - 1] + k);
+        }
+        ix.extend_from_slice(&b.cols);
+        dv.extend_from_slice(&b.vals);
+    }
+    Matrix::new((rows, cols), ip, ix, dv)
+}
+
 /// The sparse matrix type of the solvers: CSR with 32-bit column indices
 /// (half the index traffic of `usize`; up to 4·10⁹ unknowns).
 pub type Matrix = sprs::CsMatI<f64, u32, usize>;
