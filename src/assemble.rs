@@ -27,7 +27,7 @@
 
 use crate::case::{Case, ElectrodeKind, Geometry};
 use crate::grid::{CONDUCTOR, CellIx, Grid, Layout, NO_ELECTRODE, NodeIx};
-use crate::solve::{Matrix, RowBlock, from_row_blocks};
+use crate::solve::{Matrix, RowBlock, from_row_blocks, sort_and_merge};
 use rayon::prelude::*;
 use std::f64::consts::PI;
 
@@ -265,15 +265,7 @@ impl System {
                     }
                 }
             }
-            entries.sort_unstable_by_key(|e| e.0);
-            entries.dedup_by(|later, kept| {
-                if later.0 == kept.0 {
-                    kept.1 += later.1;
-                    true
-                } else {
-                    false
-                }
-            });
+            sort_and_merge(entries);
             b
         };
         // Free rows in parallel over chunks of nodes (rows come in node order).

@@ -35,7 +35,7 @@
 use super::kernels::{
     CHUNK, chebyshev_direction, gershgorin_scaled, inverse_diagonal, jacobi_into, matvec, matvec_add, residual,
 };
-use super::{Matrix, Preconditioner, RowBlock, from_row_blocks};
+use super::{Matrix, Preconditioner, RowBlock, from_row_blocks, sort_and_merge};
 use nalgebra::{Cholesky, DMatrix, DVector, Dyn};
 use rayon::prelude::*;
 use std::borrow::Cow;
@@ -244,15 +244,7 @@ fn prolongator(a: &Matrix, strong: &[bool], agg: &[u32], coarse: usize) -> Matri
                         row.push((agg[indices[e] as usize], -omega * data[e] / dfil[i]));
                     }
                 }
-                row.sort_unstable_by_key(|x| x.0);
-                row.dedup_by(|later, kept| {
-                    if later.0 == kept.0 {
-                        kept.1 += later.1;
-                        true
-                    } else {
-                        false
-                    }
-                });
+                sort_and_merge(&mut row);
                 block.push_row(row.iter().copied());
             }
             block

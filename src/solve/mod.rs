@@ -40,6 +40,19 @@ impl RowBlock {
     }
 }
 
+/// Sorts `(column, value)` entries by column and sums duplicates.
+pub fn sort_and_merge(entries: &mut Vec<(u32, f64)>) {
+    entries.sort_unstable_by_key(|e| e.0);
+    entries.dedup_by(|later, kept| {
+        if later.0 == kept.0 {
+            kept.1 += later.1;
+            true
+        } else {
+            false
+        }
+    });
+}
+
 /// Joins row blocks, in order, into a `rows × cols` CSR matrix.
 pub fn from_row_blocks(rows: usize, cols: usize, blocks: Vec<RowBlock>) -> Matrix {
     let total: usize = blocks.iter().map(|b| b.cols.len()).sum();
