@@ -11,9 +11,13 @@ use crate::case::{Case, ElectrodeKind};
 use crate::fields::Fields;
 use crate::grid::Layout;
 use crate::materials::MaterialClass;
+use crate::meshcheck::MeshCheck;
 
 /// Parts thinner than this many cells get a coarse-grid finding.
 pub const MIN_CELLS_ACROSS: usize = 3;
+/// Largest estimated discretisation error of a part's peak field before a
+/// finding is raised (issue contract: 2 %).
+pub const MESH_ERROR_LIMIT: f64 = 0.02;
 /// Largest relative difference tolerated between the charge and energy
 /// capacitances before a finding is raised.
 pub const CAPACITANCE_TOLERANCE: f64 = 0.01;
@@ -93,6 +97,22 @@ pub enum FindingKind {
     },
     /// A part is completely painted over by later parts or electrodes.
     PartHidden,
+    /// The peak grows under refinement: a singularity of the drawn geometry.
+    SingularPeak {
+        /// Peak on the fine, medium and coarse grid, V/m.
+        e_max: [f64; 3],
+        /// The peak sits at a sharp feature of an electrode.
+        at_edge: bool,
+    },
+    /// The estimated discretisation error of the peak is above the limit.
+    MeshSensitive {
+        /// Estimated relative error.
+        estimate: f64,
+    },
+    /// The part vanished on a coarser grid, so its peak could not be checked.
+    MeshUnbracketed,
+    /// The coarser grids could not be solved; no peak could be checked.
+    MeshCheckFailed,
 }
 
 impl FindingKind {
@@ -108,6 +128,10 @@ impl FindingKind {
             FindingKind::NoPotentialDifference => "no-potential-difference",
             FindingKind::CoarseGrid { .. } => "coarse-grid",
             FindingKind::PartHidden => "part-hidden",
+            FindingKind::SingularPeak { .. } => "singular-peak",
+            FindingKind::MeshSensitive { .. } => "mesh-sensitive",
+            FindingKind::MeshUnbracketed => "mesh-check-unbracketed",
+            FindingKind::MeshCheckFailed => "mesh-check-failed",
         }
     }
 
@@ -193,8 +217,9 @@ pub fn part_verdict(margin: Option<f64>, has_strength: bool, safety_factor: f64)
     }
 }
 
-/// Judges the solved case.
-pub fn assess(case: &Case, layout: &Layout, fields: &Fields) -> Assessment {
+/// Judges the solved case; `check` is the mesh self-check (`None` when it
+/// could not be run, which is itself a finding).
+pub fn assess(case: &Case, layout: &Layout, fields: &Fields, check: Option<&MeshCheck>) -> Assessment {
     let mut parts = Vec::new();
     let mut findings = Vec::new();
     for (r, region) in layout.regions.iter().enumerate() {
@@ -226,6 +251,19 @@ pub fn assess(case: &Case, layout: &Layout, fields: &Fields) -> Assessment {
             }),
             _ => {}
         }
+        if let Some(c) = check.map(|c| &c.regions[r]) {
+            let kind = match c.error_estimate {
+                _ if c.growing || f.at_sharp_edge => {
+                    Some(FindingKind::SingularPeak { e_max: c.e_max, at_edge: f.at_sharp_edge })
+                }
+                None => Some(FindingKind::MeshUnbracketed),
+                Some(e) if e > MESH_ERROR_LIMIT => Some(FindingKind::MeshSensitive { estimate: e }),
+                Some(_) => None,
+            };
+            if let Some(kind) = kind {
+                findings.push(Finding { kind, part: part.clone() });
+            }
+        }
         if region.cells_across < MIN_CELLS_ACROSS {
             findings.push(Finding { kind: FindingKind::CoarseGrid { cells_across: region.cells_across }, part });
         }
@@ -250,6 +288,18 @@ pub fn assess(case: &Case, layout: &Layout, fields: &Fields) -> Assessment {
                 kind: FindingKind::GenericMaterial { material: m.name.clone(), parts: users },
                 part: None,
             });
+        }
+    }
+
+    if check.is_none() {
+        findings.push(Finding { kind: FindingKind::MeshCheckFailed, part: None });
+        for p in &parts {
+            if fields.regions[p.region].at_sharp_edge {
+                findings.push(Finding {
+                    kind: FindingKind::SingularPeak { e_max: [fields.regions[p.region].e_max; 3], at_edge: true },
+                    part: Some(layout.regions[p.region].name.clone()),
+                });
+            }
         }
     }
 

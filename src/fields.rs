@@ -48,6 +48,9 @@ pub struct RegionField {
     pub e_max_at: [f64; 2],
     /// Volume-weighted (area-weighted when planar) mean |E| in V/m.
     pub e_mean: f64,
+    /// The peak sits at a sharp convex feature of an electrode (within two
+    /// cells), where the drawn geometry has no finite field.
+    pub at_sharp_edge: bool,
 }
 
 /// One electrode after the solve (SI, normalised as the case says).
@@ -249,12 +252,14 @@ pub fn compute(case: &Case, grid: &Grid, layout: &Layout, stencil: &Stencil, phi
         }
     }
 
+    let sharp = sharp_points(case);
     let regions = (0..nreg)
         .map(|r| RegionField {
             cells: cells[r],
             e_max: e_max[r],
             e_max_at: e_max_at[r],
             e_mean: if vol[r] > 0.0 { e_vol[r] / vol[r] } else { 0.0 },
+            at_sharp_edge: e_max[r] > 0.0 && near_any(grid, e_max_at[r], &sharp),
         })
         .collect();
 
@@ -290,6 +295,31 @@ pub fn compute(case: &Case, grid: &Grid, layout: &Layout, stencil: &Stencil, phi
         probes,
         gap: gap(grid, layout, &members),
     }
+}
+
+/// Sharp convex features of the electrodes, leaving out those on the
+/// domain boundary (a zero-flux edge mirrors the electrode into a flat face).
+fn sharp_points(case: &Case) -> Vec<[f64; 2]> {
+    let d = case.domain;
+    let tol = 1e-9 * d.width().max(d.height());
+    let on_boundary = |p: &[f64; 2]| {
+        (p[0] - d.x0).abs() <= tol
+            || (p[0] - d.x1).abs() <= tol
+            || (p[1] - d.y0).abs() <= tol
+            || (p[1] - d.y1).abs() <= tol
+    };
+    case.electrodes()
+        .flat_map(|(_, p, _)| p.shape.sharp_points())
+        .filter(|p| !on_boundary(p) && d.contains_closed(*p, tol))
+        .collect()
+}
+
+/// True when `at` lies within two local grid steps of one of `points`.
+fn near_any(grid: &Grid, at: [f64; 2], points: &[[f64; 2]]) -> bool {
+    let c = grid.locate(at);
+    let (i, j) = grid.cell_ij(c);
+    let reach = 2.0 * (grid.x[i + 1] - grid.x[i]).max(grid.y[j + 1] - grid.y[j]);
+    points.iter().any(|p| (p[0] - at[0]).abs() <= reach && (p[1] - at[1]).abs() <= reach)
 }
 
 fn probe(grid: &Grid, layout: &Layout, geo: Geometry, phi: &[f64], ev: &EdgeValues, at: [f64; 2]) -> ProbeField {

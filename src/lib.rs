@@ -7,8 +7,9 @@
 //!
 //! `case` (parse, validate) → `grid` (graded grid, painting) → `assemble`
 //! (box integration, sparse system) → `solve` (PCG) → `fields` (E, energy,
-//! charge) → `assess` (margins, verdicts, findings) → `report` (result
-//! model, JSON, text).
+//! charge) → `meshcheck` (the same on coarser grids, Richardson estimates)
+//! → `assess` (margins, verdicts, findings) → `report` (result model, JSON,
+//! text).
 //!
 //! The library performs no I/O: it takes the case text and returns values.
 //!
@@ -36,6 +37,7 @@ pub mod case;
 pub mod fields;
 pub mod grid;
 pub mod materials;
+pub mod meshcheck;
 pub mod report;
 pub mod shape;
 pub mod solve;
@@ -149,16 +151,43 @@ impl Prepared {
         Ok(Solution { phi: self.system.expand(&u), report })
     }
 
-    /// Fields and assessment of a solution.
-    pub fn evaluate(&self, solution: &Solution) -> (fields::Fields, assess::Assessment) {
-        let f = fields::compute(&self.case, &self.grid, &self.layout, &self.stencil, &solution.phi);
-        let a = assess::assess(&self.case, &self.layout, &f);
-        (f, a)
+    /// Fields of a solution.
+    pub fn fields(&self, solution: &Solution) -> fields::Fields {
+        fields::compute(&self.case, &self.grid, &self.layout, &self.stencil, &solution.phi)
+    }
+
+    /// The mesh self-check: the case solved again on grids two and four
+    /// times coarser, and each part's peak compared (see `meshcheck`).
+    /// `None` when a coarser grid cannot be solved (then nothing is
+    /// bracketed and the assessment says so).
+    pub fn self_check(&self, fine: &fields::Fields, options: &Options) -> Option<meshcheck::MeshCheck> {
+        let mut coarser = Vec::new();
+        for factor in [2.0, 4.0] {
+            let mut case = self.case.clone();
+            case.grid = self.case.grid.coarsened(factor);
+            let p = prepare(case, &self.file, options).ok()?;
+            let s = p.solve(&options.solve).ok()?;
+            coarser.push((p.grid.nodes(), p.fields(&s).regions));
+        }
+        let nodes = [self.grid.nodes(), coarser[0].0, coarser[1].0];
+        Some(meshcheck::compare([&fine.regions, &coarser[0].1, &coarser[1].1], nodes))
+    }
+
+    /// Fields, self-check and assessment of a solution.
+    pub fn evaluate(
+        &self,
+        solution: &Solution,
+        options: &Options,
+    ) -> (fields::Fields, Option<meshcheck::MeshCheck>, assess::Assessment) {
+        let f = self.fields(solution);
+        let check = self.self_check(&f, options);
+        let a = assess::assess(&self.case, &self.layout, &f, check.as_ref());
+        (f, check, a)
     }
 
     /// The result model; `seconds` is the solve time measured by the caller.
-    pub fn report(&self, solution: &Solution, seconds: f64) -> report::CheckReport {
-        let (f, a) = self.evaluate(solution);
+    pub fn report(&self, solution: &Solution, options: &Options, seconds: f64) -> report::CheckReport {
+        let (f, check, a) = self.evaluate(solution, options);
         report::build(
             &report::Inputs {
                 case: &self.case,
@@ -166,6 +195,7 @@ impl Prepared {
                 layout: &self.layout,
                 solve: &solution.report,
                 fields: &f,
+                mesh_check: check.as_ref(),
                 assessment: &a,
             },
             seconds,
@@ -178,5 +208,5 @@ pub fn check(text: &str, file: &str, options: &Options) -> Result<report::CheckR
     let case = case::parse(text, file)?;
     let prepared = prepare(case, file, options)?;
     let solution = prepared.solve(&options.solve)?;
-    Ok(prepared.report(&solution, 0.0))
+    Ok(prepared.report(&solution, options, 0.0))
 }

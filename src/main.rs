@@ -83,7 +83,7 @@ fn check(path: &PathBuf, format: Format, max_nodes: usize) -> Result<(String, bo
     let started = Instant::now();
     let solution = prepared.solve(&options.solve).map_err(|e| e.to_string())?;
     let seconds = started.elapsed().as_secs_f64();
-    let report = prepared.report(&solution, seconds);
+    let report = prepared.report(&solution, &options, seconds);
     let pass = report.verdict == hvstack::report::VerdictOut::Pass;
     let text = match format {
         Format::Text => hvstack::report::render_text(&report),

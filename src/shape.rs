@@ -91,6 +91,37 @@ impl Shape {
         }
     }
 
+    /// Points where the outline has a sharp convex feature: the corners of
+    /// a rectangle, the ends of a zero-thickness rectangle (a foil), the
+    /// convex vertices of a polygon. Around a conductor such a point has no
+    /// finite field (Jackson, Classical Electrodynamics, 3rd ed. 1999,
+    /// §2.11): the peak there depends on the grid.
+    pub fn sharp_points(&self) -> Vec<[f64; 2]> {
+        match self {
+            Shape::Rect(r) => {
+                let mut v = vec![[r.x0, r.y0], [r.x1, r.y0], [r.x0, r.y1], [r.x1, r.y1]];
+                v.dedup();
+                if r.width() == 0.0 || r.height() == 0.0 {
+                    v = vec![[r.x0, r.y0], [r.x1, r.y1]];
+                    v.dedup();
+                }
+                v
+            }
+            Shape::Circle { .. } => Vec::new(),
+            Shape::Polygon(v) => {
+                let orientation = polygon_signed_area(v).signum();
+                (0..v.len())
+                    .filter(|&i| {
+                        let (a, b, c) = (v[(i + v.len() - 1) % v.len()], v[i], v[(i + 1) % v.len()]);
+                        let cross = (b[0] - a[0]) * (c[1] - b[1]) - (b[1] - a[1]) * (c[0] - b[0]);
+                        cross * orientation > 0.0
+                    })
+                    .map(|i| v[i])
+                    .collect()
+            }
+        }
+    }
+
     /// True when `p` lies inside the shape or within `tol` of its outline.
     pub fn contains_closed(&self, p: [f64; 2], tol: f64) -> bool {
         match self {

@@ -41,6 +41,19 @@ pub struct GridSpec {
     pub growth: f64,
 }
 
+impl GridSpec {
+    /// The same spec `factor` times coarser: steps × factor, cells across ÷
+    /// factor (at least one).
+    pub fn coarsened(&self, factor: f64) -> GridSpec {
+        GridSpec {
+            max_step: self.max_step * factor,
+            min_step: self.min_step * factor,
+            cells_across: ((self.cells_across as f64 / factor).round() as usize).max(1),
+            growth: self.growth,
+        }
+    }
+}
+
 /// Index into [`Case::materials`].
 pub type MaterialId = usize;
 

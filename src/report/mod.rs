@@ -14,6 +14,7 @@ use crate::case::{Case, ElectrodeKind, Geometry, Normalisation};
 use crate::fields::Fields;
 use crate::grid::{Grid, Layout};
 use crate::materials::LIBRARY;
+use crate::meshcheck::MeshCheck;
 use crate::solve::SolveReport;
 use crate::units::{to_kv, to_kv_per_mm, to_mm, to_nc, to_pf};
 
@@ -36,6 +37,8 @@ pub struct Inputs<'a> {
     pub solve: &'a SolveReport,
     /// The fields.
     pub fields: &'a Fields,
+    /// The mesh self-check, if it ran.
+    pub mesh_check: Option<&'a MeshCheck>,
     /// The assessment.
     pub assessment: &'a Assessment,
 }
@@ -121,13 +124,47 @@ pub fn message(kind: &FindingKind) -> String {
             "the part is completely covered by later parts or electrodes and owns no cells; check the part order."
                 .to_string()
         }
+        FindingKind::SingularPeak { e_max, at_edge } => format!(
+            "{}, so the number depends on the grid ({} → {} → {} kV/mm from the coarsest to the finest grid of the \
+             self-check), not on the design. {} Until then this part cannot pass.",
+            if *at_edge {
+                "the peak field sits at a sharp edge, corner or foil end of the drawn electrodes, where an ideal edge \
+                 has no finite field"
+            } else {
+                "the peak field keeps growing as the grid is refined (a sharp corner of the drawn geometry, or a \
+                 curved boundary resolved as steps)"
+            },
+            g3(to_kv_per_mm(e_max[2])),
+            g3(to_kv_per_mm(e_max[1])),
+            g3(to_kv_per_mm(e_max[0])),
+            if *at_edge {
+                "Model the real edge radius (or a rounded profile) and check again."
+            } else {
+                "Round the corner as built, or refine the grid there, and check again."
+            }
+        ),
+        FindingKind::MeshSensitive { estimate } => format!(
+            "the estimated discretisation error of the peak field is {} % (above 2 %): refine the grid \
+             (grid.max_step, grid.cells_across) until it settles.",
+            g3(100.0 * estimate)
+        ),
+        FindingKind::MeshUnbracketed => {
+            "the part has no cells on a coarser grid, so its peak field could not be checked for grid dependence; \
+             refine the grid (grid.max_step, grid.cells_across) so that it is resolved on grids four times coarser."
+                .to_string()
+        }
+        FindingKind::MeshCheckFailed => {
+            "the coarser grids of the mesh self-check could not be solved, so no peak field was checked for grid \
+             dependence; review the grid settings."
+                .to_string()
+        }
     }
 }
 
 /// Builds the result model. `seconds` is the solve's wall time, measured by
 /// the caller.
 pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
-    let Inputs { case, grid, layout, solve, fields, assessment } = *inp;
+    let Inputs { case, grid, layout, solve, fields, mesh_check, assessment } = *inp;
     let (c_unit, q_unit, w_unit, per) = extensive_units(case.normalisation);
     let (min_step, max_step) = grid.step_range();
     let parts = assessment
@@ -137,6 +174,7 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
             let region = &layout.regions[p.region];
             let f = &fields.regions[p.region];
             let m = &case.materials[region.material];
+            let check = mesh_check.map(|c| &c.regions[p.region]);
             PartOut {
                 name: region.name.clone(),
                 material: m.name.clone(),
@@ -149,6 +187,10 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
                 strength_kv_per_mm: m.strength_v_per_m.map(to_kv_per_mm),
                 margin: p.margin,
                 verdict: verdict(p.verdict),
+                e_max_error_estimate_pct: check.and_then(|c| c.error_estimate).map(|e| 100.0 * e),
+                e_max_coarser_grids_kv_per_mm: check.map(|c| [to_kv_per_mm(c.e_max[1]), to_kv_per_mm(c.e_max[2])]),
+                e_max_observed_order: check.and_then(|c| c.order),
+                e_max_grows_with_refinement: check.is_some_and(|c| c.growing),
             }
         })
         .collect();
@@ -222,6 +264,7 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
             e_uniform_kv_per_mm: to_kv_per_mm(c.e_uniform),
             factor: c.factor,
         }),
+        mesh_check: mesh_check.map(|c| MeshCheckOut { nodes: c.nodes }),
         parts,
         electrodes,
         probes,

@@ -109,6 +109,22 @@ pub struct PartOut {
     pub margin: Option<f64>,
     /// Part verdict.
     pub verdict: VerdictOut,
+    /// Estimated discretisation error of `e_max_kv_per_mm` from the mesh
+    /// self-check (null where the check could not bracket it).
+    pub e_max_error_estimate_pct: Option<f64>,
+    /// The peak on the two coarser grids of the self-check (medium, coarse).
+    pub e_max_coarser_grids_kv_per_mm: Option<[f64; 2]>,
+    /// Observed order of convergence of the peak, where defined.
+    pub e_max_observed_order: Option<f64>,
+    /// The peak keeps growing under refinement (a singular edge or corner).
+    pub e_max_grows_with_refinement: bool,
+}
+
+/// `mesh_check`
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct MeshCheckOut {
+    /// Nodes of the fine (reported), medium and coarse grid.
+    pub nodes: [usize; 3],
 }
 
 /// One electrode.
@@ -176,6 +192,9 @@ pub struct CheckReport {
     /// Field concentration (electrodes at different potentials only).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub field_concentration: Option<ConcentrationOut>,
+    /// The mesh self-check's grids (absent when it could not run).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub mesh_check: Option<MeshCheckOut>,
     /// Dielectric parts, background included when it has cells.
     pub parts: Vec<PartOut>,
     /// Electrodes.

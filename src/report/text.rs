@@ -121,6 +121,28 @@ pub fn render_text(r: &CheckReport) -> String {
     ];
     let _ = writeln!(o, "{}", table(&head, rows, &[2, 3, 4, 5, 6, 7, 8]));
 
+    if let Some(m) = &r.mesh_check {
+        let _ = writeln!(o, "\nmesh self-check (grids of {} / {} / {} nodes)", m.nodes[0], m.nodes[1], m.nodes[2]);
+        let rows = r
+            .parts
+            .iter()
+            .map(|p| {
+                let coarser = p.e_max_coarser_grids_kv_per_mm.unwrap_or([f64::NAN; 2]);
+                vec![
+                    p.name.clone(),
+                    sig4(p.e_max_kv_per_mm),
+                    sig4(coarser[0]),
+                    sig4(coarser[1]),
+                    p.e_max_observed_order.map_or_else(|| "—".to_string(), |q| format!("{q:.2}")),
+                    opt(p.e_max_error_estimate_pct),
+                    if p.e_max_grows_with_refinement { "grows with refinement" } else { "" }.to_string(),
+                ]
+            })
+            .collect();
+        let head = ["part", "E max fine", "medium", "coarse kV/mm", "order", "error est. %", ""];
+        let _ = writeln!(o, "{}", table(&head, rows, &[1, 2, 3, 4, 5]));
+    }
+
     let _ = writeln!(o, "\nelectrodes");
     let unit = r.electrodes.first().map_or("nC", |e| e.charge.unit);
     let rows = r

@@ -1,0 +1,114 @@
+//! Stage 5b: the mesh self-check. The case is solved again on two coarser
+//! grids (steps ×2 and ×4, half and a quarter of the cells across features)
+//! and each part's peak field is compared across the three grids.
+//!
+//! With peaks E1 (fine), E2, E3 (coarsest) and a refinement ratio r (from
+//! the node counts, r = √(N_fine/N_coarser)), the differences d12 = E1 − E2
+//! and d23 = E2 − E3 give the observed order `p = ln(|d23|/|d12|)/ln r` and
+//! the Richardson estimate of the fine grid's error `|d12|/(r^q − 1)` with
+//! q = min(p, 2) (the scheme's order; a higher observed order is not
+//! trusted to shrink the estimate). Where the differences change sign the
+//! estimate is the larger difference. A peak that keeps growing under
+//! refinement without slowing (`d12 ≥ 0.7·d23 > 0`) is a field singularity
+//! of the drawn geometry (a sharp edge or corner), not a converging number.
+
+use crate::fields::RegionField;
+
+/// Growth ratio d12/d23 above which a rising peak counts as not converging
+/// (p < 0.5 at r = 2).
+pub const SINGULAR_RATIO: f64 = 0.7;
+/// Relative differences below this are solver round-off, not grid effects.
+pub const SOLVER_NOISE: f64 = 1e-6;
+/// Relative growth below which a rising peak is taken as converged anyway.
+pub const NEGLIGIBLE_CHANGE: f64 = 1e-3;
+
+/// The self-check of one region.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RegionCheck {
+    /// Peak field on the fine, medium and coarse grid (V/m).
+    pub e_max: [f64; 3],
+    /// Observed order of convergence, where the differences allow one.
+    pub order: Option<f64>,
+    /// Estimated relative error of the fine grid's peak; `None` where the
+    /// region has no cells on a coarser grid (nothing to compare).
+    pub error_estimate: Option<f64>,
+    /// The peak grows under refinement without converging.
+    pub growing: bool,
+}
+
+/// The self-check of a case.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MeshCheck {
+    /// Nodes of the fine, medium and coarse grid.
+    pub nodes: [usize; 3],
+    /// Per region of the layout (same order).
+    pub regions: Vec<RegionCheck>,
+}
+
+/// Judges one region's three peaks with refinement ratio `r`.
+pub fn judge(e: [f64; 3], cells: [usize; 3], r: f64) -> RegionCheck {
+    let [e1, e2, e3] = e;
+    if cells.contains(&0) {
+        return RegionCheck { e_max: e, order: None, error_estimate: None, growing: false };
+    }
+    if e1 == 0.0 {
+        return RegionCheck { e_max: e, order: None, error_estimate: Some(0.0), growing: false };
+    }
+    let (d12, d23) = (e1 - e2, e2 - e3);
+    if d12.abs().max(d23.abs()) <= SOLVER_NOISE * e1 {
+        // the same peak on all three grids, to solver accuracy (a uniform field)
+        return RegionCheck { e_max: e, order: None, error_estimate: Some(0.0), growing: false };
+    }
+    let growing = d12 > NEGLIGIBLE_CHANGE * e1 && d23 > 0.0 && d12 >= SINGULAR_RATIO * d23;
+    let same_sign = d12 * d23 > 0.0 && d12.abs() < d23.abs();
+    let order = same_sign.then(|| (d23.abs() / d12.abs()).ln() / r.ln());
+    let error = match order {
+        Some(p) if !growing => d12.abs() / (r.powf(p.min(2.0)) - 1.0),
+        _ => d12.abs().max(d23.abs()),
+    };
+    RegionCheck { e_max: e, order, error_estimate: Some(error / e1), growing }
+}
+
+/// Compares the region peaks of three solutions (fine first).
+pub fn compare(fields: [&[RegionField]; 3], nodes: [usize; 3]) -> MeshCheck {
+    let r = ((nodes[0] as f64 / nodes[1] as f64).sqrt() * (nodes[1] as f64 / nodes[2] as f64).sqrt()).sqrt();
+    let regions = (0..fields[0].len())
+        .map(|k| {
+            judge(
+                [fields[0][k].e_max, fields[1][k].e_max, fields[2][k].e_max],
+                [fields[0][k].cells, fields[1][k].cells, fields[2][k].cells],
+                r,
+            )
+        })
+        .collect();
+    MeshCheck { nodes, regions }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn second_order_sequence_gives_order_two_and_a_covering_estimate() {
+        // E(h) = 1 + h², h = 0.01, 0.02, 0.04: Richardson extrapolation, common practice
+        let c = judge([1.0001, 1.0004, 1.0016], [9, 9, 9], 2.0);
+        assert!((c.order.unwrap() - 2.0).abs() < 1e-6);
+        assert!((c.error_estimate.unwrap() - 1e-4 / 1.0001).abs() < 1e-9);
+        assert!(!c.growing);
+    }
+
+    #[test]
+    fn a_singular_peak_is_seen_growing() {
+        // E ∝ h^(-1/3) at a 90° conductor corner (Jackson, Classical Electrodynamics, 3rd ed. 1999, §2.11)
+        let e = |h: f64| h.powf(-1.0 / 3.0);
+        let c = judge([e(0.01), e(0.02), e(0.04)], [9, 9, 9], 2.0);
+        assert!(c.growing);
+        assert!(c.error_estimate.unwrap() > 0.2);
+    }
+
+    #[test]
+    fn missing_cells_leave_the_check_unbracketed() {
+        let c = judge([1.0, 0.0, 0.0], [9, 0, 0], 2.0);
+        assert_eq!(c.error_estimate, None);
+    }
+}
