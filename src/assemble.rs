@@ -5,8 +5,9 @@
 //! with its own permittivity ε, contributes to the four edges along its
 //! sides the flux through the part of the box faces it contains:
 //!
-//! * planar, per metre of depth: horizontal edges `G = ε·(hy/2)/hx`,
-//!   vertical edges `G = ε·(hx/2)/hy`;
+//! * planar, per metre of depth: horizontal edges `G = ε_x·(hy/2)/hx`,
+//!   vertical edges `G = ε_y·(hx/2)/hy` (ε_x = ε_y = ε except in cells cut by
+//!   a curved dielectric interface, see `grid::Layout::cut_cells`);
 //! * axisymmetric (whole revolution, factor 2π): radial edges
 //!   `G = 2π·ε·(hz/2)/ln(r2/r1)`, which is exact for the logarithmic
 //!   potential of a coaxial layer (the midpoint form `2π·ε·(hz/2)·r_mid/hr`
@@ -28,6 +29,7 @@
 use crate::case::{Case, ElectrodeKind, Geometry};
 use crate::grid::{CONDUCTOR, CellIx, Grid, Layout, NO_ELECTRODE, NodeIx};
 use crate::solve::{Matrix, RowBlock, from_row_blocks, sort_and_merge};
+use crate::units::EPSILON_0;
 use rayon::prelude::*;
 use std::f64::consts::PI;
 
@@ -68,24 +70,24 @@ pub struct Stencil {
 impl Stencil {
     /// Conductances from the painted layout. `eps(c)` is the absolute
     /// permittivity of cell c; conductor cells contribute nothing.
-    pub fn build(grid: &Grid, geometry: Geometry, eps: impl Fn(CellIx) -> Option<f64>) -> Stencil {
+    pub fn build(grid: &Grid, geometry: Geometry, eps: impl Fn(CellIx) -> Option<(f64, f64)>) -> Stencil {
         let (nx, ny) = (grid.nx(), grid.ny());
         let mut gx = vec![0.0; (nx - 1) * ny];
         let mut gy = vec![0.0; nx * (ny - 1)];
         for j in 0..ny - 1 {
             for i in 0..nx - 1 {
-                let Some(e) = eps(grid.cell(i, j)) else { continue };
+                let Some((ex, ey)) = eps(grid.cell(i, j)) else { continue };
                 let (x0, x1) = (grid.x[i], grid.x[i + 1]);
                 let (hx, hy) = (x1 - x0, grid.y[j + 1] - grid.y[j]);
                 let (g_h, g_left, g_right) = match geometry {
-                    Geometry::Planar => (e * 0.5 * hy / hx, e * 0.5 * hx / hy, e * 0.5 * hx / hy),
+                    Geometry::Planar => (ex * 0.5 * hy / hx, ey * 0.5 * hx / hy, ey * 0.5 * hx / hy),
                     Geometry::Axisymmetric => {
                         let radial = radial_weight(x0, x1);
                         let xm = face_radius(x0, x1);
                         (
-                            2.0 * PI * e * 0.5 * hy * radial,
-                            2.0 * PI * e * 0.5 * (xm * xm - x0 * x0) / hy,
-                            2.0 * PI * e * 0.5 * (x1 * x1 - xm * xm) / hy,
+                            2.0 * PI * ex * 0.5 * hy * radial,
+                            2.0 * PI * ey * 0.5 * (xm * xm - x0 * x0) / hy,
+                            2.0 * PI * ey * 0.5 * (x1 * x1 - xm * xm) / hy,
                         )
                     }
                 };
@@ -103,7 +105,13 @@ impl Stencil {
         let eps: Vec<f64> = layout.regions.iter().map(|r| case.materials[r.material].epsilon()).collect();
         Stencil::build(grid, case.geometry, |c| {
             let r = layout.cell_region[c.0];
-            (r != CONDUCTOR).then(|| eps[r as usize])
+            if r == CONDUCTOR {
+                return None;
+            }
+            match layout.cut_cells.binary_search_by_key(&(c.0 as u32), |k| k.cell) {
+                Ok(k) => Some((EPSILON_0 * layout.cut_cells[k].eps_x, EPSILON_0 * layout.cut_cells[k].eps_y)),
+                Err(_) => Some((eps[r as usize], eps[r as usize])),
+            }
         })
     }
 

@@ -33,6 +33,11 @@ use std::f64::consts::PI;
 /// as zero (solver round-off, well above the 1e-10 solve tolerance's effect).
 const CHARGE_RESOLUTION: f64 = 1e-8;
 
+/// Marks a cut cell in peak recovery.
+const CUT: u32 = u32::MAX - 1;
+/// Whole cells a region needs before its cut cells are left out of its peak.
+const MIN_WHOLE_CELLS: usize = 4;
+
 /// Relative difference under which two peak candidates count as equal
 /// (well above what the solve tolerance leaves in a uniform field).
 const TIE: f64 = 1e-6;
@@ -182,7 +187,24 @@ pub fn compute(case: &Case, grid: &Grid, layout: &Layout, stencil: &Stencil, phi
     let geo = case.geometry;
     let ev = edge_values(grid, geo, phi);
     let (nx, ny) = (grid.nx(), grid.ny());
-    let region_of = |i: usize, j: usize| layout.cell_region[grid.cell(i, j).0];
+    // Peaks are recovered from cells a single material fills: a cell cut by
+    // a curved interface carries a blend of both sides' fields. Regions with
+    // too few whole cells fall back to using their cut cells too.
+    let mut cut = vec![false; grid.cells()];
+    for c in &layout.cut_cells {
+        cut[c.cell as usize] = true;
+    }
+    let mut whole = vec![0usize; layout.regions.len()];
+    for (c, &r) in layout.cell_region.iter().enumerate() {
+        if r != CONDUCTOR && !cut[c] {
+            whole[r as usize] += 1;
+        }
+    }
+    let peak_region_of = |i: usize, j: usize| {
+        let c = grid.cell(i, j).0;
+        let r = layout.cell_region[c];
+        if r != CONDUCTOR && cut[c] && whole[r as usize] >= MIN_WHOLE_CELLS { CUT } else { r }
+    };
     let eps: Vec<f64> = layout.regions.iter().map(|r| case.materials[r.material].epsilon()).collect();
 
     let nreg = layout.regions.len();
@@ -229,14 +251,16 @@ pub fn compute(case: &Case, grid: &Grid, layout: &Layout, stencil: &Stencil, phi
                 if ci >= nx - 1 || cj >= ny - 1 {
                     continue;
                 }
-                let r = region_of(ci, cj);
-                if r == CONDUCTOR || seen.contains(&r) {
+                let r = peak_region_of(ci, cj);
+                if r == CONDUCTOR || r == CUT || seen.contains(&r) {
                     continue;
                 }
                 seen[s] = r;
                 // horizontal edge e on row j touches cells (e, j−1) and (e, j)
-                let in_h = |e: usize| (j > 0 && region_of(e, j - 1) == r) || (j + 1 < ny && region_of(e, j) == r);
-                let in_v = |e: usize| (i > 0 && region_of(i - 1, e) == r) || (i + 1 < nx && region_of(i, e) == r);
+                let in_h =
+                    |e: usize| (j > 0 && peak_region_of(e, j - 1) == r) || (j + 1 < ny && peak_region_of(e, j) == r);
+                let in_v =
+                    |e: usize| (i > 0 && peak_region_of(i - 1, e) == r) || (i + 1 < nx && peak_region_of(i, e) == r);
                 let gx = recover(&grid.x, i, |e| ev.gx[j * (nx - 1) + e], in_h);
                 let ey = recover(&grid.y, j, |e| ev.gy[e * nx + i], in_v);
                 let ex = weight(geo, grid.x[i]).map_or(0.0, |w| gx / w);

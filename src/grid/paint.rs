@@ -7,7 +7,7 @@
 //! take precedence over insulation at their nodes. A cell whose four nodes
 //! belong to one electrode is conductor interior and carries no field.
 
-use super::{Grid, GridError};
+use super::{CellIx, Grid, GridError};
 use crate::case::{Case, ElectrodeKind, MaterialId, Role};
 
 /// `cell_region` value of a conductor cell.
@@ -51,6 +51,71 @@ pub struct Layout {
     pub electrodes: Vec<ElectrodeInfo>,
     /// Electrode index of each node, or [`NO_ELECTRODE`].
     pub node_electrode: Vec<u32>,
+    /// Cells cut by a curved or slanted dielectric interface, with their
+    /// effective relative permittivity along x and along y (sorted by cell).
+    pub cut_cells: Vec<CutCell>,
+}
+
+/// A cell that a dielectric interface crosses.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CutCell {
+    /// The cell.
+    pub cell: u32,
+    /// Effective relative permittivity for flux along x.
+    pub eps_x: f64,
+    /// Effective relative permittivity for flux along y.
+    pub eps_y: f64,
+}
+
+/// Sub-samples per cell side used to find a cut cell's fill fractions.
+pub const SUBSAMPLES: usize = 16;
+
+/// The dielectric material at a point: the last dielectric part containing
+/// it, else the background.
+fn material_at(case: &Case, p: [f64; 2]) -> crate::case::MaterialId {
+    case.parts
+        .iter()
+        .rev()
+        .find_map(|part| match part.role {
+            Role::Dielectric(m) if part.shape.contains_closed(p, 0.0) => Some(m),
+            _ => None,
+        })
+        .unwrap_or(case.background)
+}
+
+/// Effective permittivity of a cell crossed by interfaces, per flux
+/// direction, from an N×N sub-sampling of the materials: for flux along x
+/// each row of samples is a chain in series (harmonic mean along x) and the
+/// rows conduct side by side (arithmetic mean over y); likewise along y.
+/// A straight interface across the flux gives the harmonic mean, one along
+/// it the arithmetic mean (the series/parallel capacitor limits), and
+/// oblique or curved interfaces fall in between as their geometry says.
+/// Returns `None` when the cell is not cut (one permittivity throughout).
+fn cut_cell(case: &Case, grid: &Grid, c: CellIx) -> Option<(f64, f64)> {
+    let (i, j) = grid.cell_ij(c);
+    let (x0, y0) = (grid.x[i], grid.y[j]);
+    let (hx, hy) = (grid.x[i + 1] - x0, grid.y[j + 1] - y0);
+    let eps = |m: crate::case::MaterialId| case.materials[m].permittivity;
+    let probe = [1.0 / 6.0, 0.5, 5.0 / 6.0];
+    let first = eps(material_at(case, [x0 + 0.5 * hx, y0 + 0.5 * hy]));
+    let uniform =
+        probe.iter().all(|u| probe.iter().all(|v| eps(material_at(case, [x0 + u * hx, y0 + v * hy])) == first));
+    if uniform {
+        return None;
+    }
+    let n = SUBSAMPLES;
+    let mut e = vec![0.0; n * n];
+    for a in 0..n {
+        for b in 0..n {
+            let (u, v) = ((a as f64 + 0.5) / n as f64, (b as f64 + 0.5) / n as f64);
+            e[b * n + a] = eps(material_at(case, [x0 + u * hx, y0 + v * hy]));
+        }
+    }
+    // flux along x: each row in series (harmonic), the rows side by side (arithmetic)
+    let eps_x = (0..n).map(|b| n as f64 / (0..n).map(|a| 1.0 / e[b * n + a]).sum::<f64>()).sum::<f64>() / n as f64;
+    // flux along y: each column in series, the columns side by side
+    let eps_y = (0..n).map(|a| n as f64 / (0..n).map(|b| 1.0 / e[b * n + a]).sum::<f64>()).sum::<f64>() / n as f64;
+    Some((eps_x, eps_y))
 }
 
 impl Layout {
@@ -136,7 +201,30 @@ impl Layout {
                 *region = CONDUCTOR;
             }
         }
-        Ok(Layout { regions, cell_region, electrodes, node_electrode })
+        // Cells near curved or slanted dielectric outlines may be cut.
+        let mut candidate = vec![false; grid.cells()];
+        for part in &case.parts {
+            if !matches!(part.role, Role::Dielectric(_)) || matches!(part.shape, crate::shape::Shape::Rect(_)) {
+                continue;
+            }
+            let b = part.shape.bounds();
+            let xr = Grid::line_range(&grid.x, b.x0, b.x1, tol);
+            let yr = Grid::line_range(&grid.y, b.y0, b.y1, tol);
+            for j in yr.start.saturating_sub(1)..(yr.end + 1).min(grid.ny() - 1) {
+                for i in xr.start.saturating_sub(1)..(xr.end + 1).min(grid.nx() - 1) {
+                    candidate[grid.cell(i, j).0] = true;
+                }
+            }
+        }
+        let cut_cells = candidate
+            .iter()
+            .enumerate()
+            .filter(|&(c, &k)| k && cell_region[c] != CONDUCTOR)
+            .filter_map(|(c, _)| {
+                cut_cell(case, grid, CellIx(c)).map(|(eps_x, eps_y)| CutCell { cell: c as u32, eps_x, eps_y })
+            })
+            .collect();
+        Ok(Layout { regions, cell_region, electrodes, node_electrode, cut_cells })
     }
 
     /// Number of cells owned by each region.
