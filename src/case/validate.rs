@@ -552,7 +552,13 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
             Role::Dielectric(_) => None,
         })
         .collect();
-    let where_parts = if f.parts.is_some() { "parts" } else { "stack" };
+    let where_parts = if f.parts.is_some() {
+        "parts"
+    } else if f.stack.is_some() {
+        "stack"
+    } else {
+        ""
+    };
     if ok && electrodes.is_empty() {
         ctx.err(where_parts, "the case has no electrodes: add a `stack:` or parts with `electrode:`");
         ok = false;

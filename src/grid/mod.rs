@@ -42,7 +42,8 @@ pub struct GridLimits {
 pub enum GridError {
     /// The grid would exceed the node limit.
     #[error(
-        "the grid would need {nodes} nodes ({nx} × {ny}), above the limit of {limit}; raise grid.max_step or grid.min_step, lower grid.cells_across, or raise --max-nodes"
+        "the grid would need {nodes} nodes ({nx} × {ny}, about {} GB of memory), above the limit of {limit}; raise grid.max_step or grid.min_step, lower grid.cells_across, or raise --max-nodes",
+        memory_estimate_gb(*.nodes)
     )]
     TooLarge {
         /// Nodes needed.
@@ -80,6 +81,26 @@ pub enum GridError {
     },
 }
 
+/// Peak memory per grid node of a whole check, measured at a million
+/// nodes (about 365 MB; DEVELOPERS.md, benchmarks), rounded up.
+pub const BYTES_PER_NODE: usize = 400;
+
+/// Largest node count the solver's 32-bit indices allow, with room for
+/// the extra unknowns of floating electrodes.
+pub const MAX_SUPPORTED_NODES: usize = 1 << 31;
+
+/// Estimated peak memory in GB of a check with this many nodes.
+pub fn memory_estimate_gb(nodes: usize) -> String {
+    let gb = nodes as f64 * BYTES_PER_NODE as f64 / 1e9;
+    if gb < 0.1 {
+        "0.1".to_string()
+    } else if gb < 1e6 {
+        format!("{gb:.1}")
+    } else {
+        format!("{gb:.0e}")
+    }
+}
+
 impl GridError {
     /// Line of the part the error is about, where known.
     pub fn line(&self) -> Option<usize> {
@@ -104,8 +125,9 @@ impl Grid {
         let py = AxisPlan::new(d.y0, d.y1, &fy, &case.grid);
         let (nx, ny) = (px.nodes(), py.nodes());
         let nodes = nx.saturating_mul(ny);
-        if nodes > limits.max_nodes {
-            return Err(GridError::TooLarge { nodes, nx, ny, limit: limits.max_nodes });
+        let limit = limits.max_nodes.min(MAX_SUPPORTED_NODES);
+        if nodes > limit {
+            return Err(GridError::TooLarge { nodes, nx, ny, limit });
         }
         Ok(Grid { x: px.place(), y: py.place() })
     }
