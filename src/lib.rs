@@ -165,6 +165,9 @@ impl Prepared {
         for factor in [2.0, 4.0] {
             let mut case = self.case.clone();
             case.grid = self.case.grid.coarsened(factor);
+            for b in &mut case.refine_boxes {
+                b.max_step *= factor;
+            }
             let p = prepare(case, &self.file, options).ok()?;
             let s = p.solve(&options.solve).ok()?;
             coarser.push((p.grid.nodes(), p.fields(&s).regions));

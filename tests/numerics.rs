@@ -164,3 +164,33 @@ fn potentials_obey_the_maximum_principle_on_every_demo_case() {
     }
     assert!(seen >= 5);
 }
+
+/// `grid.refine` and `grid.boxes` do what they say: steps inside a box's
+/// rows and columns stay at or below its max_step, and refining by 2 roughly
+/// doubles the nodes along each axis (definitions of the case format).
+#[test]
+fn refinement_controls_shape_the_grid() {
+    let base = "
+title: box
+stack:
+  form: planar
+  voltage_kv: 5
+  width: 20
+  layers: [ { material: ptfe, thickness: 5 } ]
+";
+    let grid_of = |extra: &str| {
+        let case = hvstack::case::parse(&format!("{base}{extra}"), "g.yaml").unwrap();
+        hvstack::grid::Grid::for_case(&case, &hvstack::grid::GridLimits { max_nodes: 10_000_000 }).unwrap()
+    };
+    let plain = grid_of("");
+    let refined = grid_of("grid: { refine: 2 }\n");
+    let ratio = (refined.nx() - 1) as f64 / (plain.nx() - 1) as f64;
+    assert!((ratio - 2.0).abs() < 0.1, "{ratio}");
+    let boxed = grid_of("grid: { boxes: [ { x: [5, 6], y: [1, 2], max_step: 0.01 } ] }\n");
+    for w in boxed.x.windows(2) {
+        if w[0] >= 0.005 - 1e-12 && w[1] <= 0.006 + 1e-12 {
+            assert!(w[1] - w[0] <= 0.01e-3 * (1.0 + 1e-9), "step {}", w[1] - w[0]);
+        }
+    }
+    assert!(boxed.x.iter().any(|x| (x - 0.005).abs() < 1e-12) && boxed.y.iter().any(|y| (y - 0.002).abs() < 1e-12));
+}

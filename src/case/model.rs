@@ -54,6 +54,15 @@ impl GridSpec {
     }
 }
 
+/// A local refinement box (m).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RefineBox {
+    /// The box.
+    pub rect: Rect,
+    /// Largest step in the rows and columns that cross it.
+    pub max_step: f64,
+}
+
 /// Index into [`Case::materials`].
 pub type MaterialId = usize;
 
@@ -117,6 +126,8 @@ pub struct Case {
     pub background: MaterialId,
     /// Grid controls.
     pub grid: GridSpec,
+    /// Local refinement boxes.
+    pub refine_boxes: Vec<RefineBox>,
     /// Materials in use (library entries resolved, overrides applied).
     pub materials: Vec<Material>,
     /// Parts in painting order (stack layers and stack electrodes first).

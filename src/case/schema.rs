@@ -67,6 +67,23 @@ pub struct GridFile {
     pub cells_across: Option<u32>,
     /// Largest ratio between neighbouring steps.
     pub growth: Option<f64>,
+    /// Global refinement factor (2 = steps halved, twice the cells across).
+    pub refine: Option<f64>,
+    /// Local refinement: rows and columns crossing each box get at most its
+    /// `max_step`.
+    pub boxes: Option<Vec<BoxFile>>,
+}
+
+/// One local refinement box, in mm.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct BoxFile {
+    /// [x min, x max]
+    pub x: [f64; 2],
+    /// [y min, y max]
+    pub y: [f64; 2],
+    /// Largest step inside the box's rows and columns.
+    pub max_step: f64,
 }
 
 /// One entry of `materials:`.

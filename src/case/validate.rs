@@ -347,6 +347,30 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
     }
 }
 
+fn refine_boxes(ctx: &mut Ctx, g: Option<&GridFile>) -> Option<Vec<RefineBox>> {
+    let mut ok = true;
+    let mut out = Vec::new();
+    for (i, b) in g.and_then(|g| g.boxes.as_ref()).into_iter().flatten().enumerate() {
+        let key = format!("grid.boxes[{i}]");
+        let good = ctx.interval(&format!("{key}.x"), b.x, false)
+            & ctx.interval(&format!("{key}.y"), b.y, false)
+            & ctx.positive(&format!("{key}.max_step"), b.max_step, "max_step");
+        ok &= good;
+        if good {
+            out.push(RefineBox {
+                rect: Rect {
+                    x0: units::mm(b.x[0]),
+                    x1: units::mm(b.x[1]),
+                    y0: units::mm(b.y[0]),
+                    y1: units::mm(b.y[1]),
+                },
+                max_step: units::mm(b.max_step),
+            });
+        }
+    }
+    ok.then_some(out)
+}
+
 fn grid_spec(ctx: &mut Ctx, g: Option<&GridFile>, domain: &Rect) -> Option<GridSpec> {
     let extent = domain.width().max(domain.height());
     let mut spec = GridSpec {
@@ -381,6 +405,16 @@ fn grid_spec(ctx: &mut Ctx, g: Option<&GridFile>, domain: &Rect) -> Option<GridS
             ok = false;
         }
         spec.cells_across = n as usize;
+    }
+    if let Some(f) = g.refine {
+        if !(f.is_finite() && f > 0.0 && f <= 16.0) {
+            ctx.err("grid.refine", format!("must be above 0 and at most 16, found {f}"));
+            ok = false;
+        } else {
+            spec.max_step /= f;
+            spec.min_step /= f;
+            spec.cells_across = ((spec.cells_across as f64 * f).round() as usize).clamp(1, 256);
+        }
     }
     if let Some(q) = g.growth {
         if !(q.is_finite() && q > 1.0 && q <= 2.0) {
@@ -599,7 +633,9 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
     }
 
     let grid = domain.and_then(|d| grid_spec(&mut ctx, f.grid.as_ref(), &d));
-    let (Some(domain), Some(grid), Some(background), true) = (domain, grid, background, ok && ctx.diags.is_empty())
+    let refine_boxes = refine_boxes(&mut ctx, f.grid.as_ref());
+    let (Some(domain), Some(grid), Some(refine_boxes), Some(background), true) =
+        (domain, grid, refine_boxes, background, ok && ctx.diags.is_empty())
     else {
         return (None, ctx.diags);
     };
@@ -610,6 +646,7 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
         domain,
         background,
         grid,
+        refine_boxes,
         materials: table.used,
         parts,
         probes,

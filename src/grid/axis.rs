@@ -27,14 +27,21 @@ pub struct AxisPlan {
 impl AxisPlan {
     /// Plans the axis from `lo` to `hi` with grid lines at every feature
     /// coordinate that lies inside.
-    pub fn new(lo: f64, hi: f64, features: &[f64], spec: &GridSpec) -> AxisPlan {
-        let lines = feature_lines(lo, hi, features);
+    /// `local` lists (from, to, max_step) ranges refined further.
+    pub fn new(lo: f64, hi: f64, features: &[f64], spec: &GridSpec, local: &[(f64, f64, f64)]) -> AxisPlan {
+        let mut all = features.to_vec();
+        all.extend(local.iter().flat_map(|l| [l.0, l.1]));
+        let lines = feature_lines(lo, hi, &all);
         let beta = spec.growth - 1.0;
         let requests: Vec<f64> = lines
             .windows(2)
             .map(|w| {
                 let len = w[1] - w[0];
-                (len / spec.cells_across as f64).max(spec.min_step).min(spec.max_step).min(len)
+                let cap = local
+                    .iter()
+                    .filter(|l| l.0 <= w[0] + 1e-12 * len && l.1 >= w[1] - 1e-12 * len)
+                    .fold(spec.max_step, |m, l| m.min(l.2));
+                (len / spec.cells_across as f64).max(spec.min_step).min(cap).min(len)
             })
             .collect();
         let k = requests.len();
@@ -76,7 +83,7 @@ impl AxisPlan {
 /// Node coordinates from `lo` to `hi`, including every feature coordinate
 /// that lies inside.
 pub fn graded_axis(lo: f64, hi: f64, features: &[f64], spec: &GridSpec) -> Vec<f64> {
-    AxisPlan::new(lo, hi, features, spec).place()
+    AxisPlan::new(lo, hi, features, spec, &[]).place()
 }
 
 /// Sorted, merged feature coordinates clipped to [lo, hi], ends included.

@@ -121,8 +121,10 @@ impl Grid {
             fx.extend(bx);
             fy.extend(by);
         }
-        let px = AxisPlan::new(d.x0, d.x1, &fx, &case.grid);
-        let py = AxisPlan::new(d.y0, d.y1, &fy, &case.grid);
+        let bx: Vec<(f64, f64, f64)> = case.refine_boxes.iter().map(|b| (b.rect.x0, b.rect.x1, b.max_step)).collect();
+        let by: Vec<(f64, f64, f64)> = case.refine_boxes.iter().map(|b| (b.rect.y0, b.rect.y1, b.max_step)).collect();
+        let px = AxisPlan::new(d.x0, d.x1, &fx, &case.grid, &bx);
+        let py = AxisPlan::new(d.y0, d.y1, &fy, &case.grid, &by);
         let (nx, ny) = (px.nodes(), py.nodes());
         let nodes = nx.saturating_mul(ny);
         let limit = limits.max_nodes.min(MAX_SUPPORTED_NODES);
