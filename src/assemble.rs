@@ -100,8 +100,20 @@ impl Stencil {
         Stencil { gx, gy }
     }
 
-    /// The stencil of a case's painted layout.
+    /// The stencil of a case's painted layout. An edge that a curved
+    /// electrode outline crosses at fraction θ from its free node carries the
+    /// flux between that node and the outline: its conductance is divided by
+    /// θ (the symmetric Shortley–Weller form, which keeps the matrix SPD).
     pub fn for_case(case: &Case, grid: &Grid, layout: &Layout) -> Stencil {
+        let mut s = Stencil::bulk(case, grid, layout);
+        for b in &layout.boundary_edges {
+            let g = if b.horizontal { &mut s.gx[b.edge as usize] } else { &mut s.gy[b.edge as usize] };
+            *g /= b.theta;
+        }
+        s
+    }
+
+    fn bulk(case: &Case, grid: &Grid, layout: &Layout) -> Stencil {
         let eps: Vec<f64> = layout.regions.iter().map(|r| case.materials[r.material].epsilon()).collect();
         Stencil::build(grid, case.geometry, |c| {
             let r = layout.cell_region[c.0];

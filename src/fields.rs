@@ -185,7 +185,12 @@ fn extensive_scale(n: Normalisation) -> f64 {
 /// Computes every field result from the nodal potential `phi`.
 pub fn compute(case: &Case, grid: &Grid, layout: &Layout, stencil: &Stencil, phi: &[f64]) -> Fields {
     let geo = case.geometry;
-    let ev = edge_values(grid, geo, phi);
+    let mut ev = edge_values(grid, geo, phi);
+    // Across a curved electrode outline the potential drop happens over θ·h.
+    for b in &layout.boundary_edges {
+        let v = if b.horizontal { &mut ev.gx[b.edge as usize] } else { &mut ev.gy[b.edge as usize] };
+        *v /= b.theta;
+    }
     let (nx, ny) = (grid.nx(), grid.ny());
     // Peaks are recovered from cells a single material fills: a cell cut by
     // a curved interface carries a blend of both sides' fields. Regions with
@@ -242,8 +247,16 @@ pub fn compute(case: &Case, grid: &Grid, layout: &Layout, stencil: &Stencil, phi
     let mut e_max = vec![0.0f64; nreg];
     let mut e_max_at = vec![[f64::NAN; 2]; nreg];
     let mut seen = [u32::MAX; 4];
+    // Nodes of curved electrodes are staircase points inside the outline;
+    // their surface field comes from `surface_fields` instead.
+    let curved: Vec<bool> =
+        layout.electrodes.iter().map(|e| !matches!(case.parts[e.part].shape, crate::shape::Shape::Rect(_))).collect();
     for j in 0..ny {
         for i in 0..nx {
+            let own = layout.node_electrode[grid.node(i, j).0];
+            if own != NO_ELECTRODE && curved[own as usize] {
+                continue;
+            }
             seen.fill(u32::MAX);
             let touching =
                 [(i.wrapping_sub(1), j.wrapping_sub(1)), (i, j.wrapping_sub(1)), (i.wrapping_sub(1), j), (i, j)];
@@ -273,6 +286,14 @@ pub fn compute(case: &Case, grid: &Grid, layout: &Layout, stencil: &Stencil, phi
                     e_max_at[r] = [grid.x[i], grid.y[j]];
                 }
             }
+        }
+    }
+
+    // Surface field of curved electrodes where each grid line meets them.
+    for (value, at, r) in surface_fields(grid, layout, phi) {
+        if value > e_max[r] * (1.0 + TIE) || e_max_at[r][0].is_nan() {
+            e_max[r] = e_max[r].max(value);
+            e_max_at[r] = at;
         }
     }
 
@@ -319,6 +340,93 @@ pub fn compute(case: &Case, grid: &Grid, layout: &Layout, stencil: &Stencil, phi
         probes,
         gap: gap(grid, layout, &members),
     }
+}
+
+/// Smallest |n·axis| for which a grid line's crossing gives the surface
+/// field: further from the normal, the axial component is too small a part
+/// of the field to divide by.
+const MIN_NORMAL_COMPONENT: f64 = 0.7;
+
+/// The field on curved electrode surfaces: at each crossing of a grid line
+/// with the outline, dφ/ds along the line from a quadratic through the
+/// outline (at the electrode potential), the free node before it and the
+/// node before that (a second-order one-sided difference; linear when that
+/// node is missing), divided by the normal's component along the line
+/// (the field at a conductor is normal to it). Returns (|E|, point, region).
+fn surface_fields(grid: &Grid, layout: &Layout, phi: &[f64]) -> Vec<(f64, [f64; 2], usize)> {
+    let (nx, ny) = (grid.nx(), grid.ny());
+    let mut out = Vec::new();
+    for b in &layout.boundary_edges {
+        let a = NodeIx(b.free_node as usize);
+        let (ia, ja) = grid.node_ij(a);
+        let (e, axis) = if b.horizontal { (b.edge as usize % (nx - 1), 0) } else { (b.edge as usize / nx, 1) };
+        // direction from the free node towards the electrode: +1 or −1 along the axis
+        let own = if axis == 0 { ia } else { ja };
+        let dir: isize = if e == own { 1 } else { -1 };
+        let coord = if axis == 0 { &grid.x } else { &grid.y };
+        let h = (coord[(own as isize + dir) as usize] - coord[own]).abs();
+        let s = b.theta * h;
+        let n_axis = b.normal[axis].abs();
+        if n_axis < MIN_NORMAL_COMPONENT {
+            continue;
+        }
+        let electrode = layout.node_electrode[if axis == 0 {
+            grid.node((ia as isize + dir) as usize, ja)
+        } else {
+            grid.node(ia, (ja as isize + dir) as usize)
+        }
+        .0];
+        let v = {
+            // any node of the electrode holds its potential
+            let n = if axis == 0 {
+                grid.node((ia as isize + dir) as usize, ja)
+            } else {
+                grid.node(ia, (ja as isize + dir) as usize)
+            };
+            debug_assert_eq!(layout.node_electrode[n.0], electrode);
+            phi[n.0]
+        };
+        let len = if axis == 0 { nx } else { ny };
+        // free nodes going away from the outline: distance from it and potential
+        let node_at = |k: isize| -> Option<(f64, f64)> {
+            if k < 0 || k as usize >= len {
+                return None;
+            }
+            let n = if axis == 0 { grid.node(k as usize, ja) } else { grid.node(ia, k as usize) };
+            (layout.node_electrode[n.0] == NO_ELECTRODE).then(|| (s + (coord[k as usize] - coord[own]).abs(), phi[n.0]))
+        };
+        let own_i = own as isize;
+        // A node very near the outline amplifies its error by h/s: then fit
+        // through the next two nodes instead (both at least h/2 away).
+        let pts = if s >= 0.5 * h {
+            [node_at(own_i), node_at(own_i - dir)]
+        } else {
+            [node_at(own_i - dir), node_at(own_i - 2 * dir)]
+        };
+        let slope = match pts {
+            [Some((d1, p1)), Some((d2, p2))] => {
+                // quadratic through (0, v), (d1, p1), (d2, p2): derivative at 0
+                let (a1, a2) = ((p1 - v) / d1, (p2 - v) / d2);
+                (a1 * d2 - a2 * d1) / (d2 - d1)
+            }
+            [Some((d1, p1)), None] => (p1 - v) / d1,
+            _ => (phi[a.0] - v) / s,
+        };
+        let mut at = grid.node_pos(a);
+        at[axis] += dir as f64 * s;
+        // the dielectric cell beside the edge
+        let (ci, cj) = if axis == 0 { (e, ja) } else { (ia, e) };
+        let cells = if axis == 0 { [(ci, cj), (ci, cj.wrapping_sub(1))] } else { [(ci, cj), (ci.wrapping_sub(1), cj)] };
+        let region = cells
+            .iter()
+            .filter(|&&(x, y)| x < nx - 1 && y < ny - 1)
+            .map(|&(x, y)| layout.cell_region[grid.cell(x, y).0])
+            .find(|&r| r != CONDUCTOR);
+        if let Some(r) = region {
+            out.push((slope.abs() / n_axis, at, r as usize));
+        }
+    }
+    out
 }
 
 /// Sharp convex features of the electrodes, leaving out those on the

@@ -156,13 +156,13 @@ impl Prepared {
         fields::compute(&self.case, &self.grid, &self.layout, &self.stencil, &solution.phi)
     }
 
-    /// The mesh self-check: the case solved again on grids two and four
-    /// times coarser, and each part's peak compared (see `meshcheck`).
+    /// The mesh self-check: the case solved again on grids √2 and 2 times
+    /// coarser, and each part's peak compared (see `meshcheck`).
     /// `None` when a coarser grid cannot be solved (then nothing is
     /// bracketed and the assessment says so).
     pub fn self_check(&self, fine: &fields::Fields, options: &Options) -> Option<meshcheck::MeshCheck> {
         let mut coarser = Vec::new();
-        for factor in [2.0, 4.0] {
+        for factor in [std::f64::consts::SQRT_2, 2.0] {
             let mut case = self.case.clone();
             case.grid = self.case.grid.coarsened(factor);
             for b in &mut case.refine_boxes {

@@ -1,6 +1,8 @@
 //! Stage 5b: the mesh self-check. The case is solved again on two coarser
-//! grids (steps ×2 and ×4, half and a quarter of the cells across features)
-//! and each part's peak field is compared across the three grids.
+//! grids (steps ×√2 and ×2, with as many fewer cells across features) and
+//! each part's peak field is compared across the three grids. (Factors 2
+//! and 4 left small curved features with one or two cells on the coarsest
+//! grid, and the estimates there meant little.)
 //!
 //! With peaks E1 (fine), E2, E3 (coarsest) and a refinement ratio r (from
 //! the node counts, r = √(N_fine/N_coarser)), the differences d12 = E1 − E2

@@ -122,6 +122,53 @@ impl Shape {
         }
     }
 
+    /// Where the segment from `a` (outside) to `b` first meets the shape:
+    /// the fraction t ∈ [0, 1] of the way, and the outward normal there.
+    /// `None` for rectangles (their edges lie on grid lines) or when the
+    /// segment does not meet the outline.
+    pub fn entry(&self, a: [f64; 2], b: [f64; 2]) -> Option<(f64, [f64; 2])> {
+        let d = [b[0] - a[0], b[1] - a[1]];
+        match self {
+            Shape::Rect(_) => None,
+            Shape::Circle { center, radius } => {
+                let f = [a[0] - center[0], a[1] - center[1]];
+                let qa = d[0] * d[0] + d[1] * d[1];
+                let qb = 2.0 * (f[0] * d[0] + f[1] * d[1]);
+                let qc = f[0] * f[0] + f[1] * f[1] - radius * radius;
+                let disc = qb * qb - 4.0 * qa * qc;
+                if qa == 0.0 || disc < 0.0 {
+                    return None;
+                }
+                let t = ((-qb - disc.sqrt()) / (2.0 * qa)).clamp(0.0, 1.0);
+                let p = [a[0] + t * d[0], a[1] + t * d[1]];
+                let n = [(p[0] - center[0]) / radius, (p[1] - center[1]) / radius];
+                Some((t, n))
+            }
+            Shape::Polygon(v) => {
+                let orientation = polygon_signed_area(v).signum();
+                polygon_edges(v)
+                    .filter_map(|(p, q)| {
+                        let e = [q[0] - p[0], q[1] - p[1]];
+                        let den = d[0] * e[1] - d[1] * e[0];
+                        if den == 0.0 {
+                            return None;
+                        }
+                        let w = [p[0] - a[0], p[1] - a[1]];
+                        let t = (w[0] * e[1] - w[1] * e[0]) / den;
+                        let u = (w[0] * d[1] - w[1] * d[0]) / den;
+                        if !(-1e-12..=1.0 + 1e-12).contains(&t) || !(-1e-12..=1.0 + 1e-12).contains(&u) {
+                            return None;
+                        }
+                        let len = (e[0] * e[0] + e[1] * e[1]).sqrt();
+                        // outward normal of a counter-clockwise polygon is (e_y, −e_x)
+                        let n = [orientation * e[1] / len, -orientation * e[0] / len];
+                        Some((t.clamp(0.0, 1.0), n))
+                    })
+                    .min_by(|x, y| x.0.total_cmp(&y.0))
+            }
+        }
+    }
+
     /// True when `p` lies inside the shape or within `tol` of its outline.
     pub fn contains_closed(&self, p: [f64; 2], tol: f64) -> bool {
         match self {

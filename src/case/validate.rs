@@ -563,8 +563,10 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
             ok = false;
             continue;
         }
-        if geometry == Geometry::Axisymmetric && b.x0 < 0.0 {
-            ctx.err(&format!("{key}.shape"), "axisymmetric parts cannot reach negative radius (x < 0)");
+        // a circle centred on the axis is a sphere; anything else must stay at r ≥ 0
+        let sphere = matches!(sh, Shape::Circle { center, .. } if center[0] == 0.0);
+        if geometry == Geometry::Axisymmetric && b.x0 < 0.0 && !sphere {
+            ctx.err(&format!("{key}.shape"), "axisymmetric parts cannot reach negative radius (x < 0); only a circle centred on the axis (a sphere) may cross it");
             ok = false;
             continue;
         }

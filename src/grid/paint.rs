@@ -54,7 +54,30 @@ pub struct Layout {
     /// Cells cut by a curved or slanted dielectric interface, with their
     /// effective relative permittivity along x and along y (sorted by cell).
     pub cut_cells: Vec<CutCell>,
+    /// Edges where a curved electrode outline lies between the nodes.
+    pub boundary_edges: Vec<BoundaryEdge>,
 }
+
+/// A grid edge from a free node into a curved electrode, which the
+/// electrode's real outline crosses before the electrode node.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BoundaryEdge {
+    /// Along x (edge index into the horizontal edges) or y (vertical edges).
+    pub horizontal: bool,
+    /// Edge index (`j·(nx−1) + i` for horizontal, `j·nx + i` for vertical).
+    pub edge: u32,
+    /// The free node the edge starts from.
+    pub free_node: u32,
+    /// Fraction of the edge from the free node to the outline (≥ `MIN_THETA`).
+    pub theta: f64,
+    /// Outward normal of the electrode where the edge meets it.
+    pub normal: [f64; 2],
+}
+
+/// Smallest boundary fraction used: nearer outlines are treated as at this
+/// fraction, which keeps the matrix well conditioned (common practice in
+/// Shortley–Weller discretisations).
+pub const MIN_THETA: f64 = 0.05;
 
 /// A cell that a dielectric interface crosses.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -65,6 +88,47 @@ pub struct CutCell {
     pub eps_x: f64,
     /// Effective relative permittivity for flux along y.
     pub eps_y: f64,
+}
+
+/// Edges from free nodes into curved electrodes, with where the outline
+/// really lies (Shortley & Weller, J. Appl. Phys. 9, 1938).
+fn boundary_edges(case: &Case, grid: &Grid, electrodes: &[ElectrodeInfo], node_electrode: &[u32]) -> Vec<BoundaryEdge> {
+    let (nx, ny) = (grid.nx(), grid.ny());
+    let mut out = Vec::new();
+    for j in 0..ny {
+        for i in 0..nx {
+            let n = grid.node(i, j);
+            let e = node_electrode[n.0];
+            if e == NO_ELECTRODE {
+                continue;
+            }
+            let shape = &case.parts[electrodes[e as usize].part].shape;
+            if matches!(shape, crate::shape::Shape::Rect(_)) {
+                continue;
+            }
+            let around =
+                [(i.wrapping_sub(1), j, true), (i + 1, j, true), (i, j.wrapping_sub(1), false), (i, j + 1, false)];
+            for (a, b, horizontal) in around {
+                if a >= nx || b >= ny {
+                    continue;
+                }
+                let m = grid.node(a, b);
+                if node_electrode[m.0] != NO_ELECTRODE {
+                    continue;
+                }
+                let Some((t, normal)) = shape.entry(grid.node_pos(m), grid.node_pos(n)) else { continue };
+                let edge = if horizontal { b * (nx - 1) + a.min(i) } else { b.min(j) * nx + a };
+                out.push(BoundaryEdge {
+                    horizontal,
+                    edge: edge as u32,
+                    free_node: m.0 as u32,
+                    theta: t.max(MIN_THETA),
+                    normal,
+                });
+            }
+        }
+    }
+    out
 }
 
 /// Sub-samples per cell side used to find a cut cell's fill fractions.
@@ -224,7 +288,8 @@ impl Layout {
                 cut_cell(case, grid, CellIx(c)).map(|(eps_x, eps_y)| CutCell { cell: c as u32, eps_x, eps_y })
             })
             .collect();
-        Ok(Layout { regions, cell_region, electrodes, node_electrode, cut_cells })
+        let boundary_edges = boundary_edges(case, grid, &electrodes, &node_electrode);
+        Ok(Layout { regions, cell_region, electrodes, node_electrode, cut_cells, boundary_edges })
     }
 
     /// Number of cells owned by each region.
