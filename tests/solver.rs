@@ -23,6 +23,10 @@ fn agree(a: &serde_json::Value, b: &serde_json::Value, tol: f64, path: &str) {
     match (a, b) {
         (Number(x), Number(y)) => {
             let (x, y) = (x.as_f64().unwrap(), y.as_f64().unwrap());
+            // the self-check's coarser grids are solved to 1e-8 only, and its
+            // estimate is a difference of peaks
+            let self_check = ["error_estimate", "coarser_grids", "observed_order"].iter().any(|k| path.contains(k));
+            let tol = if self_check { 1e-3 } else { tol };
             let scale = x.abs().max(y.abs()).max(1e-9);
             assert!((x - y).abs() <= tol * scale, "{path}: {x} vs {y}");
         }
