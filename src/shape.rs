@@ -52,6 +52,14 @@ pub enum Shape {
     },
     /// Simple polygon given by its vertices in order.
     Polygon(Vec<[f64; 2]>),
+    /// Axis-aligned rectangle with its four corners rounded to `radius`
+    /// (at most half the shorter side).
+    RoundedRect {
+        /// The outer rectangle.
+        rect: Rect,
+        /// Corner radius.
+        radius: f64,
+    },
 }
 
 impl Shape {
@@ -62,6 +70,7 @@ impl Shape {
             Shape::Circle { center, radius } => {
                 Rect { x0: center[0] - radius, x1: center[0] + radius, y0: center[1] - radius, y1: center[1] + radius }
             }
+            Shape::RoundedRect { rect, .. } => *rect,
             Shape::Polygon(v) => v.iter().fold(
                 Rect { x0: f64::INFINITY, x1: f64::NEG_INFINITY, y0: f64::INFINITY, y1: f64::NEG_INFINITY },
                 |b, p| Rect { x0: b.x0.min(p[0]), x1: b.x1.max(p[0]), y0: b.y0.min(p[1]), y1: b.y1.max(p[1]) },
@@ -75,6 +84,9 @@ impl Shape {
             Shape::Rect(r) => r.width() * r.height(),
             Shape::Circle { radius, .. } => std::f64::consts::PI * radius * radius,
             Shape::Polygon(v) => polygon_signed_area(v).abs(),
+            Shape::RoundedRect { rect, radius } => {
+                rect.width() * rect.height() - (4.0 - std::f64::consts::PI) * radius * radius
+            }
         }
     }
 
@@ -88,6 +100,9 @@ impl Shape {
                 vec![center[1] - radius, center[1], center[1] + radius],
             ),
             Shape::Polygon(v) => (v.iter().map(|p| p[0]).collect(), v.iter().map(|p| p[1]).collect()),
+            Shape::RoundedRect { rect: r, radius } => {
+                (vec![r.x0, r.x0 + radius, r.x1 - radius, r.x1], vec![r.y0, r.y0 + radius, r.y1 - radius, r.y1])
+            }
         }
     }
 
@@ -107,7 +122,7 @@ impl Shape {
                 }
                 v
             }
-            Shape::Circle { .. } => Vec::new(),
+            Shape::Circle { .. } | Shape::RoundedRect { .. } => Vec::new(),
             Shape::Polygon(v) => {
                 let orientation = polygon_signed_area(v).signum();
                 (0..v.len())
@@ -130,6 +145,20 @@ impl Shape {
         let d = [b[0] - a[0], b[1] - a[1]];
         match self {
             Shape::Rect(_) => None,
+            Shape::RoundedRect { .. } => {
+                // bisection on the signed distance along the segment
+                let sd = |t: f64| self.signed_distance([a[0] + t * d[0], a[1] + t * d[1]]);
+                if sd(0.0) <= 0.0 || sd(1.0) > 0.0 {
+                    return None;
+                }
+                let (mut lo, mut hi) = (0.0, 1.0);
+                for _ in 0..60 {
+                    let mid = 0.5 * (lo + hi);
+                    if sd(mid) > 0.0 { lo = mid } else { hi = mid }
+                }
+                let p = [a[0] + hi * d[0], a[1] + hi * d[1]];
+                Some((hi, self.outward_normal(p)))
+            }
             Shape::Circle { center, radius } => {
                 let f = [a[0] - center[0], a[1] - center[1]];
                 let qa = d[0] * d[0] + d[1] * d[1];
@@ -180,7 +209,42 @@ impl Shape {
             Shape::Polygon(v) => {
                 point_in_polygon(v, p) || polygon_edges(v).any(|(a, b)| segment_distance(a, b, p) <= tol)
             }
+            Shape::RoundedRect { .. } => self.signed_distance(p) <= tol,
         }
+    }
+
+    /// Signed distance to a rounded rectangle's outline (negative inside);
+    /// for other shapes only its sign is meaningful.
+    fn signed_distance(&self, p: [f64; 2]) -> f64 {
+        match self {
+            Shape::RoundedRect { rect: r, radius } => {
+                let (cx, cy) = (0.5 * (r.x0 + r.x1), 0.5 * (r.y0 + r.y1));
+                let qx = (p[0] - cx).abs() - (0.5 * r.width() - radius);
+                let qy = (p[1] - cy).abs() - (0.5 * r.height() - radius);
+                let outside = (qx.max(0.0).powi(2) + qy.max(0.0).powi(2)).sqrt();
+                outside + qx.max(qy).min(0.0) - radius
+            }
+            _ => {
+                if self.contains_closed(p, 0.0) {
+                    -1.0
+                } else {
+                    1.0
+                }
+            }
+        }
+    }
+
+    /// Outward normal of a rounded rectangle at a point of its outline.
+    fn outward_normal(&self, p: [f64; 2]) -> [f64; 2] {
+        let Shape::RoundedRect { rect: r, radius } = self else { return [0.0, 0.0] };
+        let (cx, cy) = (0.5 * (r.x0 + r.x1), 0.5 * (r.y0 + r.y1));
+        let (hx, hy) = (0.5 * r.width() - radius, 0.5 * r.height() - radius);
+        // nearest point of the inner rectangle; the normal points away from it
+        let nx = (p[0] - cx).clamp(-hx, hx) + cx;
+        let ny = (p[1] - cy).clamp(-hy, hy) + cy;
+        let (dx, dy) = (p[0] - nx, p[1] - ny);
+        let len = (dx * dx + dy * dy).sqrt();
+        if len > 0.0 { [dx / len, dy / len] } else { [0.0, 0.0] }
     }
 }
 
@@ -231,6 +295,22 @@ mod tests {
         let tri = Shape::Polygon(vec![[0.0, 0.0], [2.0, 0.0], [0.0, 2.0]]);
         assert!((tri.area() - 2.0).abs() < 1e-15);
         assert!(!tri.contains_closed([1.5, 1.5], 1e-9));
+    }
+
+    #[test]
+    fn rounded_rect_area_membership_and_entry() {
+        // area w·h − (4 − π)·r², elementary geometry, common practice
+        let s = Shape::RoundedRect { rect: Rect { x0: 0.0, x1: 4.0, y0: 0.0, y1: 2.0 }, radius: 0.5 };
+        assert!((s.area() - (8.0 - (4.0 - std::f64::consts::PI) * 0.25)).abs() < 1e-12);
+        assert!(s.contains_closed([2.0, 1.0], 0.0));
+        assert!(!s.contains_closed([0.02, 0.02], 0.0));
+        // from outside along the diagonal into the corner: the arc at 45°
+        let (t, n) = s.entry([-1.0, -1.0], [1.0, 1.0]).unwrap();
+        let p = -1.0 + 2.0 * t;
+        let expect = 0.5 - 0.5 / 2f64.sqrt();
+        assert!((p - expect).abs() < 1e-9, "{p} vs {expect}");
+        assert!((n[0] + 1.0 / 2f64.sqrt()).abs() < 1e-6 && (n[1] + 1.0 / 2f64.sqrt()).abs() < 1e-6);
+        assert!(s.sharp_points().is_empty());
     }
 
     #[test]

@@ -230,6 +230,8 @@ pub struct RectFile {
     pub x: [f64; 2],
     /// [y min, y max]
     pub y: [f64; 2],
+    /// Corner radius (rounded corners; at most half the shorter side).
+    pub radius: Option<f64>,
 }
 
 /// A circle in mm.

@@ -196,14 +196,23 @@ fn shape(ctx: &mut Ctx, key: &str, s: &ShapeFile) -> Option<Shape> {
         (Some(r), None, None) => {
             let k = format!("{key}.rect");
             let ok = ctx.interval(&format!("{k}.x"), r.x, true) & ctx.interval(&format!("{k}.y"), r.y, true);
-            ok.then(|| {
-                Shape::Rect(Rect {
-                    x0: units::mm(r.x[0]),
-                    x1: units::mm(r.x[1]),
-                    y0: units::mm(r.y[0]),
-                    y1: units::mm(r.y[1]),
-                })
-            })
+            let rect =
+                Rect { x0: units::mm(r.x[0]), x1: units::mm(r.x[1]), y0: units::mm(r.y[0]), y1: units::mm(r.y[1]) };
+            match r.radius {
+                None => ok.then_some(Shape::Rect(rect)),
+                Some(rad) => {
+                    let rk = format!("{k}.radius");
+                    if !ctx.positive(&rk, rad, "corner radius") || !ok {
+                        return None;
+                    }
+                    let half = 0.5 * (r.x[1] - r.x[0]).min(r.y[1] - r.y[0]);
+                    if rad > half {
+                        ctx.err(&rk, format!("corner radius {rad} is more than half the shorter side ({half})"));
+                        return None;
+                    }
+                    Some(Shape::RoundedRect { rect, radius: units::mm(rad) })
+                }
+            }
         }
         (None, Some(c), None) => {
             let k = format!("{key}.circle");
