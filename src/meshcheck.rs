@@ -9,8 +9,8 @@
 //! and d23 = E2 − E3 give the observed order `p = ln(|d23|/|d12|)/ln r` and
 //! the Richardson estimate of the fine grid's error `|d12|/(r^q − 1)` with
 //! q = min(p, 2) (the scheme's order; a higher observed order is not
-//! trusted to shrink the estimate). Where the differences change sign the
-//! estimate is the larger difference. A peak that keeps growing under
+//! trusted to shrink the estimate). Where the differences do not shrink
+//! the estimate assumes order ½: the larger difference / (r^½ − 1). A peak that keeps growing under
 //! refinement without slowing (`d12 ≥ 0.7·d23 > 0`) is a field singularity
 //! of the drawn geometry (a sharp edge or corner), not a converging number.
 
@@ -19,6 +19,10 @@ use crate::fields::RegionField;
 /// Growth ratio d12/d23 above which a rising peak counts as not converging
 /// (p < 0.5 at r = 2).
 pub const SINGULAR_RATIO: f64 = 0.7;
+/// Order assumed where the three peaks show none (differences that do not
+/// shrink): the estimate is then the larger difference / (r^0.5 − 1), about
+/// 5× it at r = √2 — deliberately pessimistic.
+pub const SLOWEST_ORDER: f64 = 0.5;
 /// Relative differences below this are solver round-off, not grid effects.
 pub const SOLVER_NOISE: f64 = 1e-6;
 /// Relative growth below which a rising peak is taken as converged anyway.
@@ -66,7 +70,9 @@ pub fn judge(e: [f64; 3], cells: [usize; 3], r: f64) -> RegionCheck {
     let order = same_sign.then(|| (d23.abs() / d12.abs()).ln() / r.ln());
     let error = match order {
         Some(p) if !growing => d12.abs() / (r.powf(p.min(2.0)) - 1.0),
-        _ => d12.abs().max(d23.abs()),
+        // Differences that do not shrink show no convergence yet: assume
+        // the slowest order still worth the name.
+        _ => d12.abs().max(d23.abs()) / (r.powf(SLOWEST_ORDER) - 1.0),
     };
     RegionCheck { e_max: e, order, error_estimate: Some(error / e1), growing }
 }
