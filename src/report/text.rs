@@ -64,7 +64,7 @@ pub fn render_text(r: &CheckReport) -> String {
     let _ = writeln!(o, "hvstack {} — screening check", r.hvstack_version);
     let _ = writeln!(o, "case         {}", r.title);
     let verdict = match r.verdict {
-        VerdictOut::Pass => "PASS — every part meets the safety factor and nothing is flagged",
+        VerdictOut::Pass => "PASS — every part meets the safety factor; no warnings",
         VerdictOut::Review => "REVIEW — something needs an engineer's look (see findings)",
         VerdictOut::Fail => "FAIL — a typical breakdown strength is exceeded (see findings)",
     };
