@@ -70,31 +70,34 @@ pub struct Stencil {
 impl Stencil {
     /// Conductances from the painted layout. `eps(c)` is the absolute
     /// permittivity of cell c; conductor cells contribute nothing.
-    pub fn build(grid: &Grid, geometry: Geometry, eps: impl Fn(CellIx) -> Option<(f64, f64)>) -> Stencil {
+    /// `eps(c)` gives the permittivity of cell c's quarter beside its bottom,
+    /// top, left and right edge (`None` for conductor cells).
+    pub fn build(grid: &Grid, geometry: Geometry, eps: impl Fn(CellIx) -> Option<[f64; 4]>) -> Stencil {
         let (nx, ny) = (grid.nx(), grid.ny());
         let mut gx = vec![0.0; (nx - 1) * ny];
         let mut gy = vec![0.0; nx * (ny - 1)];
         for j in 0..ny - 1 {
             for i in 0..nx - 1 {
-                let Some((ex, ey)) = eps(grid.cell(i, j)) else { continue };
+                let Some([e_bottom, e_top, e_left, e_right]) = eps(grid.cell(i, j)) else { continue };
                 let (x0, x1) = (grid.x[i], grid.x[i + 1]);
                 let (hx, hy) = (x1 - x0, grid.y[j + 1] - grid.y[j]);
+                // (bottom, top, left, right) conductances per unit permittivity
                 let (g_h, g_left, g_right) = match geometry {
-                    Geometry::Planar => (ex * 0.5 * hy / hx, ey * 0.5 * hx / hy, ey * 0.5 * hx / hy),
+                    Geometry::Planar => (0.5 * hy / hx, 0.5 * hx / hy, 0.5 * hx / hy),
                     Geometry::Axisymmetric => {
                         let radial = radial_weight(x0, x1);
                         let xm = face_radius(x0, x1);
                         (
-                            2.0 * PI * ex * 0.5 * hy * radial,
-                            2.0 * PI * ey * 0.5 * (xm * xm - x0 * x0) / hy,
-                            2.0 * PI * ey * 0.5 * (x1 * x1 - xm * xm) / hy,
+                            2.0 * PI * 0.5 * hy * radial,
+                            2.0 * PI * 0.5 * (xm * xm - x0 * x0) / hy,
+                            2.0 * PI * 0.5 * (x1 * x1 - xm * xm) / hy,
                         )
                     }
                 };
-                gx[j * (nx - 1) + i] += g_h;
-                gx[(j + 1) * (nx - 1) + i] += g_h;
-                gy[j * nx + i] += g_left;
-                gy[j * nx + i + 1] += g_right;
+                gx[j * (nx - 1) + i] += e_bottom * g_h;
+                gx[(j + 1) * (nx - 1) + i] += e_top * g_h;
+                gy[j * nx + i] += e_left * g_left;
+                gy[j * nx + i + 1] += e_right * g_right;
             }
         }
         Stencil { gx, gy }
@@ -121,8 +124,8 @@ impl Stencil {
                 return None;
             }
             match layout.cut_cells.binary_search_by_key(&(c.0 as u32), |k| k.cell) {
-                Ok(k) => Some((EPSILON_0 * layout.cut_cells[k].eps_x, EPSILON_0 * layout.cut_cells[k].eps_y)),
-                Err(_) => Some((eps[r as usize], eps[r as usize])),
+                Ok(k) => Some(layout.cut_cells[k].eps.map(|e| EPSILON_0 * e)),
+                Err(_) => Some([eps[r as usize]; 4]),
             }
         })
     }

@@ -14,7 +14,7 @@ const TIGHT: SolveOptions = SolveOptions { rel_tol: 1e-13, max_iterations: 100_0
 /// axis in axisymmetric cases, which is a natural zero-flux boundary) and
 /// returns the largest nodal error.
 fn max_error(grid: &Grid, geometry: Geometry, exact: impl Fn(f64, f64) -> f64) -> f64 {
-    let stencil = Stencil::build(grid, geometry, |_| Some((1.0, 1.0)));
+    let stencil = Stencil::build(grid, geometry, |_| Some([1.0; 4]));
     let (nx, ny) = (grid.nx(), grid.ny());
     let mut cons = vec![Constraint::Free; grid.nodes()];
     for j in 0..ny {

@@ -84,10 +84,10 @@ pub const MIN_THETA: f64 = 0.05;
 pub struct CutCell {
     /// The cell.
     pub cell: u32,
-    /// Effective relative permittivity for flux along x.
-    pub eps_x: f64,
-    /// Effective relative permittivity for flux along y.
-    pub eps_y: f64,
+    /// Effective relative permittivity of the cell's quarter beside each of
+    /// its edges: along x in the lower and upper half (bottom and top
+    /// edges), along y in the left and right half (left and right edges).
+    pub eps: [f64; 4],
 }
 
 /// Edges from free nodes into curved electrodes, with where the outline
@@ -148,14 +148,15 @@ fn material_at(case: &Case, p: [f64; 2]) -> crate::case::MaterialId {
 }
 
 /// Effective permittivity of a cell crossed by interfaces, per flux
-/// direction, from an N×N sub-sampling of the materials: for flux along x
-/// each row of samples is a chain in series (harmonic mean along x) and the
-/// rows conduct side by side (arithmetic mean over y); likewise along y.
+/// direction and per half cell (each half feeds the edge beside it), from
+/// an N×N sub-sampling of the materials: for flux along x each row of
+/// samples is a chain in series (harmonic mean along x) and the rows conduct
+/// side by side (arithmetic mean over y); likewise along y.
 /// A straight interface across the flux gives the harmonic mean, one along
 /// it the arithmetic mean (the series/parallel capacitor limits), and
 /// oblique or curved interfaces fall in between as their geometry says.
 /// Returns `None` when the cell is not cut (one permittivity throughout).
-fn cut_cell(case: &Case, grid: &Grid, c: CellIx) -> Option<(f64, f64)> {
+fn cut_cell(case: &Case, grid: &Grid, c: CellIx) -> Option<[f64; 4]> {
     let (i, j) = grid.cell_ij(c);
     let (x0, y0) = (grid.x[i], grid.y[j]);
     let (hx, hy) = (grid.x[i + 1] - x0, grid.y[j + 1] - y0);
@@ -175,11 +176,17 @@ fn cut_cell(case: &Case, grid: &Grid, c: CellIx) -> Option<(f64, f64)> {
             e[b * n + a] = eps(material_at(case, [x0 + u * hx, y0 + v * hy]));
         }
     }
-    // flux along x: each row in series (harmonic), the rows side by side (arithmetic)
-    let eps_x = (0..n).map(|b| n as f64 / (0..n).map(|a| 1.0 / e[b * n + a]).sum::<f64>()).sum::<f64>() / n as f64;
-    // flux along y: each column in series, the columns side by side
-    let eps_y = (0..n).map(|a| n as f64 / (0..n).map(|b| 1.0 / e[b * n + a]).sum::<f64>()).sum::<f64>() / n as f64;
-    Some((eps_x, eps_y))
+    // flux along x: each row in series (harmonic), the rows side by side
+    // (arithmetic), over the half of the cell beside the edge
+    let rows = |range: std::ops::Range<usize>| {
+        let k = range.len() as f64;
+        range.map(|b| n as f64 / (0..n).map(|a| 1.0 / e[b * n + a]).sum::<f64>()).sum::<f64>() / k
+    };
+    let cols = |range: std::ops::Range<usize>| {
+        let k = range.len() as f64;
+        range.map(|a| n as f64 / (0..n).map(|b| 1.0 / e[b * n + a]).sum::<f64>()).sum::<f64>() / k
+    };
+    Some([rows(0..n / 2), rows(n / 2..n), cols(0..n / 2), cols(n / 2..n)])
 }
 
 impl Layout {
@@ -284,9 +291,7 @@ impl Layout {
             .iter()
             .enumerate()
             .filter(|&(c, &k)| k && cell_region[c] != CONDUCTOR)
-            .filter_map(|(c, _)| {
-                cut_cell(case, grid, CellIx(c)).map(|(eps_x, eps_y)| CutCell { cell: c as u32, eps_x, eps_y })
-            })
+            .filter_map(|(c, _)| cut_cell(case, grid, CellIx(c)).map(|eps| CutCell { cell: c as u32, eps }))
             .collect();
         let boundary_edges = boundary_edges(case, grid, &electrodes, &node_electrode);
         Ok(Layout { regions, cell_region, electrodes, node_electrode, cut_cells, boundary_edges })
