@@ -111,3 +111,54 @@ fn a_missing_file_is_exit_2() {
     assert!(stderr(&out).contains("no/such/case.yaml"));
     assert!(!Path::new("no").exists());
 }
+
+/// Every unknown key of a case is reported at once, each with its line and,
+/// where one is close, the key that was probably meant.
+#[test]
+fn all_unknown_keys_are_reported_at_once_with_suggestions() {
+    let dir = std::env::temp_dir().join(format!("hvstack-unknown-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let file = dir.join("case.yaml");
+    std::fs::write(
+        &file,
+        "titel: typo\ngeometry: planar\ndomain: { x: [0, 10], y: [0, 10] }\nmaterials:\n  r: { permitivity: 4, source: t }\nparts:\n  - { name: a, electrode: { potential_kv: 5 }, shape: { circle: { centre: [5, 5], radius: 1 } } }\n",
+    )
+    .unwrap();
+    let out = hvstack(&["check", file.to_str().unwrap()]);
+    let err = stderr(&out);
+    assert_eq!(out.status.code(), Some(2));
+    for (line, fragment) in
+        [(1, "did you mean `title`?"), (5, "did you mean `permittivity`?"), (7, "did you mean `center`?")]
+    {
+        assert!(
+            err.lines().any(|l| l.contains(&format!("case.yaml:{line}:")) && l.contains(fragment)),
+            "{fragment} in {err}"
+        );
+    }
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+/// The table of known keys (used for the all-at-once report) agrees with
+/// the serde schema: a case using every key once parses.
+#[test]
+fn the_known_key_table_matches_the_schema() {
+    let every_key = "
+title: all keys
+geometry: axisymmetric
+units: mm
+domain: { x: [0, 20], y: [0, 20] }
+background: air
+grid: { max_step: 1, min_step: 0.01, cells_across: 4, growth: 1.3, refine: 1, boxes: [ { x: [1, 2], y: [1, 2], max_step: 0.5 } ] }
+materials:
+  m: { base: epoxy, class: solid, permittivity: 4, strength_kv_per_mm: 20, loss_tangent: 0.01, source: test }
+stack: { form: coaxial, voltage_kv: 1, inner_radius: 1, length: 20, layers: [ { name: l, material: m, thickness: 19 } ] }
+parts:
+  - { name: a, material: m, shape: { rect: { x: [2, 3], y: [2, 3], radius: 0.1 } } }
+  - { name: b, electrode: { potential_kv: 1 }, shape: { circle: { center: [0, 10], radius: 0.5 } } }
+  - { name: c, material: air, shape: { polygon: [[5, 5], [6, 5], [6, 6]] } }
+probes: [ { name: p, at: [5, 5] } ]
+limits: { safety_factor: 2 }
+";
+    let r = hvstack::case::parse(every_key, "all.yaml");
+    assert!(r.is_ok(), "{:?}", r.err());
+}

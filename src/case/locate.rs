@@ -13,6 +13,24 @@ use yaml_rust2::scanner::Marker;
 #[derive(Debug, Default)]
 pub struct Locations {
     map: HashMap<String, (usize, usize)>,
+    /// Every mapping key in document order.
+    pub keys: Vec<KeySite>,
+}
+
+/// One mapping key and where it stands.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct KeySite {
+    /// Path of the mapping holding the key (`parts[2].shape`).
+    pub parent: String,
+    /// The same path with sequence indices as `[]` and the names under
+    /// `materials` as `*` (`parts[].shape`, `materials.*`).
+    pub pattern: String,
+    /// The key.
+    pub key: String,
+    /// Line.
+    pub line: usize,
+    /// Column.
+    pub column: usize,
 }
 
 impl Locations {
@@ -26,7 +44,7 @@ impl Locations {
         let mut map = builder.map;
         // top-level problems (a missing key) point at the start of the file
         map.insert(String::new(), (1, 1));
-        Ok(Locations { map })
+        Ok(Locations { map, keys: builder.keys })
     }
 
     /// Position of `path`, or of its nearest ancestor that has one.
@@ -45,14 +63,20 @@ impl Locations {
 }
 
 enum Frame {
-    Map { path: String, key: Option<String> },
-    Seq { path: String, index: usize },
+    Map { path: String, pattern: String, key: Option<String> },
+    Seq { path: String, pattern: String, index: usize },
 }
 
 #[derive(Default)]
 struct Builder {
     stack: Vec<Frame>,
     map: HashMap<String, (usize, usize)>,
+    keys: Vec<KeySite>,
+}
+
+/// Pattern of a mapping's child: names under `materials` become `*`.
+fn child_pattern(parent: &str, key: &str) -> String {
+    if parent == "materials" { "materials.*".to_string() } else { join(parent, key) }
 }
 
 fn join(parent: &str, key: &str) -> String {
@@ -60,15 +84,18 @@ fn join(parent: &str, key: &str) -> String {
 }
 
 impl Builder {
-    /// Path of the value about to start, recording sequence items.
-    fn value_path(&mut self, mark: Marker) -> String {
+    /// Path and pattern of the value about to start, recording sequence items.
+    fn value_path(&mut self, mark: Marker) -> (String, String) {
         match self.stack.last_mut() {
-            None => String::new(),
-            Some(Frame::Map { path, key }) => join(path, key.as_deref().unwrap_or("?")),
-            Some(Frame::Seq { path, index }) => {
+            None => (String::new(), String::new()),
+            Some(Frame::Map { path, pattern, key }) => {
+                let k = key.as_deref().unwrap_or("?");
+                (join(path, k), child_pattern(pattern, k))
+            }
+            Some(Frame::Seq { path, pattern, index }) => {
                 let p = format!("{path}[{index}]");
                 self.map.entry(p.clone()).or_insert((mark.line(), mark.col() + 1));
-                p
+                (p, format!("{pattern}[]"))
             }
         }
     }
@@ -91,9 +118,16 @@ impl MarkedEventReceiver for Builder {
     fn on_event(&mut self, ev: Event, mark: Marker) {
         match ev {
             Event::Scalar(value, ..) if self.expecting_key() => {
-                if let Some(Frame::Map { path, key }) = self.stack.last_mut() {
+                if let Some(Frame::Map { path, pattern, key }) = self.stack.last_mut() {
                     let p = join(path, &value);
                     self.map.entry(p).or_insert((mark.line(), mark.col() + 1));
+                    self.keys.push(KeySite {
+                        parent: path.clone(),
+                        pattern: pattern.clone(),
+                        key: value.clone(),
+                        line: mark.line(),
+                        column: mark.col() + 1,
+                    });
                     *key = Some(value);
                 }
             }
@@ -108,11 +142,11 @@ impl MarkedEventReceiver for Builder {
                 {
                     *key = Some("?".into());
                 }
-                let path = self.value_path(mark);
+                let (path, pattern) = self.value_path(mark);
                 self.stack.push(if matches!(ev, Event::MappingStart(..)) {
-                    Frame::Map { path, key: None }
+                    Frame::Map { path, pattern, key: None }
                 } else {
-                    Frame::Seq { path, index: 0 }
+                    Frame::Seq { path, pattern, index: 0 }
                 });
             }
             Event::MappingEnd | Event::SequenceEnd => {

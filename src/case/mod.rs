@@ -16,6 +16,7 @@ use std::fmt;
 
 /// One problem in a case file.
 #[derive(Debug, Clone, PartialEq, Eq)]
+#[non_exhaustive]
 pub struct Diagnostic {
     /// Key path, e.g. `parts[2].shape.circle.radius` (empty for the whole file).
     pub key: String,
@@ -71,6 +72,10 @@ pub fn parse(text: &str, file: &str) -> Result<Case, CaseError> {
             message: format!("YAML syntax error: {message}"),
         }])
     })?;
+    let unknown = unknown_keys(&locations);
+    if !unknown.is_empty() {
+        return Err(fail(unknown));
+    }
     let de = serde_yaml::Deserializer::from_str(text);
     let parsed: schema::CaseFile = serde_path_to_error::deserialize(de).map_err(|e| {
         let key = e.path().to_string();
@@ -97,6 +102,38 @@ pub fn parse(text: &str, file: &str) -> Result<Case, CaseError> {
         Some(c) if diagnostics.is_empty() => Ok(c),
         _ => Err(fail(diagnostics)),
     }
+}
+
+/// Every key the case format does not know, with the nearest known key.
+fn unknown_keys(locations: &Locations) -> Vec<Diagnostic> {
+    locations
+        .keys
+        .iter()
+        .filter_map(|k| {
+            let (_, known) = schema::KNOWN_KEYS.iter().find(|(p, _)| *p == k.pattern)?;
+            if known.contains(&k.key.as_str()) {
+                return None;
+            }
+            let nearest = known
+                .iter()
+                .map(|c| (strsim::damerau_levenshtein(&k.key, c), *c))
+                .filter(|(d, c)| *d <= 1.max(c.len() / 3) && *d < c.len())
+                .min()
+                .map(|(_, c)| format!("did you mean `{c}`? "))
+                .unwrap_or_default();
+            let key = if k.parent.is_empty() { k.key.clone() } else { format!("{}.{}", k.parent, k.key) };
+            Some(Diagnostic {
+                key,
+                line: Some(k.line),
+                column: Some(k.column),
+                message: format!(
+                    "unknown key `{}`; {nearest}expected one of {}",
+                    k.key,
+                    known.iter().map(|c| format!("`{c}`")).collect::<Vec<_>>().join(", ")
+                ),
+            })
+        })
+        .collect()
 }
 
 /// serde_yaml appends " at line L column C"; the position is shown in front.

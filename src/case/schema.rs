@@ -261,3 +261,39 @@ pub struct LimitsFile {
     /// Required ratio of strength to peak field.
     pub safety_factor: Option<f64>,
 }
+
+/// The keys each mapping of the case format accepts, by path pattern
+/// (sequence items `[]`, names under `materials` `*`). Used to report every
+/// unknown key at once with a suggestion; `tests` checks it against the
+/// serde definitions above.
+pub const KNOWN_KEYS: &[(&str, &[&str])] = &[
+    (
+        "",
+        &[
+            "title",
+            "geometry",
+            "units",
+            "domain",
+            "background",
+            "grid",
+            "materials",
+            "stack",
+            "parts",
+            "probes",
+            "limits",
+        ],
+    ),
+    ("domain", &["x", "y"]),
+    ("grid", &["max_step", "min_step", "cells_across", "growth", "refine", "boxes"]),
+    ("grid.boxes[]", &["x", "y", "max_step"]),
+    ("materials.*", &["base", "class", "permittivity", "strength_kv_per_mm", "loss_tangent", "source"]),
+    ("stack", &["form", "voltage_kv", "width", "inner_radius", "length", "layers"]),
+    ("stack.layers[]", &["name", "material", "thickness"]),
+    ("parts[]", &["name", "material", "electrode", "shape"]),
+    ("parts[].electrode", &["potential_kv"]),
+    ("parts[].shape", &["rect", "circle", "polygon"]),
+    ("parts[].shape.rect", &["x", "y", "radius"]),
+    ("parts[].shape.circle", &["center", "radius"]),
+    ("probes[]", &["name", "at"]),
+    ("limits", &["safety_factor"]),
+];
