@@ -113,6 +113,13 @@ pub enum FindingKind {
     MeshUnbracketed,
     /// The coarser grids could not be solved; no peak could be checked.
     MeshCheckFailed,
+    /// A user value lies outside the range published for its base material.
+    ValueOutOfRange {
+        /// Material name.
+        material: String,
+        /// What is out of range.
+        detail: crate::materials::OutOfRange,
+    },
 }
 
 impl FindingKind {
@@ -132,6 +139,7 @@ impl FindingKind {
             FindingKind::MeshSensitive { .. } => "mesh-sensitive",
             FindingKind::MeshUnbracketed => "mesh-check-unbracketed",
             FindingKind::MeshCheckFailed => "mesh-check-failed",
+            FindingKind::ValueOutOfRange { .. } => "value-out-of-range",
         }
     }
 
@@ -283,7 +291,16 @@ pub fn assess(case: &Case, layout: &Layout, fields: &Fields, check: Option<&Mesh
             .filter(|p| layout.regions[p.region].material == id)
             .map(|p| layout.regions[p.region].name.clone())
             .collect();
-        if m.generic && !users.is_empty() {
+        if users.is_empty() {
+            continue;
+        }
+        for detail in &m.out_of_range {
+            findings.push(Finding {
+                kind: FindingKind::ValueOutOfRange { material: m.name.clone(), detail: detail.clone() },
+                part: None,
+            });
+        }
+        if m.generic {
             findings.push(Finding {
                 kind: FindingKind::GenericMaterial { material: m.name.clone(), parts: users },
                 part: None,

@@ -46,6 +46,10 @@ pub struct LibraryEntry {
     pub loss_tangent: Option<f64>,
     /// Where the values come from.
     pub source: &'static str,
+    /// Range of relative permittivity published for this kind of material.
+    pub permittivity_range: (f64, f64),
+    /// Range of short-term strength in kV/mm published for it.
+    pub strength_range: Option<(f64, f64)>,
 }
 
 const FROM_MEMORY: &str = "typical value, from memory — verify with the datasheet";
@@ -61,6 +65,8 @@ pub const LIBRARY: &[LibraryEntry] = &[
         source: "strength ≈3 kV/mm for centimetre gaps at 1 bar and 20 °C (Glossary of Meteorology, \
                  American Meteorological Society, 'electrical breakdown'); short gaps withstand more \
                  (Paschen); permittivity from memory",
+        permittivity_range: (1.0, 1.001),
+        strength_range: Some((2.5, 10.0)),
     },
     LibraryEntry {
         name: "nitrogen",
@@ -69,6 +75,8 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_kv_per_mm: Some(3.3),
         loss_tangent: Some(0.0),
         source: "about 1.0–1.15 × air at 1 bar; typical value, from memory — verify",
+        permittivity_range: (1.0, 1.001),
+        strength_range: Some((2.5, 10.0)),
     },
     LibraryEntry {
         name: "sf6",
@@ -78,6 +86,8 @@ pub const LIBRARY: &[LibraryEntry] = &[
         loss_tangent: Some(0.0),
         source: "critical E/p ≈ 8.9 kV/(mm·bar), here at 1 bar absolute; scale with pressure; \
                  typical value, from memory — verify",
+        permittivity_range: (1.0, 1.003),
+        strength_range: Some((5.0, 30.0)),
     },
     LibraryEntry {
         name: "mineral-oil",
@@ -88,6 +98,8 @@ pub const LIBRARY: &[LibraryEntry] = &[
         source: "IEC 60156 2.5 mm test cell: new treated oil > 70 kV (28 kV/mm), below 30 kV \
                  (12 kV/mm) it needs treatment; the conservative 12 kV/mm is used because large \
                  oil volumes withstand less than the test cell; permittivity from memory",
+        permittivity_range: (2.1, 2.3),
+        strength_range: Some((5.0, 30.0)),
     },
     LibraryEntry {
         name: "natural-ester",
@@ -98,6 +110,8 @@ pub const LIBRARY: &[LibraryEntry] = &[
         source: "breakdown voltage similar to mineral oil in the same test cell (Jing et al., IEEE \
                  Trans. Dielectr. Electr. Insul., 2014); taken equal to mineral-oil; permittivity \
                  from memory",
+        permittivity_range: (3.0, 3.4),
+        strength_range: Some((5.0, 30.0)),
     },
     LibraryEntry {
         name: "oil-impregnated-paper",
@@ -106,6 +120,8 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_kv_per_mm: Some(40.0),
         loss_tangent: Some(0.003),
         source: FROM_MEMORY,
+        permittivity_range: (3.0, 4.0),
+        strength_range: Some((20.0, 80.0)),
     },
     LibraryEntry {
         name: "pressboard",
@@ -115,6 +131,8 @@ pub const LIBRARY: &[LibraryEntry] = &[
         loss_tangent: Some(0.005),
         source: "oil-impregnated pressboard, 1–2 mm; typical value, from memory — verify with the \
                  datasheet",
+        permittivity_range: (3.5, 4.8),
+        strength_range: Some((20.0, 60.0)),
     },
     LibraryEntry {
         name: "polyethylene",
@@ -123,6 +141,8 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_kv_per_mm: Some(40.0),
         loss_tangent: Some(0.0002),
         source: FROM_MEMORY,
+        permittivity_range: (2.2, 2.4),
+        strength_range: Some((20.0, 100.0)),
     },
     LibraryEntry {
         name: "xlpe",
@@ -132,6 +152,8 @@ pub const LIBRARY: &[LibraryEntry] = &[
         loss_tangent: Some(0.0003),
         source: "cable-scale short-term strength 30–50 kV/mm, lower end taken; typical value, from \
                  memory — verify with the datasheet",
+        permittivity_range: (2.2, 2.5),
+        strength_range: Some((20.0, 100.0)),
     },
     LibraryEntry {
         name: "epr",
@@ -140,6 +162,8 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_kv_per_mm: Some(25.0),
         loss_tangent: Some(0.005),
         source: FROM_MEMORY,
+        permittivity_range: (2.5, 3.6),
+        strength_range: Some((15.0, 50.0)),
     },
     LibraryEntry {
         name: "silicone-rubber",
@@ -148,6 +172,8 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_kv_per_mm: Some(20.0),
         loss_tangent: Some(0.003),
         source: "1–2 mm sheet; typical value, from memory — verify with the datasheet",
+        permittivity_range: (2.7, 4.6),
+        strength_range: Some((10.0, 35.0)),
     },
     LibraryEntry {
         name: "epoxy",
@@ -156,6 +182,8 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_kv_per_mm: Some(20.0),
         loss_tangent: Some(0.01),
         source: "unfilled cast epoxy, 1–2 mm; typical value, from memory — verify with the datasheet",
+        permittivity_range: (3.3, 4.2),
+        strength_range: Some((10.0, 45.0)),
     },
     LibraryEntry {
         name: "filled-epoxy",
@@ -165,6 +193,8 @@ pub const LIBRARY: &[LibraryEntry] = &[
         loss_tangent: Some(0.01),
         source: "silica-filled cast epoxy, 2–3 mm; typical value, from memory — verify with the \
                  datasheet",
+        permittivity_range: (3.5, 6.5),
+        strength_range: Some((10.0, 35.0)),
     },
     LibraryEntry {
         name: "ptfe",
@@ -173,6 +203,8 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_kv_per_mm: Some(25.0),
         loss_tangent: Some(0.0002),
         source: FROM_MEMORY,
+        permittivity_range: (2.0, 2.2),
+        strength_range: Some((15.0, 200.0)),
     },
     LibraryEntry {
         name: "polyimide",
@@ -182,6 +214,8 @@ pub const LIBRARY: &[LibraryEntry] = &[
         loss_tangent: Some(0.002),
         source: "film about 25 µm thick (ASTM D149 short-time method); falls with thickness; \
                  typical value, from memory — verify with the datasheet",
+        permittivity_range: (3.0, 3.6),
+        strength_range: Some((50.0, 300.0)),
     },
     LibraryEntry {
         name: "mica",
@@ -190,6 +224,8 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_kv_per_mm: Some(100.0),
         loss_tangent: Some(0.0002),
         source: "thin muscovite splittings; typical value, from memory — verify",
+        permittivity_range: (5.0, 8.0),
+        strength_range: Some((30.0, 200.0)),
     },
     LibraryEntry {
         name: "porcelain",
@@ -198,6 +234,8 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_kv_per_mm: Some(18.0),
         loss_tangent: Some(0.015),
         source: FROM_MEMORY,
+        permittivity_range: (5.0, 7.5),
+        strength_range: Some((10.0, 30.0)),
     },
     LibraryEntry {
         name: "alumina",
@@ -206,6 +244,8 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_kv_per_mm: Some(15.0),
         loss_tangent: Some(0.0003),
         source: "1–3 mm; typical value, from memory — verify with the datasheet",
+        permittivity_range: (8.5, 10.5),
+        strength_range: Some((8.0, 35.0)),
     },
     LibraryEntry {
         name: "glass",
@@ -215,6 +255,8 @@ pub const LIBRARY: &[LibraryEntry] = &[
         loss_tangent: Some(0.005),
         source: "borosilicate; 10–40 kV/mm, strongly dependent on thickness and temperature; \
                  typical value, from memory — verify",
+        permittivity_range: (4.0, 8.0),
+        strength_range: Some((5.0, 50.0)),
     },
     LibraryEntry {
         name: "water",
@@ -224,12 +266,36 @@ pub const LIBRARY: &[LibraryEntry] = &[
         loss_tangent: None,
         source: "εr 80.10 at 20 °C (Malmberg & Maryott, J. Res. NBS 56, 1956); conducting at power \
                  frequency, not an insulator",
+        permittivity_range: (55.0, 88.0),
+        strength_range: None,
     },
 ];
 
 /// Looks a name up in the built-in library.
 pub fn library_entry(name: &str) -> Option<&'static LibraryEntry> {
     LIBRARY.iter().find(|e| e.name == name)
+}
+
+/// Which value of a material is meant.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Quantity {
+    /// Relative permittivity.
+    Permittivity,
+    /// Short-term breakdown strength.
+    Strength,
+}
+
+/// A user value outside the range published for the material it is based on.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OutOfRange {
+    /// Which value.
+    pub quantity: Quantity,
+    /// The value (εr, or V/m for strength).
+    pub value: f64,
+    /// The published range (εr, or V/m).
+    pub range: (f64, f64),
+    /// The library material it was compared with.
+    pub base: String,
 }
 
 /// A material as the solver and the assessment see it (SI units).
@@ -249,6 +315,8 @@ pub struct Material {
     pub source: String,
     /// True when every value is a generic library value, not a datasheet's.
     pub generic: bool,
+    /// User values outside the range published for the base material.
+    pub out_of_range: Vec<OutOfRange>,
 }
 
 impl Material {
@@ -262,6 +330,7 @@ impl Material {
             loss_tangent: entry.loss_tangent,
             source: entry.source.to_string(),
             generic: true,
+            out_of_range: Vec::new(),
         }
     }
 

@@ -243,3 +243,22 @@ stack:
     assert!(r.findings.iter().any(|f| f.code == "coarse-grid" && f.part.as_deref() == Some("film")));
     assert_eq!(r.verdict, VerdictOut::Review);
 }
+
+/// A user value outside the range published for its base material is a
+/// warning, so the case cannot pass however large its margins (issue
+/// contract for hardening); unfilled epoxy εr 3.3–4.2 (the project's
+/// reference sheet, from memory).
+#[test]
+fn a_value_outside_its_published_range_never_passes() {
+    let r = run("
+title: odd resin
+materials:
+  odd-resin: { base: epoxy, permittivity: 6.5, source: supplier sheet }
+stack:
+  form: planar
+  voltage_kv: 1
+  layers: [ { material: odd-resin, thickness: 2 } ]
+");
+    assert!(r.findings.iter().any(|f| f.code == "value-out-of-range"));
+    assert_eq!(r.verdict, VerdictOut::Review);
+}

@@ -5,7 +5,7 @@ use super::Diagnostic;
 use super::locate::Locations;
 use super::model::*;
 use super::schema::*;
-use crate::materials::{self, Material, MaterialClass};
+use crate::materials::{self, Material, MaterialClass, OutOfRange, Quantity};
 use crate::shape::{Rect, Shape};
 use crate::units;
 use std::collections::{BTreeMap, BTreeSet};
@@ -180,6 +180,28 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
         Some(ClassFile::Solid) => MaterialClass::Solid,
         None => base.map_or(MaterialClass::Solid, |b| b.class),
     };
+    let mut out_of_range = Vec::new();
+    if let Some(b) = base {
+        let (lo, hi) = b.permittivity_range;
+        if f.permittivity.is_some() && !(lo..=hi).contains(&permittivity) {
+            out_of_range.push(OutOfRange {
+                quantity: Quantity::Permittivity,
+                value: permittivity,
+                range: (lo, hi),
+                base: b.name.to_string(),
+            });
+        }
+        if let (Some(s), Some((lo, hi))) = (f.strength_kv_per_mm, b.strength_range) {
+            if !(lo..=hi).contains(&s) {
+                out_of_range.push(OutOfRange {
+                    quantity: Quantity::Strength,
+                    value: units::kv_per_mm(s),
+                    range: (units::kv_per_mm(lo), units::kv_per_mm(hi)),
+                    base: b.name.to_string(),
+                });
+            }
+        }
+    }
     ok.then(|| Material {
         name: name.to_string(),
         class,
@@ -188,6 +210,7 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
         loss_tangent,
         source,
         generic: !own_values,
+        out_of_range,
     })
 }
 

@@ -13,7 +13,7 @@ use crate::assess::{Assessment, FindingKind, Severity, Verdict};
 use crate::case::{Case, ElectrodeKind, Geometry, Normalisation};
 use crate::fields::Fields;
 use crate::grid::{Grid, Layout};
-use crate::materials::LIBRARY;
+use crate::materials::{LIBRARY, Quantity as Value};
 use crate::meshcheck::MeshCheck;
 use crate::solve::SolveReport;
 use crate::units::{to_kv, to_kv_per_mm, to_mm, to_nc, to_pf};
@@ -152,6 +152,25 @@ pub fn message(kind: &FindingKind) -> String {
             "the part has no cells on a coarser grid, so its peak field could not be checked for grid dependence; \
              refine the grid (grid.max_step, grid.cells_across) so that it is resolved on grids four times coarser."
                 .to_string()
+        }
+        FindingKind::ValueOutOfRange { material, detail } => {
+            let (what, value, lo, hi) = match detail.quantity {
+                Value::Permittivity => ("relative permittivity", detail.value, detail.range.0, detail.range.1),
+                Value::Strength => (
+                    "strength (kV/mm)",
+                    to_kv_per_mm(detail.value),
+                    to_kv_per_mm(detail.range.0),
+                    to_kv_per_mm(detail.range.1),
+                ),
+            };
+            format!(
+                "{material}: {what} {} is outside the range published for {} ({} to {}); check the value and the \
+                 conditions it was measured under before relying on this result.",
+                g3(value),
+                detail.base,
+                g3(lo),
+                g3(hi)
+            )
         }
         FindingKind::MeshCheckFailed => {
             "the coarser grids of the mesh self-check could not be solved, so no peak field was checked for grid \
