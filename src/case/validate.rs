@@ -191,15 +191,15 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
                 base: b.name.to_string(),
             });
         }
-        if let (Some(s), Some((lo, hi))) = (f.strength_kv_per_mm, b.strength_range) {
-            if !(lo..=hi).contains(&s) {
-                out_of_range.push(OutOfRange {
-                    quantity: Quantity::Strength,
-                    value: units::kv_per_mm(s),
-                    range: (units::kv_per_mm(lo), units::kv_per_mm(hi)),
-                    base: b.name.to_string(),
-                });
-            }
+        if let (Some(s), Some((lo, hi))) = (f.strength_kv_per_mm, b.strength_range)
+            && !(lo..=hi).contains(&s)
+        {
+            out_of_range.push(OutOfRange {
+                quantity: Quantity::Strength,
+                value: units::kv_per_mm(s),
+                range: (units::kv_per_mm(lo), units::kv_per_mm(hi)),
+                base: b.name.to_string(),
+            });
         }
     }
     ok.then(|| Material {
