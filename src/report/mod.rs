@@ -306,6 +306,8 @@ pub fn materials() -> Vec<MaterialOut> {
             strength_kv_per_mm: e.strength_kv_per_mm,
             loss_tangent: e.loss_tangent,
             source: e.source,
+            permittivity_range: [e.permittivity_range.0, e.permittivity_range.1],
+            strength_range_kv_per_mm: e.strength_range.map(|r| [r.0, r.1]),
         })
         .collect()
 }

@@ -228,4 +228,8 @@ pub struct MaterialOut {
     pub loss_tangent: Option<f64>,
     /// Source of the values.
     pub source: &'static str,
+    /// Range of relative permittivity published for this kind of material.
+    pub permittivity_range: [f64; 2],
+    /// Range of strength published for it.
+    pub strength_range_kv_per_mm: Option<[f64; 2]>,
 }

@@ -220,7 +220,8 @@ pub fn render_materials(list: &[MaterialOut]) -> String {
             ]
         })
         .collect();
-    let _ = writeln!(o, "{}", table(&["material", "class", "εr", "strength kV/mm", "tan δ"], rows, &[2, 3, 4]));
+    let head = ["material", "class", "εr", "εr range", "strength kV/mm", "range", "tan δ"];
+    let _ = writeln!(o, "{}", table(&head, rows, &[2, 3, 4, 5, 6]));
     let _ = writeln!(o, "\nsources");
     for m in list {
         wrap(&mut o, &format!("  {:<22}", m.name), m.source);
