@@ -215,7 +215,9 @@ pub fn render_materials(list: &[MaterialOut]) -> String {
                 m.name.to_string(),
                 m.class.to_string(),
                 sig4(m.permittivity),
+                format!("{}–{}", m.permittivity_range[0], m.permittivity_range[1]),
                 opt(m.strength_kv_per_mm),
+                m.strength_range_kv_per_mm.map_or_else(|| "—".to_string(), |r| format!("{}–{}", r[0], r[1])),
                 opt(m.loss_tangent),
             ]
         })
