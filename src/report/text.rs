@@ -232,7 +232,7 @@ pub fn render_materials(list: &[MaterialOut]) -> String {
     wrap(
         &mut o,
         "",
-        "Typical screening values at power frequency and about 20 °C, not design values: use the datasheet of the material you buy, at your thickness, temperature and waveform.",
+        "Typical screening values at power frequency and about 20 °C, not design values: use the datasheet of the material you buy, at your thickness, temperature and waveform. The ranges are what is published for each kind of material (from memory, to be verified); a user value outside them is flagged.",
     );
     o
 }
