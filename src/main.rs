@@ -4,7 +4,7 @@
 
 use clap::{Parser, Subcommand, ValueEnum};
 use std::io::Write;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 use std::time::Instant;
 
@@ -35,15 +35,29 @@ enum Command {
     /// (strength / peak field) and verdict, the electrodes' potentials and
     /// charges, capacitance, energy, findings and a caution. Lengths in the
     /// case are mm, potentials kV; fields are reported in kV/mm.
+    ///
+    /// Give one case file for its full report, or several files and folders
+    /// (searched recursively for *.yaml and *.yml) for a batch: one summary
+    /// line per case and the worst exit status over all of them.
     Check {
-        /// The case file (YAML).
-        case: PathBuf,
-        /// Output format.
+        /// Case files (YAML) or folders of them.
+        #[arg(required = true)]
+        paths: Vec<PathBuf>,
+        /// Output format (a batch prints its summary rows as a JSON array).
         #[arg(long, value_enum, default_value = "text")]
         format: Format,
         /// Refuse grids above this many nodes (exit 2) instead of running out of time or memory.
         #[arg(long, default_value_t = hvstack::DEFAULT_MAX_NODES)]
         max_nodes: usize,
+        /// Cases checked at once in a batch (each solve also uses every core).
+        #[arg(long, default_value_t = 1, value_parser = clap::value_parser!(u16).range(1..=256))]
+        jobs: u16,
+        /// Write a JUnit-style XML report of the batch to this file (one test per case).
+        #[arg(long)]
+        junit: Option<PathBuf>,
+        /// No progress bar.
+        #[arg(long)]
+        quiet: bool,
     },
     /// List the built-in materials with their typical values and sources.
     Materials {
@@ -73,7 +87,9 @@ fn json<T: serde::Serialize>(value: &T) -> String {
     s
 }
 
-fn check(path: &PathBuf, format: Format, max_nodes: usize) -> Result<(String, bool), String> {
+/// Reads, evaluates and reports one case; errors come back as the message
+/// to print (exit status 2).
+fn run_case(path: &Path, max_nodes: usize) -> Result<hvstack::report::CheckReport, String> {
     let file = path.display().to_string();
     let text = std::fs::read_to_string(path).map_err(|e| format!("{file}: cannot read the case: {e}"))?;
     let mut options = hvstack::Options::default();
@@ -83,28 +99,122 @@ fn check(path: &PathBuf, format: Format, max_nodes: usize) -> Result<(String, bo
     let started = Instant::now();
     let solution = prepared.solve(&options.solve).map_err(|e| e.to_string())?;
     let seconds = started.elapsed().as_secs_f64();
-    let report = prepared.report(&solution, &options, seconds);
-    let pass = report.verdict == hvstack::report::VerdictOut::Pass;
-    let text = match format {
-        Format::Text => hvstack::report::render_text(&report),
-        Format::Json => json(&report),
+    Ok(prepared.report(&solution, &options, seconds))
+}
+
+/// The case files of a batch: files as given, folders searched recursively
+/// for *.yaml and *.yml, sorted.
+fn collect(paths: &[PathBuf]) -> Result<Vec<PathBuf>, String> {
+    let mut files = Vec::new();
+    for p in paths {
+        if p.is_dir() {
+            let mut found: Vec<PathBuf> = walkdir::WalkDir::new(p)
+                .into_iter()
+                .filter_map(Result::ok)
+                .filter(|e| e.file_type().is_file())
+                .map(|e| e.into_path())
+                .filter(|f| matches!(f.extension().and_then(|e| e.to_str()), Some("yaml" | "yml")))
+                .collect();
+            if found.is_empty() {
+                return Err(format!("{}: no case files (*.yaml, *.yml) in this folder", p.display()));
+            }
+            found.sort();
+            files.extend(found);
+        } else {
+            files.push(p.clone());
+        }
+    }
+    Ok(files)
+}
+
+/// Writes a file atomically: a temporary file beside it, then a rename, so
+/// an interrupted run leaves any previous file intact.
+fn write_atomically(path: &Path, contents: &str) -> Result<(), String> {
+    let dir = path.parent().filter(|d| !d.as_os_str().is_empty()).unwrap_or(Path::new("."));
+    let mut tmp = tempfile::NamedTempFile::new_in(dir).map_err(|e| format!("{}: cannot write: {e}", path.display()))?;
+    tmp.write_all(contents.as_bytes()).map_err(|e| format!("{}: cannot write: {e}", path.display()))?;
+    tmp.persist(path).map_err(|e| format!("{}: cannot write: {}", path.display(), e.error))?;
+    Ok(())
+}
+
+struct BatchOptions {
+    format: Format,
+    max_nodes: usize,
+    jobs: u16,
+    junit: Option<PathBuf>,
+    quiet: bool,
+}
+
+fn batch(paths: &[PathBuf], o: &BatchOptions) -> ExitCode {
+    use hvstack::report::summary;
+    use rayon::prelude::*;
+    let files = match collect(paths) {
+        Ok(f) => f,
+        Err(e) => {
+            eprintln!("{e}");
+            return ExitCode::from(2);
+        }
     };
-    Ok((text, pass))
+    let bar = if o.quiet { indicatif::ProgressBar::hidden() } else { indicatif::ProgressBar::new(files.len() as u64) };
+    let pool = match rayon::ThreadPoolBuilder::new().num_threads(o.jobs as usize).build() {
+        Ok(p) => p,
+        Err(e) => {
+            eprintln!("hvstack: cannot start {} jobs: {e}", o.jobs);
+            return ExitCode::from(2);
+        }
+    };
+    // Cases run in parallel; results come back in file order.
+    let rows: Vec<summary::SummaryRow> = pool.install(|| {
+        files
+            .par_iter()
+            .map(|f| {
+                let name = f.display().to_string();
+                let row = match run_case(f, o.max_nodes) {
+                    Ok(r) => summary::row(&name, &r),
+                    Err(e) => summary::error_row(&name, &e),
+                };
+                bar.inc(1);
+                row
+            })
+            .collect()
+    });
+    bar.finish_and_clear();
+    if let Some(path) = &o.junit {
+        if let Err(e) = write_atomically(path, &summary::junit_xml(&rows)) {
+            eprintln!("{e}");
+            return ExitCode::from(2);
+        }
+    }
+    let code = emit(&match o.format {
+        Format::Text => summary::render_summary(&rows),
+        Format::Json => json(&rows),
+    });
+    if code != ExitCode::SUCCESS { code } else { ExitCode::from(summary::exit_status(&rows)) }
 }
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
     match cli.command {
-        Command::Check { case, format, max_nodes } => match check(&case, format, max_nodes) {
-            Ok((text, pass)) => {
-                let code = emit(&text);
-                if code != ExitCode::SUCCESS || pass { code } else { ExitCode::from(1) }
+        Command::Check { paths, format, max_nodes, jobs, junit, quiet } => {
+            let single = paths.len() == 1 && !paths[0].is_dir() && junit.is_none();
+            if !single {
+                return batch(&paths, &BatchOptions { format, max_nodes, jobs, junit, quiet });
             }
-            Err(message) => {
-                eprintln!("{message}");
-                ExitCode::from(2)
+            match run_case(&paths[0], max_nodes) {
+                Ok(report) => {
+                    let pass = report.verdict == hvstack::report::VerdictOut::Pass;
+                    let code = emit(&match format {
+                        Format::Text => hvstack::report::render_text(&report),
+                        Format::Json => json(&report),
+                    });
+                    if code != ExitCode::SUCCESS || pass { code } else { ExitCode::from(1) }
+                }
+                Err(message) => {
+                    eprintln!("{message}");
+                    ExitCode::from(2)
+                }
             }
-        },
+        }
         Command::Materials { format } => {
             let list = hvstack::report::materials();
             emit(&match format {

@@ -162,3 +162,43 @@ limits: { safety_factor: 2 }
     let r = hvstack::case::parse(every_key, "all.yaml");
     assert!(r.is_ok(), "{:?}", r.err());
 }
+
+/// A folder is a batch: one summary row per case, the worst exit status
+/// (the demo folder holds failing cases: 1), a JUnit XML that parses with
+/// one test per case, and the same rows whatever `--jobs` says.
+#[test]
+fn a_folder_is_checked_as_a_batch() {
+    let dir = std::env::temp_dir().join(format!("hvstack-batch-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let junit = dir.join("results.xml");
+    let out = hvstack(&["check", "cases", "--format", "json", "--quiet", "--junit", junit.to_str().unwrap()]);
+    assert_eq!(out.status.code(), Some(1), "{}", stderr(&out));
+    let rows: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let n = rows.as_array().unwrap().len();
+    assert!(n >= 5);
+    let xml = std::fs::read_to_string(&junit).unwrap();
+    let mut reader = quick_xml::Reader::from_str(&xml);
+    let (mut cases, mut failures) = (0, 0);
+    loop {
+        match reader.read_event().expect("well-formed XML") {
+            quick_xml::events::Event::Start(e) | quick_xml::events::Event::Empty(e) => match e.name().as_ref() {
+                "testcase" => cases += 1,
+                "failure" | "error" => failures += 1,
+                _ => {}
+            },
+            quick_xml::events::Event::Eof => break,
+            _ => {}
+        }
+    }
+    assert_eq!(cases, n);
+    assert_eq!(failures, rows.as_array().unwrap().iter().filter(|r| r["exit_status"] != 0).count());
+    let two = hvstack(&["check", "cases", "--format", "json", "--quiet", "--jobs", "2"]);
+    assert_eq!(two.stdout, out.stdout, "same rows with --jobs 2");
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+#[test]
+fn batch_summary_table() {
+    let out = hvstack(&["check", "cases", "--quiet"]);
+    insta::assert_snapshot!("batch_summary", String::from_utf8_lossy(&out.stdout));
+}

@@ -4,6 +4,7 @@
 //! every number it shows was computed by `fields` or `assess`.
 
 mod model;
+pub mod summary;
 mod text;
 
 pub use model::*;

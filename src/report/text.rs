@@ -35,7 +35,7 @@ fn verdict_word(v: VerdictOut) -> &'static str {
     }
 }
 
-fn table(header: &[&str], rows: Vec<Vec<String>>, right: &[usize]) -> String {
+pub(crate) fn table(header: &[&str], rows: Vec<Vec<String>>, right: &[usize]) -> String {
     let mut t = Table::new();
     t.load_style(NOTHING).set_header(header.to_vec());
     for r in rows {

@@ -1,0 +1,169 @@
+//! Batch results: one summary row per case, a table for people and a
+//! JUnit-style XML for CI systems.
+
+use super::{CheckReport, VerdictOut};
+use quick_xml::Writer;
+use quick_xml::events::{BytesDecl, BytesEnd, BytesStart, BytesText, Event};
+use serde::Serialize;
+
+/// One case of a batch.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SummaryRow {
+    /// Case file as given.
+    pub file: String,
+    /// `pass`, `review`, `fail`, or `error` (not evaluated).
+    pub verdict: &'static str,
+    /// Exit status the case alone would give.
+    pub exit_status: u8,
+    /// The part with the smallest margin (or the highest field).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub worst_part: Option<String>,
+    /// Its peak field.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub e_max_kv_per_mm: Option<f64>,
+    /// Its margin.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub margin: Option<f64>,
+    /// Codes of the warning and fail findings.
+    pub findings: Vec<&'static str>,
+    /// Why the case could not be evaluated.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub error: Option<String>,
+}
+
+/// The summary row of an evaluated case.
+pub fn row(file: &str, r: &CheckReport) -> SummaryRow {
+    let worst = r.parts.iter().min_by(|a, b| {
+        let key = |p: &super::PartOut| p.margin.unwrap_or(f64::INFINITY);
+        key(a).total_cmp(&key(b)).then(b.e_max_kv_per_mm.total_cmp(&a.e_max_kv_per_mm))
+    });
+    let (verdict, exit_status) = match r.verdict {
+        VerdictOut::Pass => ("pass", 0),
+        VerdictOut::Review => ("review", 1),
+        VerdictOut::Fail => ("fail", 1),
+    };
+    SummaryRow {
+        file: file.to_string(),
+        verdict,
+        exit_status,
+        worst_part: worst.map(|p| p.name.clone()),
+        e_max_kv_per_mm: worst.map(|p| p.e_max_kv_per_mm),
+        margin: worst.and_then(|p| p.margin),
+        findings: {
+            let mut codes: Vec<&'static str> = Vec::new();
+            for f in r.findings.iter().filter(|f| f.severity != super::SeverityOut::Info) {
+                if !codes.contains(&f.code) {
+                    codes.push(f.code);
+                }
+            }
+            codes
+        },
+        error: None,
+    }
+}
+
+/// The summary row of a case that could not be evaluated.
+pub fn error_row(file: &str, message: &str) -> SummaryRow {
+    SummaryRow {
+        file: file.to_string(),
+        verdict: "error",
+        exit_status: 2,
+        worst_part: None,
+        e_max_kv_per_mm: None,
+        margin: None,
+        findings: Vec::new(),
+        error: Some(message.to_string()),
+    }
+}
+
+/// The batch's exit status: the worst of its cases.
+pub fn exit_status(rows: &[SummaryRow]) -> u8 {
+    rows.iter().map(|r| r.exit_status).max().unwrap_or(0)
+}
+
+/// The summary table.
+pub fn render_summary(rows: &[SummaryRow]) -> String {
+    use super::text::{sig4, table};
+    let body = rows
+        .iter()
+        .map(|r| {
+            vec![
+                r.file.clone(),
+                r.verdict.to_string(),
+                r.worst_part.clone().unwrap_or_else(|| "—".into()),
+                r.e_max_kv_per_mm.map_or_else(|| "—".into(), sig4),
+                r.margin.map_or_else(|| "—".into(), sig4),
+                match &r.error {
+                    Some(e) => e.lines().next().unwrap_or_default().to_string(),
+                    None => r.findings.join(", "),
+                },
+            ]
+        })
+        .collect();
+    let counts = |v: &str| rows.iter().filter(|r| r.verdict == v).count();
+    format!(
+        "{}\n\n{} cases: {} pass, {} review, {} fail, {} not evaluated\n",
+        table(&["case", "verdict", "worst part", "E max kV/mm", "margin", "findings / error"], body, &[3, 4]),
+        rows.len(),
+        counts("pass"),
+        counts("review"),
+        counts("fail"),
+        counts("error")
+    )
+}
+
+/// A JUnit-style XML report, one test per case: review and fail are
+/// failures, cases that could not be evaluated are errors.
+pub fn junit_xml(rows: &[SummaryRow]) -> String {
+    let mut w = Writer::new_with_indent(Vec::new(), b' ', 2);
+    let failures = rows.iter().filter(|r| r.exit_status == 1).count();
+    let errors = rows.iter().filter(|r| r.exit_status == 2).count();
+    let (tests, failures, errors) = (rows.len().to_string(), failures.to_string(), errors.to_string());
+    // Writing into a Vec cannot fail.
+    let _ = w.write_event(Event::Decl(BytesDecl::new("1.0", Some("UTF-8"), None)));
+    let mut suites = BytesStart::new("testsuites");
+    suites.push_attribute(("name", "hvstack"));
+    let _ = w.write_event(Event::Start(suites));
+    let mut suite = BytesStart::new("testsuite");
+    suite.push_attribute(("name", "hvstack check"));
+    suite.push_attribute(("tests", tests.as_str()));
+    suite.push_attribute(("failures", failures.as_str()));
+    suite.push_attribute(("errors", errors.as_str()));
+    let _ = w.write_event(Event::Start(suite));
+    for r in rows {
+        let mut case = BytesStart::new("testcase");
+        case.push_attribute(("name", r.file.as_str()));
+        case.push_attribute(("classname", "hvstack.check"));
+        if r.exit_status == 0 {
+            let _ = w.write_event(Event::Empty(case));
+            continue;
+        }
+        let _ = w.write_event(Event::Start(case));
+        let (tag, message) = match &r.error {
+            Some(e) => ("error", e.clone()),
+            None => (
+                "failure",
+                format!(
+                    "verdict {}: worst part {} (E max {} kV/mm, margin {}); findings: {}",
+                    r.verdict,
+                    r.worst_part.as_deref().unwrap_or("—"),
+                    r.e_max_kv_per_mm.map_or_else(|| "—".into(), super::text::sig4),
+                    r.margin.map_or_else(|| "—".into(), super::text::sig4),
+                    r.findings.join(", ")
+                ),
+            ),
+        };
+        let mut el = BytesStart::new(tag);
+        el.push_attribute(("message", message.lines().next().unwrap_or_default()));
+        el.push_attribute(("type", r.verdict));
+        let _ = w.write_event(Event::Start(el));
+        let _ = w.write_event(Event::Text(BytesText::new(&message)));
+        let _ = w.write_event(Event::End(BytesEnd::new(tag)));
+        let _ = w.write_event(Event::End(BytesEnd::new("testcase")));
+    }
+    let _ = w.write_event(Event::End(BytesEnd::new("testsuite")));
+    let _ = w.write_event(Event::End(BytesEnd::new("testsuites")));
+    let mut s = String::from_utf8(w.into_inner()).unwrap_or_default();
+    s.push('\n');
+    s
+}
