@@ -179,11 +179,11 @@ fn batch(paths: &[PathBuf], o: &BatchOptions) -> ExitCode {
             .collect()
     });
     bar.finish_and_clear();
-    if let Some(path) = &o.junit {
-        if let Err(e) = write_atomically(path, &summary::junit_xml(&rows)) {
-            eprintln!("{e}");
-            return ExitCode::from(2);
-        }
+    if let Some(path) = &o.junit
+        && let Err(e) = write_atomically(path, &summary::junit_xml(&rows))
+    {
+        eprintln!("{e}");
+        return ExitCode::from(2);
     }
     let code = emit(&match o.format {
         Format::Text => summary::render_summary(&rows),
