@@ -59,6 +59,20 @@ enum Command {
         #[arg(long)]
         quiet: bool,
     },
+    /// Show what changed between two results of a case, part by part.
+    ///
+    /// Each side is a result JSON (from `check --format json`) or a case
+    /// file, which is checked first. Prints each part's peak field, margin
+    /// and verdict before and after, and the case verdict.
+    Diff {
+        /// The earlier result or case.
+        old: PathBuf,
+        /// The later result or case.
+        new: PathBuf,
+        /// Output format.
+        #[arg(long, value_enum, default_value = "text")]
+        format: Format,
+    },
     /// List the built-in materials with their typical values and sources.
     Materials {
         /// Output format.
@@ -100,6 +114,17 @@ fn run_case(path: &Path, max_nodes: usize) -> Result<hvstack::report::CheckRepor
     let solution = prepared.solve(&options.solve).map_err(|e| e.to_string())?;
     let seconds = started.elapsed().as_secs_f64();
     Ok(prepared.report(&solution, &options, seconds))
+}
+
+/// A result as JSON: read from a .json file, or computed from a case file.
+fn result_value(path: &Path) -> Result<serde_json::Value, String> {
+    if path.extension().and_then(|e| e.to_str()) == Some("json") {
+        let text = std::fs::read_to_string(path).map_err(|e| format!("{}: cannot read: {e}", path.display()))?;
+        serde_json::from_str(&text).map_err(|e| format!("{}:{}: not a result JSON: {e}", path.display(), e.line()))
+    } else {
+        let report = run_case(path, hvstack::DEFAULT_MAX_NODES)?;
+        serde_json::to_value(&report).map_err(|e| format!("{}: {e}", path.display()))
+    }
 }
 
 /// The case files of a batch: files as given, folders searched recursively
@@ -215,6 +240,19 @@ fn main() -> ExitCode {
                 }
             }
         }
+        Command::Diff { old, new, format } => match (result_value(&old), result_value(&new)) {
+            (Ok(a), Ok(b)) => {
+                let d = hvstack::report::diff::diff(&a, &b);
+                emit(&match format {
+                    Format::Text => hvstack::report::diff::render_diff(&d),
+                    Format::Json => json(&d),
+                })
+            }
+            (Err(e), _) | (_, Err(e)) => {
+                eprintln!("{e}");
+                ExitCode::from(2)
+            }
+        },
         Command::Materials { format } => {
             let list = hvstack::report::materials();
             emit(&match format {

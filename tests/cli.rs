@@ -202,3 +202,25 @@ fn batch_summary_table() {
     let out = hvstack(&["check", "cases", "--quiet"]);
     insta::assert_snapshot!("batch_summary", String::from_utf8_lossy(&out.stdout));
 }
+
+/// `diff` shows each part's change; here the voltage rises 12 → 15 kV and the
+/// cushion thins, so every field rises by the same ratio (series layers,
+/// common practice) and the snapshot keeps the table's layout.
+#[test]
+fn diff_of_a_design_change() {
+    let dir = std::env::temp_dir().join(format!("hvstack-diff-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let text = std::fs::read_to_string("cases/planar-sheet.yaml").unwrap();
+    let changed = text.replace("voltage_kv: 12", "voltage_kv: 15").replace("thickness: 1.0 }", "thickness: 0.8 }");
+    let new = dir.join("sheet.yaml");
+    std::fs::write(&new, changed).unwrap();
+    let old_json = dir.join("old.json");
+    let out = hvstack(&["check", "cases/planar-sheet.yaml", "--format", "json"]);
+    std::fs::write(&old_json, &out.stdout).unwrap();
+    let d = hvstack(&["diff", old_json.to_str().unwrap(), new.to_str().unwrap()]);
+    assert_eq!(d.status.code(), Some(0), "{}", stderr(&d));
+    insta::assert_snapshot!("diff_planar_sheet", String::from_utf8_lossy(&d.stdout));
+    let bad = hvstack(&["diff", "no/such.json", new.to_str().unwrap()]);
+    assert_eq!(bad.status.code(), Some(2));
+    std::fs::remove_dir_all(&dir).unwrap();
+}

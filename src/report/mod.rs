@@ -3,6 +3,7 @@
 //! Invariant: this module converts units and words findings, nothing more;
 //! every number it shows was computed by `fields` or `assess`.
 
+pub mod diff;
 mod model;
 pub mod summary;
 mod text;
