@@ -73,6 +73,8 @@ enum Command {
         #[arg(long, value_enum, default_value = "text")]
         format: Format,
     },
+    /// Print the JSON Schema of the case format (for editor support).
+    Schema,
     /// List the built-in materials with their typical values and sources.
     Materials {
         /// Output format.
@@ -253,6 +255,7 @@ fn main() -> ExitCode {
                 ExitCode::from(2)
             }
         },
+        Command::Schema => emit(&hvstack::case::json_schema()),
         Command::Materials { format } => {
             let list = hvstack::report::materials();
             emit(&match format {

@@ -224,3 +224,17 @@ fn diff_of_a_design_change() {
     assert_eq!(bad.status.code(), Some(2));
     std::fs::remove_dir_all(&dir).unwrap();
 }
+
+/// The JSON Schema published in the repository is the one the types
+/// generate (regenerate with `hvstack schema > cases/case.schema.json`).
+#[test]
+fn published_schema_is_current() {
+    let out = hvstack(&["schema"]);
+    assert_eq!(out.status.code(), Some(0));
+    let published = std::fs::read_to_string("cases/case.schema.json").unwrap();
+    assert_eq!(String::from_utf8_lossy(&out.stdout), published, "regenerate cases/case.schema.json");
+    let v: serde_json::Value = serde_json::from_str(&published).unwrap();
+    for key in ["title", "geometry", "domain", "stack", "parts", "probes", "limits", "materials", "grid"] {
+        assert!(v["properties"][key].is_object(), "schema lacks {key}");
+    }
+}

@@ -60,6 +60,16 @@ impl fmt::Display for CaseError {
     }
 }
 
+/// The JSON Schema of the case format, generated from the same types the
+/// parser uses (for editors: a YAML language server can validate and
+/// complete case files with it).
+pub fn json_schema() -> String {
+    let schema = schemars::schema_for!(schema::CaseFile);
+    let mut s = serde_json::to_string_pretty(&schema).unwrap_or_default();
+    s.push('\n');
+    s
+}
+
 /// Parses and validates a case. `file` names the source in messages only;
 /// the library never opens it.
 pub fn parse(text: &str, file: &str) -> Result<Case, CaseError> {

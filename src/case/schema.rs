@@ -4,11 +4,12 @@
 //! validated beyond its type; `validate` turns it into the SI [`super::Case`].
 //! Unknown keys are rejected so a typo never silently falls back to a default.
 
+use schemars::JsonSchema;
 use serde::Deserialize;
 use std::collections::BTreeMap;
 
 /// The whole case file.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct CaseFile {
     /// Free text.
@@ -36,7 +37,7 @@ pub struct CaseFile {
 }
 
 /// `geometry:` values.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, JsonSchema)]
 #[serde(rename_all = "lowercase")]
 pub enum GeometryKind {
     /// x, y; results per metre of depth.
@@ -46,7 +47,7 @@ pub enum GeometryKind {
 }
 
 /// `domain:`
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct DomainFile {
     /// [x min, x max] in mm.
@@ -56,7 +57,7 @@ pub struct DomainFile {
 }
 
 /// `grid:`
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct GridFile {
     /// Largest step in mm.
@@ -75,7 +76,7 @@ pub struct GridFile {
 }
 
 /// One local refinement box, in mm.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct BoxFile {
     /// [x min, x max]
@@ -87,7 +88,7 @@ pub struct BoxFile {
 }
 
 /// One entry of `materials:`.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct MaterialFile {
     /// Built-in material to inherit from.
@@ -105,7 +106,7 @@ pub struct MaterialFile {
 }
 
 /// `class:` values.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, JsonSchema)]
 #[serde(rename_all = "lowercase")]
 pub enum ClassFile {
     /// A gas.
@@ -117,7 +118,7 @@ pub enum ClassFile {
 }
 
 /// `stack:`
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct StackFile {
     /// `planar` or `coaxial`.
@@ -135,7 +136,7 @@ pub struct StackFile {
 }
 
 /// `stack.form:` values.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, JsonSchema)]
 #[serde(rename_all = "lowercase")]
 pub enum StackForm {
     /// Layers stacked along y from y = 0.
@@ -145,7 +146,7 @@ pub enum StackForm {
 }
 
 /// One layer of a stack.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct LayerFile {
     /// Optional name; unnamed layers are "layer N".
@@ -157,7 +158,7 @@ pub struct LayerFile {
 }
 
 /// One entry of `parts:`.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct PartFile {
     /// Unique name.
@@ -177,6 +178,27 @@ pub enum ElectrodeFile {
     Floating,
     /// Fixed potential in kV.
     PotentialKv(f64),
+}
+
+impl JsonSchema for ElectrodeFile {
+    fn schema_name() -> std::borrow::Cow<'static, str> {
+        "Electrode".into()
+    }
+
+    fn json_schema(_: &mut schemars::SchemaGenerator) -> schemars::Schema {
+        schemars::json_schema!({
+            "description": "`floating` (unknown potential, zero net charge) or `{ potential_kv: V }` (fixed potential in kV)",
+            "oneOf": [
+                { "const": "floating" },
+                {
+                    "type": "object",
+                    "properties": { "potential_kv": { "type": "number" } },
+                    "required": ["potential_kv"],
+                    "additionalProperties": false
+                }
+            ]
+        })
+    }
 }
 
 impl<'de> Deserialize<'de> for ElectrodeFile {
@@ -211,7 +233,7 @@ impl<'de> Deserialize<'de> for ElectrodeFile {
 }
 
 /// `shape:` — exactly one of `rect`, `circle` or `polygon`.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct ShapeFile {
     /// `{ rect: { x: [a, b], y: [c, d] } }`
@@ -223,7 +245,7 @@ pub struct ShapeFile {
 }
 
 /// A rectangle in mm.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RectFile {
     /// [x min, x max]
@@ -235,7 +257,7 @@ pub struct RectFile {
 }
 
 /// A circle in mm.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct CircleFile {
     /// Centre [x, y].
@@ -245,7 +267,7 @@ pub struct CircleFile {
 }
 
 /// One entry of `probes:`.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct ProbeFile {
     /// Name shown in the report.
@@ -255,7 +277,7 @@ pub struct ProbeFile {
 }
 
 /// `limits:`
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct LimitsFile {
     /// Required ratio of strength to peak field.
