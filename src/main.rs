@@ -58,6 +58,10 @@ enum Command {
         /// No progress bar.
         #[arg(long)]
         quiet: bool,
+        /// Run only the I-th of N disjoint slices of the batch (I from 1 to N),
+        /// e.g. from a cluster job array's task index.
+        #[arg(long, value_parser = parse_shard)]
+        shard: Option<(usize, usize)>,
     },
     /// Show what changed between two results of a case, part by part.
     ///
@@ -81,6 +85,17 @@ enum Command {
         #[arg(long, value_enum, default_value = "text")]
         format: Format,
     },
+}
+
+/// Parses `I/N` with 1 ≤ I ≤ N.
+fn parse_shard(s: &str) -> Result<(usize, usize), String> {
+    let (i, n) = s.split_once('/').ok_or("expected I/N, e.g. 3/16")?;
+    let (i, n): (usize, usize) =
+        (i.trim().parse().map_err(|_| "I is not a number")?, n.trim().parse().map_err(|_| "N is not a number")?);
+    if n == 0 || i == 0 || i > n {
+        return Err(format!("need 1 ≤ I ≤ N, found {i}/{n}"));
+    }
+    Ok((i, n))
 }
 
 /// Prints to stdout; a closed pipe is not an error.
@@ -170,6 +185,7 @@ struct BatchOptions {
     jobs: u16,
     junit: Option<PathBuf>,
     quiet: bool,
+    shard: Option<(usize, usize)>,
 }
 
 fn batch(paths: &[PathBuf], o: &BatchOptions) -> ExitCode {
@@ -181,6 +197,12 @@ fn batch(paths: &[PathBuf], o: &BatchOptions) -> ExitCode {
             eprintln!("{e}");
             return ExitCode::from(2);
         }
+    };
+    // Slice I of N takes every N-th case from the sorted list: disjoint
+    // slices that together cover the batch, balanced by count.
+    let files: Vec<PathBuf> = match o.shard {
+        Some((i, n)) => files.into_iter().enumerate().filter(|(k, _)| k % n == i - 1).map(|(_, f)| f).collect(),
+        None => files,
     };
     let bar = if o.quiet { indicatif::ProgressBar::hidden() } else { indicatif::ProgressBar::new(files.len() as u64) };
     let pool = match rayon::ThreadPoolBuilder::new().num_threads(o.jobs as usize).build() {
@@ -222,10 +244,10 @@ fn batch(paths: &[PathBuf], o: &BatchOptions) -> ExitCode {
 fn main() -> ExitCode {
     let cli = Cli::parse();
     match cli.command {
-        Command::Check { paths, format, max_nodes, jobs, junit, quiet } => {
-            let single = paths.len() == 1 && !paths[0].is_dir() && junit.is_none();
+        Command::Check { paths, format, max_nodes, jobs, junit, quiet, shard } => {
+            let single = paths.len() == 1 && !paths[0].is_dir() && junit.is_none() && shard.is_none();
             if !single {
-                return batch(&paths, &BatchOptions { format, max_nodes, jobs, junit, quiet });
+                return batch(&paths, &BatchOptions { format, max_nodes, jobs, junit, quiet, shard });
             }
             match run_case(&paths[0], max_nodes) {
                 Ok(report) => {

@@ -238,3 +238,20 @@ fn published_schema_is_current() {
         assert!(v["properties"][key].is_object(), "schema lacks {key}");
     }
 }
+
+/// `--shard I/N` slices a batch into disjoint parts that cover it.
+#[test]
+fn shards_are_disjoint_and_cover_the_batch() {
+    let files = |args: &[&str]| -> Vec<String> {
+        let out = hvstack(args);
+        let rows: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+        rows.as_array().unwrap().iter().map(|r| r["file"].as_str().unwrap().to_string()).collect()
+    };
+    let all = files(&["check", "cases", "--quiet", "--format", "json"]);
+    let mut parts: Vec<String> = (1..=3)
+        .flat_map(|i| files(&["check", "cases", "--quiet", "--format", "json", "--shard", &format!("{i}/3")]))
+        .collect();
+    parts.sort();
+    assert_eq!(parts, all);
+    assert_eq!(hvstack(&["check", "cases", "--shard", "0/3"]).status.code(), Some(2));
+}
