@@ -1,6 +1,8 @@
 //! The multigrid-preconditioned solve: agreement with the simple
 //! preconditioner, iteration counts across sizes and contrasts, fallback.
 
+mod common;
+
 use hvstack::solve::{
     Amg, AmgOptions, Jacobi, Matrix, PreconditionerChoice, SolveOptions, SolverConfig, pcg, relative_residual, solve,
 };
@@ -52,21 +54,14 @@ fn agree(a: &serde_json::Value, b: &serde_json::Value, tol: f64, path: &str) {
 /// figure agrees to 1e-6 (solver tolerance; issue target: identical results).
 #[test]
 fn multigrid_and_jacobi_give_the_same_results_on_every_demo_case() {
-    let mut seen = 0;
-    for entry in std::fs::read_dir("cases").unwrap() {
-        let path = entry.unwrap().path();
-        if path.extension().and_then(|e| e.to_str()) != Some("yaml") {
-            continue;
-        }
+    for path in common::demo_cases() {
         let p = path.to_str().unwrap();
         let amg = report(p, PreconditionerChoice::Amg(AmgOptions::default()));
         let jac = report(p, PreconditionerChoice::Jacobi);
         assert!(amg["solve"]["method"].as_str().unwrap().starts_with("pcg+amg"), "{p}");
         assert!(jac["solve"]["method"].as_str().unwrap().starts_with("pcg+jacobi"), "{p}");
         agree(&amg, &jac, 1e-6, "");
-        seen += 1;
     }
-    assert!(seen >= 5);
 }
 
 fn square_case(n: usize, thin_film: bool) -> hvstack::Prepared {
@@ -123,19 +118,7 @@ fn multigrid_iterations_stay_flat() {
     assert!(counts.iter().all(|&c| c <= 30), "{counts:?}");
 }
 
-fn laplace_1d(n: usize) -> Matrix {
-    let mut t = TriMat::new((n, n));
-    for i in 0..n {
-        t.add_triplet(i, i, 2.0);
-        if i > 0 {
-            t.add_triplet(i, i - 1, -1.0);
-        }
-        if i + 1 < n {
-            t.add_triplet(i, i + 1, -1.0);
-        }
-    }
-    t.to_csr::<usize>().to_other_types()
-}
+use hvstack::solve::gallery::laplace_1d;
 
 /// A hierarchy that cannot coarsen (every coupling weak) falls back to
 /// Jacobi and says so; the answer still meets the tolerance.

@@ -16,6 +16,27 @@ pub use kernels::{dot, matvec, norm};
 
 use kernels::{inverse_diagonal, xpby};
 
+/// Standard test matrices (as pyamg's gallery): known, small, SPD.
+pub mod gallery {
+    use super::Matrix;
+
+    /// The 1D Laplacian tridiag(−1, 2, −1) of size n: symmetric positive
+    /// definite, condition number ≈ 4n²/π².
+    pub fn laplace_1d(n: usize) -> Matrix {
+        let mut t = sprs::TriMat::new((n, n));
+        for i in 0..n {
+            t.add_triplet(i, i, 2.0);
+            if i > 0 {
+                t.add_triplet(i, i - 1, -1.0);
+            }
+            if i + 1 < n {
+                t.add_triplet(i, i + 1, -1.0);
+            }
+        }
+        t.to_csr::<usize>().to_other_types()
+    }
+}
+
 /// Rows of a CSR matrix built by one parallel task: the length of each row,
 /// then all their columns and values in row order.
 #[derive(Debug, Clone, Default)]
@@ -338,19 +359,7 @@ mod tests {
     use super::*;
     use sprs::TriMat;
 
-    fn laplace_1d(n: usize) -> Matrix {
-        let mut t = TriMat::new((n, n));
-        for i in 0..n {
-            t.add_triplet(i, i, 2.0);
-            if i > 0 {
-                t.add_triplet(i, i - 1, -1.0);
-            }
-            if i + 1 < n {
-                t.add_triplet(i, i + 1, -1.0);
-            }
-        }
-        t.to_csr::<usize>().to_other_types()
-    }
+    use super::gallery::laplace_1d;
 
     #[test]
     fn solves_a_small_spd_system_to_tolerance() {
