@@ -315,10 +315,16 @@ pub fn compute(case: &Case, grid: &Grid, layout: &Layout, stencil: &Stencil, phi
             members[e as usize].push(NodeIx(n));
         }
     }
+    // An electrode whose nodes all belong to an earlier one at the same
+    // potential owns none: it keeps its potential and carries no charge.
     let mut electrodes: Vec<ElectrodeField> = members
         .iter()
-        .map(|nodes| ElectrodeField {
-            potential: phi[nodes[0].0],
+        .zip(&layout.electrodes)
+        .map(|(nodes, info)| ElectrodeField {
+            potential: nodes.first().map(|n| phi[n.0]).unwrap_or(match info.kind {
+                ElectrodeKind::Fixed { potential_v } => potential_v,
+                ElectrodeKind::Floating => 0.0,
+            }),
             charge: scale * stencil.outflux(grid, phi, nodes.iter().copied()),
         })
         .collect();

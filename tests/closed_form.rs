@@ -262,3 +262,22 @@ stack:
     assert!(r.findings.iter().any(|f| f.code == "value-out-of-range"));
     assert_eq!(r.verdict, VerdictOut::Review);
 }
+
+/// An electrode painted entirely over another at the same potential owns
+/// no nodes of its own: it is reported at its potential with no charge,
+/// and nothing fails (regression: this used to panic).
+#[test]
+fn an_electrode_covered_by_another_at_the_same_potential() {
+    let r = run("
+title: all metal
+geometry: planar
+domain: { x: [0, 10], y: [0, 10] }
+parts:
+  - { name: a, electrode: { potential_kv: 1 }, shape: { rect: { x: [0, 10], y: [0, 10] } } }
+  - { name: b, electrode: { potential_kv: 1 }, shape: { rect: { x: [0, 10], y: [0, 10] } } }
+");
+    let b = r.electrodes.iter().find(|e| e.name == "b").unwrap();
+    // the potential given in the case, exactly (common practice)
+    assert_eq!((b.potential_kv, b.charge.value), (1.0, 0.0));
+    assert_eq!(r.verdict, VerdictOut::Review);
+}
