@@ -52,6 +52,10 @@ use solve::{SolveError, SolveReport, SolverConfig};
 /// and within minutes on a 2-core machine with the current solver.
 pub const DEFAULT_MAX_NODES: usize = 2_000_000;
 
+/// Above this many nodes the mesh self-check uses grids 2 and 4 times
+/// coarser (√2 and 2 below).
+pub const LARGE_GRID_NODES: usize = 250_000;
+
 /// Solver tolerance of the mesh self-check's coarser grids.
 pub const SELF_CHECK_TOLERANCE: f64 = 1e-8;
 
@@ -160,12 +164,16 @@ impl Prepared {
     }
 
     /// The mesh self-check: the case solved again on grids √2 and 2 times
-    /// coarser, and each part's peak compared (see `meshcheck`).
+    /// coarser (2 and 4 above `LARGE_GRID_NODES`), and each part's peak
+    /// compared (see `meshcheck`).
     /// `None` when a coarser grid cannot be solved (then nothing is
     /// bracketed and the assessment says so).
     pub fn self_check(&self, fine: &fields::Fields, options: &Options) -> Option<meshcheck::MeshCheck> {
         let mut coarser = Vec::new();
-        for factor in [std::f64::consts::SQRT_2, 2.0] {
+        // Large grids resolve their features well even twice as coarse, and
+        // the check's cost matters there: ratios 2 and 4 instead of √2 and 2.
+        let factors = if self.grid.nodes() > LARGE_GRID_NODES { [2.0, 4.0] } else { [std::f64::consts::SQRT_2, 2.0] };
+        for factor in factors {
             let mut case = self.case.clone();
             case.grid = self.case.grid.coarsened(factor);
             for b in &mut case.refine_boxes {
