@@ -52,6 +52,15 @@ pub enum Shape {
     },
     /// Simple polygon given by its vertices in order.
     Polygon(Vec<[f64; 2]>),
+    /// Polygon whose corners are rounded: `points` is the outline with each
+    /// fillet arc sampled finely; `breaks` are the points where grid lines
+    /// belong (the tangent points of the arcs).
+    Filleted {
+        /// Outline, arcs sampled.
+        points: Vec<[f64; 2]>,
+        /// Tangent points.
+        breaks: Vec<[f64; 2]>,
+    },
     /// Axis-aligned rectangle with its four corners rounded to `radius`
     /// (at most half the shorter side).
     RoundedRect {
@@ -71,7 +80,7 @@ impl Shape {
                 Rect { x0: center[0] - radius, x1: center[0] + radius, y0: center[1] - radius, y1: center[1] + radius }
             }
             Shape::RoundedRect { rect, .. } => *rect,
-            Shape::Polygon(v) => v.iter().fold(
+            Shape::Polygon(v) | Shape::Filleted { points: v, .. } => v.iter().fold(
                 Rect { x0: f64::INFINITY, x1: f64::NEG_INFINITY, y0: f64::INFINITY, y1: f64::NEG_INFINITY },
                 |b, p| Rect { x0: b.x0.min(p[0]), x1: b.x1.max(p[0]), y0: b.y0.min(p[1]), y1: b.y1.max(p[1]) },
             ),
@@ -83,7 +92,7 @@ impl Shape {
         match self {
             Shape::Rect(r) => r.width() * r.height(),
             Shape::Circle { radius, .. } => std::f64::consts::PI * radius * radius,
-            Shape::Polygon(v) => polygon_signed_area(v).abs(),
+            Shape::Polygon(v) | Shape::Filleted { points: v, .. } => polygon_signed_area(v).abs(),
             Shape::RoundedRect { rect, radius } => {
                 rect.width() * rect.height() - (4.0 - std::f64::consts::PI) * radius * radius
             }
@@ -99,7 +108,9 @@ impl Shape {
                 vec![center[0] - radius, center[0], center[0] + radius],
                 vec![center[1] - radius, center[1], center[1] + radius],
             ),
-            Shape::Polygon(v) => (v.iter().map(|p| p[0]).collect(), v.iter().map(|p| p[1]).collect()),
+            Shape::Polygon(v) | Shape::Filleted { breaks: v, .. } => {
+                (v.iter().map(|p| p[0]).collect(), v.iter().map(|p| p[1]).collect())
+            }
             Shape::RoundedRect { rect: r, radius } => {
                 (vec![r.x0, r.x0 + radius, r.x1 - radius, r.x1], vec![r.y0, r.y0 + radius, r.y1 - radius, r.y1])
             }
@@ -122,7 +133,7 @@ impl Shape {
                 }
                 v
             }
-            Shape::Circle { .. } | Shape::RoundedRect { .. } => Vec::new(),
+            Shape::Circle { .. } | Shape::RoundedRect { .. } | Shape::Filleted { .. } => Vec::new(),
             Shape::Polygon(v) => {
                 let orientation = polygon_signed_area(v).signum();
                 (0..v.len())
@@ -173,7 +184,7 @@ impl Shape {
                 let n = [(p[0] - center[0]) / radius, (p[1] - center[1]) / radius];
                 Some((t, n))
             }
-            Shape::Polygon(v) => {
+            Shape::Polygon(v) | Shape::Filleted { points: v, .. } => {
                 let orientation = polygon_signed_area(v).signum();
                 polygon_edges(v)
                     .filter_map(|(p, q)| {
@@ -206,7 +217,7 @@ impl Shape {
                 let (dx, dy) = (p[0] - center[0], p[1] - center[1]);
                 (dx * dx + dy * dy).sqrt() <= radius + tol
             }
-            Shape::Polygon(v) => {
+            Shape::Polygon(v) | Shape::Filleted { points: v, .. } => {
                 point_in_polygon(v, p) || polygon_edges(v).any(|(a, b)| segment_distance(a, b, p) <= tol)
             }
             Shape::RoundedRect { .. } => self.signed_distance(p) <= tol,
@@ -250,6 +261,78 @@ impl Shape {
 
 fn polygon_edges(v: &[[f64; 2]]) -> impl Iterator<Item = ([f64; 2], [f64; 2])> + '_ {
     (0..v.len()).map(move |i| (v[i], v[(i + 1) % v.len()]))
+}
+
+/// Segments per quarter turn of a fillet arc.
+const ARC_SEGMENTS_PER_QUARTER: f64 = 24.0;
+
+/// Rounds every corner of a polygon with an arc of `radius` tangent to both
+/// edges. Errors name the corner whose edges are too short for the radius.
+pub fn fillet(v: &[[f64; 2]], radius: f64) -> Result<Shape, String> {
+    let n = v.len();
+    let mut points = Vec::new();
+    let mut breaks = Vec::new();
+    let mut used = vec![0.0; n]; // length taken from each edge (i → i+1)
+    let mut arcs = Vec::with_capacity(n);
+    for i in 0..n {
+        let (a, b, c) = (v[(i + n - 1) % n], v[i], v[(i + 1) % n]);
+        let (la, lc) = (dist(a, b), dist(c, b));
+        if la == 0.0 || lc == 0.0 {
+            return Err(format!("corner {} repeats a point", i + 1));
+        }
+        let u = [(a[0] - b[0]) / la, (a[1] - b[1]) / la];
+        let w = [(c[0] - b[0]) / lc, (c[1] - b[1]) / lc];
+        let cos = (u[0] * w[0] + u[1] * w[1]).clamp(-1.0, 1.0);
+        let theta = cos.acos();
+        if theta < 1e-9 || (std::f64::consts::PI - theta) < 1e-9 {
+            return Err(format!("corner {} is degenerate (its edges are collinear)", i + 1));
+        }
+        let t = radius / (0.5 * theta).tan();
+        used[(i + n - 1) % n] += t;
+        used[i] += t;
+        let t1 = [b[0] + u[0] * t, b[1] + u[1] * t];
+        let t2 = [b[0] + w[0] * t, b[1] + w[1] * t];
+        let bis = [u[0] + w[0], u[1] + w[1]];
+        let bl = (bis[0] * bis[0] + bis[1] * bis[1]).sqrt();
+        let h = radius / (0.5 * theta).sin();
+        let centre = [b[0] + bis[0] / bl * h, b[1] + bis[1] / bl * h];
+        arcs.push((t1, t2, centre));
+    }
+    for i in 0..n {
+        if used[i] > dist(v[i], v[(i + 1) % n]) * (1.0 + 1e-12) {
+            return Err(format!(
+                "the fillet radius is too large for the edge from corner {} to corner {}",
+                i + 1,
+                (i + 1) % n + 1
+            ));
+        }
+    }
+    for (t1, t2, c) in arcs {
+        let a1 = (t1[1] - c[1]).atan2(t1[0] - c[0]);
+        let mut a2 = (t2[1] - c[1]).atan2(t2[0] - c[0]);
+        // the short way round
+        let mut sweep = a2 - a1;
+        while sweep > std::f64::consts::PI {
+            sweep -= 2.0 * std::f64::consts::PI;
+        }
+        while sweep < -std::f64::consts::PI {
+            sweep += 2.0 * std::f64::consts::PI;
+        }
+        a2 = a1 + sweep;
+        let steps = ((sweep.abs() / std::f64::consts::FRAC_PI_2) * ARC_SEGMENTS_PER_QUARTER).ceil().max(1.0) as usize;
+        for k in 0..=steps {
+            let ang = a1 + (a2 - a1) * k as f64 / steps as f64;
+            points.push([c[0] + radius * ang.cos(), c[1] + radius * ang.sin()]);
+        }
+        breaks.push(t1);
+        breaks.push(t2);
+    }
+    points.dedup();
+    Ok(Shape::Filleted { points, breaks })
+}
+
+fn dist(a: [f64; 2], b: [f64; 2]) -> f64 {
+    ((a[0] - b[0]).powi(2) + (a[1] - b[1]).powi(2)).sqrt()
 }
 
 /// Shoelace formula.
@@ -311,6 +394,18 @@ mod tests {
         assert!((p - expect).abs() < 1e-9, "{p} vs {expect}");
         assert!((n[0] + 1.0 / 2f64.sqrt()).abs() < 1e-6 && (n[1] + 1.0 / 2f64.sqrt()).abs() < 1e-6);
         assert!(s.sharp_points().is_empty());
+    }
+
+    #[test]
+    fn filleted_square_has_the_rounded_area() {
+        // square of side 2 with corners of radius 0.5: 4 − (4 − π)·0.25, elementary geometry, common practice
+        let sq = [[0.0, 0.0], [2.0, 0.0], [2.0, 2.0], [0.0, 2.0]];
+        let s = fillet(&sq, 0.5).unwrap();
+        let exact = 4.0 - (4.0 - std::f64::consts::PI) * 0.25;
+        assert!((s.area() - exact).abs() < 1e-3, "{}", s.area());
+        assert!(s.sharp_points().is_empty());
+        assert!(!s.contains_closed([0.05, 0.05], 0.0) && s.contains_closed([1.0, 1.0], 0.0));
+        assert!(fillet(&sq, 1.5).is_err());
     }
 
     #[test]

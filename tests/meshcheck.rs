@@ -47,3 +47,34 @@ stack:
     assert!(r.findings.iter().all(|f| !f.code.starts_with("mesh") && f.code != "singular-peak"));
     assert_eq!(r.mesh_check.as_ref().map(|m| m.nodes.len()), Some(3));
 }
+
+/// Rounding the corners of the same bar (a polygon with `fillet`) gives a
+/// peak that converges: no singular-peak finding and a small error estimate
+/// (the advice the finding gives, followed).
+#[test]
+fn a_filleted_corner_converges() {
+    let bar = |shape: &str| {
+        run(&format!(
+            "
+title: bar over a plane
+geometry: planar
+domain: {{ x: [0, 40], y: [0, 30] }}
+parts:
+  - {{ name: ground, electrode: {{ potential_kv: 0 }}, shape: {{ rect: {{ x: [0, 40], y: [0, 0] }} }} }}
+  - {{ name: bar, electrode: {{ potential_kv: 10 }}, shape: {shape} }}
+"
+        ))
+    };
+    let sharp = bar("{ polygon: [[15, 10], [25, 10], [25, 16], [15, 16]] }");
+    assert!(sharp.findings.iter().any(|f| f.code == "singular-peak"));
+    let round = bar("{ polygon: [[15, 10], [25, 10], [25, 16], [15, 16]], fillet: 1.5 }");
+    assert!(
+        !round.findings.iter().any(|f| f.code == "singular-peak" || f.code == "mesh-sensitive"),
+        "{:?}",
+        round.findings
+    );
+    let p = &round.parts[0];
+    assert!(p.e_max_error_estimate_pct.unwrap() < 2.0);
+    // rounding lowers the peak: a finite radius instead of a corner (common practice)
+    assert!(p.e_max_kv_per_mm < sharp.parts[0].e_max_kv_per_mm);
+}

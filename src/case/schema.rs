@@ -242,6 +242,8 @@ pub struct ShapeFile {
     pub circle: Option<CircleFile>,
     /// `{ polygon: [[x, y], ...] }`
     pub polygon: Option<Vec<[f64; 2]>>,
+    /// With `polygon`: round every corner with this radius (mm).
+    pub fillet: Option<f64>,
 }
 
 /// A rectangle in mm.
@@ -313,7 +315,7 @@ pub const KNOWN_KEYS: &[(&str, &[&str])] = &[
     ("stack.layers[]", &["name", "material", "thickness"]),
     ("parts[]", &["name", "material", "electrode", "shape"]),
     ("parts[].electrode", &["potential_kv"]),
-    ("parts[].shape", &["rect", "circle", "polygon"]),
+    ("parts[].shape", &["rect", "circle", "polygon", "fillet"]),
     ("parts[].shape.rect", &["x", "y", "radius"]),
     ("parts[].shape.circle", &["center", "radius"]),
     ("probes[]", &["name", "at"]),

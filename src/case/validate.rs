@@ -215,6 +215,10 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
 }
 
 fn shape(ctx: &mut Ctx, key: &str, s: &ShapeFile) -> Option<Shape> {
+    if s.fillet.is_some() && s.polygon.is_none() {
+        ctx.err(&format!("{key}.fillet"), "`fillet` rounds the corners of a `polygon` (rectangles take `radius`)");
+        return None;
+    }
     match (&s.rect, &s.circle, &s.polygon) {
         (Some(r), None, None) => {
             let k = format!("{key}.rect");
@@ -254,12 +258,28 @@ fn shape(ctx: &mut Ctx, key: &str, s: &ShapeFile) -> Option<Shape> {
                 ctx.err(&k, format!("a polygon needs at least 3 vertices, found {}", v.len()));
                 return None;
             }
-            let poly = Shape::Polygon(v.iter().map(|p| p.map(units::mm)).collect());
+            let pts: Vec<[f64; 2]> = v.iter().map(|p| p.map(units::mm)).collect();
+            let poly = Shape::Polygon(pts.clone());
             if ok && poly.area() <= 0.0 {
                 ctx.err(&k, "polygon encloses no area");
                 return None;
             }
-            ok.then_some(poly)
+            match s.fillet {
+                None => ok.then_some(poly),
+                Some(r) => {
+                    let fk = format!("{key}.fillet");
+                    if !ctx.positive(&fk, r, "fillet radius") || !ok {
+                        return None;
+                    }
+                    match crate::shape::fillet(&pts, units::mm(r)) {
+                        Ok(shape) => Some(shape),
+                        Err(e) => {
+                            ctx.err(&fk, e);
+                            None
+                        }
+                    }
+                }
+            }
         }
         _ => {
             ctx.err(key, "give exactly one of `rect`, `circle` or `polygon`");
