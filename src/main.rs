@@ -12,6 +12,10 @@ use std::time::Instant;
 ///
 /// Exit status: 0 = pass, 1 = review or fail (the case was evaluated and
 /// something needs attention), 2 = the case could not be evaluated.
+///
+/// Results are screening estimates from typical material values: check every
+/// design against the applicable codes and have it reviewed by a licensed or
+/// otherwise qualified engineer (see SAFETY.md).
 #[derive(Parser)]
 #[command(name = "hvstack", version, about, long_about)]
 struct Cli {
