@@ -246,6 +246,12 @@ fn batch(paths: &[PathBuf], o: &BatchOptions) -> ExitCode {
 }
 
 fn main() -> ExitCode {
+    // Outputs are written whole at the end (stdout in one write, files by
+    // rename), so an interrupt loses nothing: say so and stop.
+    let _ = ctrlc::set_handler(|| {
+        eprintln!("hvstack: interrupted; nothing was written");
+        std::process::exit(130);
+    });
     let cli = Cli::parse();
     match cli.command {
         Command::Check { paths, format, max_nodes, jobs, junit, quiet, shard } => {
