@@ -124,3 +124,51 @@ proptest! {
         prop_assert!((foil_v - voltage * outside / sum).abs() < 1e-6 * voltage);
     }
 }
+
+fn mirror_case(blocks: &[(f64, f64, f64, f64, usize)], plate: (f64, f64), v: f64, mirrored: bool) -> String {
+    let m = |x: f64| if mirrored { 20.0 - x } else { x };
+    let span = |a: f64, b: f64| if mirrored { (m(b), m(a)) } else { (a, b) };
+    let mats = ["ptfe", "epoxy", "mica", "porcelain"];
+    let mut s = String::from("title: mirror\ngeometry: planar\ndomain: { x: [0, 20], y: [0, 10] }\nparts:\n");
+    for (i, &(x0, x1, y0, y1, k)) in blocks.iter().enumerate() {
+        let (a, b) = span(x0, x1);
+        s += &format!(
+            "  - {{ name: b{i}, material: {}, shape: {{ rect: {{ x: [{a}, {b}], y: [{y0}, {y1}] }} }} }}\n",
+            mats[k]
+        );
+    }
+    let (a, b) = span(plate.0, plate.1);
+    s += "  - { name: ground, electrode: { potential_kv: 0 }, shape: { rect: { x: [0, 20], y: [0, 0] } } }\n";
+    s += &format!(
+        "  - {{ name: plate, electrode: {{ potential_kv: {v} }}, shape: {{ rect: {{ x: [{a}, {b}], y: [10, 10] }} }} }}\n"
+    );
+    s
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 12, ..ProptestConfig::default() })]
+
+    /// Mirroring a case left–right mirrors its solution: every part's peak
+    /// and mean field and the capacitance stay the same (symmetry of
+    /// Laplace's equation, common practice).
+    #[test]
+    fn mirrored_cases_give_the_same_results(
+        blocks in prop::collection::vec((0.0f64..9.0, 11.0f64..20.0, 0.0f64..4.0, 5.0f64..10.0, 0usize..4), 1..3),
+        plate in (0.0f64..8.0, 12.0f64..20.0),
+        v in 1.0f64..30.0,
+    ) {
+        let round = |x: f64| (x * 100.0).round() / 100.0;
+        let blocks: Vec<_> = blocks.iter().map(|b| (round(b.0), round(b.1), round(b.2), round(b.3), b.4)).collect();
+        let plate = (round(plate.0), round(plate.1));
+        let a = hvstack::check(&mirror_case(&blocks, plate, v, false), "a.yaml", &hvstack::Options::default()).unwrap();
+        let b = hvstack::check(&mirror_case(&blocks, plate, v, true), "b.yaml", &hvstack::Options::default()).unwrap();
+        for (p, q) in a.parts.iter().zip(&b.parts) {
+            prop_assert_eq!(&p.name, &q.name);
+            let tol = 1e-6 * p.e_max_kv_per_mm.max(1e-12);
+            prop_assert!((p.e_max_kv_per_mm - q.e_max_kv_per_mm).abs() <= tol, "{}: {} vs {}", p.name, p.e_max_kv_per_mm, q.e_max_kv_per_mm);
+            prop_assert!((p.e_mean_kv_per_mm - q.e_mean_kv_per_mm).abs() <= 1e-6 * p.e_mean_kv_per_mm.max(1e-12));
+        }
+        let (ca, cb) = (a.capacitance.unwrap().value, b.capacitance.unwrap().value);
+        prop_assert!((ca - cb).abs() <= 1e-6 * ca);
+    }
+}
