@@ -82,7 +82,7 @@ pub enum Error {
     #[error("{0}")]
     Case(#[from] CaseError),
     /// The grid could not be built or painted.
-    #[error("{file}{}: {source}", .source.line().map(|l| format!(":{l}")).unwrap_or_default())]
+    #[error("{file}{}: {source}", .source.position())]
     Grid {
         /// Case file name.
         file: String,

@@ -172,3 +172,29 @@ proptest! {
         prop_assert!((ca - cb).abs() <= 1e-6 * ca);
     }
 }
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 24, ..ProptestConfig::default() })]
+
+    /// A solve cut short never yields a result: either the true residual met
+    /// the tolerance or the check is an error (exit 2), never a verdict
+    /// (issue contract).
+    #[test]
+    fn an_unconverged_solve_never_gives_a_verdict(
+        voltage in 0.1f64..100.0,
+        layers in prop::collection::vec((1.0f64..12.0, 0.02f64..5.0), 1..5),
+        iterations in 1usize..6,
+        multigrid in any::<bool>(),
+    ) {
+        use hvstack::solve::{AmgOptions, PreconditionerChoice, SolveOptions, SolverConfig};
+        let preconditioner = if multigrid { PreconditionerChoice::Amg(AmgOptions::default()) } else { PreconditionerChoice::Jacobi };
+        let opts = hvstack::Options {
+            solve: SolverConfig { options: SolveOptions { rel_tol: 1e-12, max_iterations: iterations }, preconditioner },
+            ..Default::default()
+        };
+        match hvstack::check(&stack_yaml(voltage, &layers), "u.yaml", &opts) {
+            Ok(r) => prop_assert!(r.solve.relative_residual <= 1e-12, "{}", r.solve.relative_residual),
+            Err(e) => prop_assert!(matches!(e, hvstack::Error::Solve { .. }), "{e}"),
+        }
+    }
+}

@@ -100,6 +100,8 @@ pub struct Part {
     pub key: String,
     /// Line in the case file, where known (for messages).
     pub line: Option<usize>,
+    /// Column in the case file, where known (for messages).
+    pub column: Option<usize>,
 }
 
 /// A probe point.

@@ -324,6 +324,7 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
         shape: Shape::Rect(r),
         key: "stack".to_string(),
         line: None,
+        column: None,
     };
     match s.form {
         StackForm::Planar => {
@@ -351,6 +352,7 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
                     role: Role::Dielectric(m),
                     shape: Shape::Rect(Rect { x0, x1: w, y0: y, y1: y + t }),
                     line: None,
+                    column: None,
                     key,
                 });
                 y += t;
@@ -387,6 +389,7 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
                     role: Role::Dielectric(m),
                     shape: Shape::Rect(Rect { x0: r, x1: r + t, y0: z0, y1: len }),
                     line: None,
+                    column: None,
                     key,
                 });
                 r += t;
@@ -629,8 +632,11 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
             ok = false;
             continue;
         }
-        let line = ctx.loc.find(&key).map(|l| l.0);
-        parts.push(Part { name: p.name.clone(), role, shape: sh, key, line });
+        let (line, column) = match ctx.loc.find(&key) {
+            Some((l, c)) => (Some(l), Some(c)),
+            None => (None, None),
+        };
+        parts.push(Part { name: p.name.clone(), role, shape: sh, key, line, column });
     }
 
     let electrodes: Vec<ElectrodeKind> = parts

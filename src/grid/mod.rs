@@ -62,6 +62,8 @@ pub enum GridError {
         key: String,
         /// Line of the later electrode, if known.
         line: Option<usize>,
+        /// Column of the later electrode, if known.
+        column: Option<usize>,
         /// Earlier electrode.
         a: String,
         /// Later electrode.
@@ -76,6 +78,8 @@ pub enum GridError {
         key: String,
         /// Line, if known.
         line: Option<usize>,
+        /// Column, if known.
+        column: Option<usize>,
         /// Part name.
         name: String,
     },
@@ -102,11 +106,17 @@ pub fn memory_estimate_gb(nodes: usize) -> String {
 }
 
 impl GridError {
-    /// Line of the part the error is about, where known.
-    pub fn line(&self) -> Option<usize> {
+    /// `:line:column` of the part the error is about, where known.
+    pub fn position(&self) -> String {
         match self {
-            GridError::TooLarge { .. } => None,
-            GridError::ElectrodesTouch { line, .. } | GridError::EmptyElectrode { line, .. } => *line,
+            GridError::TooLarge { .. } => String::new(),
+            GridError::ElectrodesTouch { line, column, .. } | GridError::EmptyElectrode { line, column, .. } => {
+                match (line, column) {
+                    (Some(l), Some(c)) => format!(":{l}:{c}"),
+                    (Some(l), None) => format!(":{l}"),
+                    _ => String::new(),
+                }
+            }
         }
     }
 }

@@ -248,6 +248,7 @@ impl Layout {
                             return Err(GridError::ElectrodesTouch {
                                 key: part.key.clone(),
                                 line: part.line,
+                                column: part.column,
                                 a: other.name.clone(),
                                 b: part.name.clone(),
                                 why,
@@ -258,6 +259,7 @@ impl Layout {
                         return Err(GridError::EmptyElectrode {
                             key: part.key.clone(),
                             line: part.line,
+                            column: part.column,
                             name: part.name.clone(),
                         });
                     }
