@@ -108,6 +108,17 @@ pub struct SolveOptions {
 /// under ten iterations.)
 pub const STALL_WINDOW: usize = 100;
 
+/// Work allowed to one solve, in stored matrix entries × iterations: about
+/// half a minute on a 2-core machine (measured: 1.3 ns per entry and
+/// Jacobi-CG iteration at a million unknowns). A solve that needs more is
+/// reported as not converged rather than left to run for hours.
+pub const WORK_LIMIT: f64 = 2e10;
+/// Cost of a multigrid-preconditioned iteration in matrix–vector products
+/// (DEVELOPERS.md, benchmarks: about 7).
+pub const AMG_ITERATION_COST: f64 = 7.0;
+/// Iterations always allowed, however large the matrix.
+pub const MIN_ITERATIONS: usize = 50;
+
 /// Restarts from the true residual allowed when the recursive residual has
 /// drifted below the tolerance but the true one has not; a tolerance below
 /// the rounding floor of the system ends in `NoConvergence` after these.
@@ -146,16 +157,24 @@ impl Default for SolverConfig {
 /// `SolveReport::method` says so; an unconverged answer is never returned.
 pub fn solve(a: &Matrix, b: &[f64], config: &SolverConfig) -> Result<(Vec<f64>, SolveReport), SolveError> {
     let opts = config.options;
+    // Bound the work so that a hopeless solve ends in seconds, not hours.
+    let capped = |cost_per_iteration: f64| SolveOptions {
+        max_iterations: opts
+            .max_iterations
+            .min(((WORK_LIMIT / (cost_per_iteration * a.nnz().max(1) as f64)) as usize).max(MIN_ITERATIONS)),
+        ..opts
+    };
+    let (jacobi_opts, amg_opts) = (capped(1.0), capped(AMG_ITERATION_COST));
     let fallback = |reason: String| {
-        let (x, mut rep) = pcg(a, b, &mut Jacobi::new(a), &opts, None)?;
+        let (x, mut rep) = pcg(a, b, &mut Jacobi::new(a), &jacobi_opts, None)?;
         rep.method = format!("pcg+jacobi (fallback: {reason})");
         Ok((x, rep))
     };
     match config.preconditioner {
-        PreconditionerChoice::Jacobi => pcg(a, b, &mut Jacobi::new(a), &opts, None),
+        PreconditionerChoice::Jacobi => pcg(a, b, &mut Jacobi::new(a), &jacobi_opts, None),
         PreconditionerChoice::Amg(ao) => match Amg::new(a, &ao) {
             Err(e) => fallback(format!("multigrid setup failed: {e}")),
-            Ok(mut amg) => match pcg(a, b, &mut amg, &opts, Some(STALL_WINDOW)) {
+            Ok(mut amg) => match pcg(a, b, &mut amg, &amg_opts, Some(STALL_WINDOW)) {
                 Ok((x, mut rep)) => {
                     rep.method = format!(
                         "pcg+amg ({} levels, operator complexity {:.2})",
