@@ -218,7 +218,7 @@ pub struct SolveReport {
 pub enum SolveError {
     /// The tolerance was not reached.
     #[error(
-        "the solver did not converge: relative residual {relative_residual:.2e} after {iterations} iterations (needed {rel_tol:.0e}); refine less or report this case"
+        "the solver did not converge: relative residual {relative_residual:.2e} after {iterations} iterations (needed {rel_tol:.0e}); model near-conductors (relative permittivity above about 1000) as floating electrodes, refine less, or report this case"
     )]
     NoConvergence {
         /// Iterations taken.
