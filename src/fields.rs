@@ -376,22 +376,13 @@ fn surface_fields(grid: &Grid, layout: &Layout, phi: &[f64]) -> Vec<(f64, [f64; 
         if n_axis < MIN_NORMAL_COMPONENT {
             continue;
         }
-        let electrode = layout.node_electrode[if axis == 0 {
+        // the electrode node beyond the outline holds the electrode's potential
+        let beyond = if axis == 0 {
             grid.node((ia as isize + dir) as usize, ja)
         } else {
             grid.node(ia, (ja as isize + dir) as usize)
-        }
-        .0];
-        let v = {
-            // any node of the electrode holds its potential
-            let n = if axis == 0 {
-                grid.node((ia as isize + dir) as usize, ja)
-            } else {
-                grid.node(ia, (ja as isize + dir) as usize)
-            };
-            debug_assert_eq!(layout.node_electrode[n.0], electrode);
-            phi[n.0]
         };
+        let v = phi[beyond.0];
         let len = if axis == 0 { nx } else { ny };
         // free nodes going away from the outline: distance from it and potential
         let node_at = |k: isize| -> Option<(f64, f64)> {

@@ -64,15 +64,7 @@ fn extensive_units(n: Normalisation) -> (&'static str, &'static str, &'static st
 
 /// Three significant digits for numbers inside sentences.
 fn g3(v: f64) -> String {
-    if v == 0.0 || !v.is_finite() {
-        return format!("{v}");
-    }
-    let mag = v.abs().log10().floor() as i32;
-    if !(-3..6).contains(&mag) {
-        return format!("{v:.2e}");
-    }
-    let decimals = (2 - mag).max(0) as usize;
-    format!("{v:.decimals$}")
+    text::significant(v, 3)
 }
 
 /// Words a finding: what it means and what to do next.

@@ -9,6 +9,12 @@ const WIDTH: usize = 100;
 /// Four significant digits, switching to exponent form for very large or
 /// small magnitudes.
 pub fn sig4(v: f64) -> String {
+    significant(v, 4)
+}
+
+/// `digits` significant digits, switching to exponent form below 1e-3 and
+/// from 1e6.
+pub(crate) fn significant(v: f64, digits: i32) -> String {
     if v == 0.0 {
         return "0".to_string();
     }
@@ -17,9 +23,10 @@ pub fn sig4(v: f64) -> String {
     }
     let mag = v.abs().log10().floor() as i32;
     if !(-3..6).contains(&mag) {
-        return format!("{v:.3e}");
+        let d = (digits - 1) as usize;
+        return format!("{v:.d$e}");
     }
-    let decimals = (3 - mag).max(0) as usize;
+    let decimals = (digits - 1 - mag).max(0) as usize;
     format!("{v:.decimals$}")
 }
 

@@ -422,17 +422,7 @@ fn power_estimate(a: &Matrix, inv_diag: &[f64], iterations: usize) -> f64 {
 /// Chebyshev smoothing of A·x = b in D⁻¹A over `[λ/ratio, 1.1·λ]`
 /// (Ifpack2's recurrence). `zero_start` treats x as zero on entry and saves
 /// one product.
-#[allow(clippy::too_many_arguments)]
-fn chebyshev(
-    lvl: &Level<'_>,
-    degree: usize,
-    ratio: f64,
-    b: &[f64],
-    x: &mut [f64],
-    r: &mut [f64],
-    d: &mut [f64],
-    zero_start: bool,
-) {
+fn chebyshev(lvl: &Level<'_>, degree: usize, ratio: f64, b: &[f64], x: &mut [f64], d: &mut [f64], zero_start: bool) {
     let upper = 1.1 * lvl.lambda_max;
     let lower = lvl.lambda_max / ratio;
     let theta = 0.5 * (upper + lower);
@@ -447,7 +437,6 @@ fn chebyshev(
         chebyshev_direction(&lvl.a, x, b, inv, 0.0, 1.0 / theta, d);
         super::kernels::axpy(1.0, d, x);
     }
-    let _ = r;
     let mut rho = 1.0 / s1;
     for _ in 1..degree {
         let rho_next = 1.0 / (2.0 * s1 - rho);
@@ -477,7 +466,7 @@ impl Preconditioner for Amg<'_> {
             let lvl = &self.levels[l];
             let b: &[f64] = if l == 0 { r_in } else { sb };
             let deg = if l == 0 { fine_deg } else { coarse_deg };
-            chebyshev(lvl, deg, ratio, b, x, r, d, true);
+            chebyshev(lvl, deg, ratio, b, x, d, true);
             residual(&lvl.a, x, b, r);
             matvec(&lvl.r, r, &mut hi[0].b);
         }
@@ -489,7 +478,7 @@ impl Preconditioner for Amg<'_> {
         // ascend
         for l in (0..nl).rev() {
             let (lo, hi) = self.scratch.split_at_mut(l + 1);
-            let Scratch { b: sb, x, r, d } = &mut lo[l];
+            let Scratch { b: sb, x, d, .. } = &mut lo[l];
             let lvl = &self.levels[l];
             let b: &[f64] = if l == 0 { r_in } else { sb };
             matvec_add(&lvl.p, &hi[0].x, x);
@@ -504,7 +493,7 @@ impl Preconditioner for Amg<'_> {
                     std::mem::swap(x, d);
                 }
             } else {
-                chebyshev(lvl, deg, ratio, b, x, r, d, false);
+                chebyshev(lvl, deg, ratio, b, x, d, false);
                 if l == 0 {
                     z.copy_from_slice(x);
                 }
