@@ -125,7 +125,7 @@ fn pcg_agrees_with_a_dense_direct_solve() {
         let (u, rep) = pcg(a, &prepared.system.rhs, &mut Jacobi::new(a), &TIGHT, None).unwrap();
         let scale = b.amax().max(1.0);
         let direct_res = (&b - &dense * &direct).amax() / scale;
-        // round-off of a dense factorisation: a few hundred ulps of the data
+        // round-off of a dense factorisation: a few hundred ulps of the data (common practice)
         assert!(direct_res < 1e-12, "dense residual {direct_res}");
         let diff = u.iter().zip(direct.iter()).map(|(p, q)| (p - q).abs()).fold(0.0, f64::max);
         let vmax = 12e3;
