@@ -78,6 +78,30 @@ pub struct ProbeField {
     pub part: String,
 }
 
+/// The field along one sampling line of the case.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LineField {
+    /// Samples in order from the start.
+    pub samples: Vec<LineSample>,
+}
+
+/// One sample of a line.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LineSample {
+    /// Distance from the line's start in m.
+    pub distance: f64,
+    /// Position in m.
+    pub at: [f64; 2],
+    /// Potential in V.
+    pub potential: f64,
+    /// Field components in V/m.
+    pub e: [f64; 2],
+    /// Name of the part the sample lies in.
+    pub part: String,
+    /// The sample lies inside an electrode.
+    pub in_electrode: bool,
+}
+
 /// Shortest distance between electrodes at different fixed potentials.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Gap {
@@ -102,9 +126,12 @@ pub struct Fields {
     pub probes: Vec<ProbeField>,
     /// Gap between electrodes at different potentials, if there are two.
     pub gap: Option<Gap>,
+    /// Per sampling line of the case (same order).
+    pub lines: Vec<LineField>,
 }
 
 /// Edge values of a nodal potential (see the module docs).
+#[derive(Debug, Clone)]
 struct EdgeValues {
     gx: Vec<f64>,
     gy: Vec<f64>,
@@ -130,6 +157,17 @@ fn edge_values(grid: &Grid, geometry: Geometry, phi: &[f64]) -> EdgeValues {
         }
     }
     EdgeValues { gx, gy }
+}
+
+/// Edge values with the drop across a curved electrode outline taken over
+/// θ·h, where the outline really lies.
+fn boundary_corrected_edges(grid: &Grid, layout: &Layout, geo: Geometry, phi: &[f64]) -> EdgeValues {
+    let mut ev = edge_values(grid, geo, phi);
+    for b in &layout.boundary_edges {
+        let v = if b.horizontal { &mut ev.gx[b.edge as usize] } else { &mut ev.gy[b.edge as usize] };
+        *v /= b.theta;
+    }
+    ev
 }
 
 /// Radial weight: E_x = G / weight(x).
@@ -185,12 +223,7 @@ fn extensive_scale(n: Normalisation) -> f64 {
 /// Computes every field result from the nodal potential `phi`.
 pub fn compute(case: &Case, grid: &Grid, layout: &Layout, stencil: &Stencil, phi: &[f64]) -> Fields {
     let geo = case.geometry;
-    let mut ev = edge_values(grid, geo, phi);
-    // Across a curved electrode outline the potential drop happens over θ·h.
-    for b in &layout.boundary_edges {
-        let v = if b.horizontal { &mut ev.gx[b.edge as usize] } else { &mut ev.gy[b.edge as usize] };
-        *v /= b.theta;
-    }
+    let ev = boundary_corrected_edges(grid, layout, geo, phi);
     let (nx, ny) = (grid.nx(), grid.ny());
     // Peaks are recovered from cells a single material fills: a cell cut by
     // a curved interface carries a blend of both sides' fields. Regions with
@@ -337,7 +370,9 @@ pub fn compute(case: &Case, grid: &Grid, layout: &Layout, stencil: &Stencil, phi
         }
     }
 
-    let probes = case.probes.iter().map(|p| probe(grid, layout, geo, phi, &ev, p.at)).collect();
+    let sampler = Sampler { grid, layout, geometry: geo, phi, ev };
+    let probes = case.probes.iter().map(|p| probe(&sampler, p.at)).collect();
+    let lines = case.lines.iter().map(|l| line_field(&sampler, l.from, l.to, l.points)).collect();
     Fields {
         regions,
         electrodes,
@@ -345,6 +380,7 @@ pub fn compute(case: &Case, grid: &Grid, layout: &Layout, stencil: &Stencil, phi
         energy_from_cells: scale * energy_cells,
         probes,
         gap: gap(grid, layout, &members),
+        lines,
     }
 }
 
@@ -451,25 +487,114 @@ fn near_any(grid: &Grid, at: [f64; 2], points: &[[f64; 2]]) -> bool {
     points.iter().any(|p| (p[0] - at[0]).abs() <= reach && (p[1] - at[1]).abs() <= reach)
 }
 
-fn probe(grid: &Grid, layout: &Layout, geo: Geometry, phi: &[f64], ev: &EdgeValues, at: [f64; 2]) -> ProbeField {
-    let c = grid.locate(at);
-    let (i, j) = grid.cell_ij(c);
-    let nx = grid.nx();
-    let s = ((at[0] - grid.x[i]) / (grid.x[i + 1] - grid.x[i])).clamp(0.0, 1.0);
-    let t = ((at[1] - grid.y[j]) / (grid.y[j + 1] - grid.y[j])).clamp(0.0, 1.0);
-    let [a, b, cc, d] = grid.cell_nodes(c).map(|n| phi[n.0]);
-    let potential = (1.0 - t) * ((1.0 - s) * a + s * b) + t * ((1.0 - s) * cc + s * d);
-    let g = (1.0 - t) * ev.gx[j * (nx - 1) + i] + t * ev.gx[(j + 1) * (nx - 1) + i];
-    let ex = weight(geo, at[0]).map_or(0.0, |w| g / w);
-    let ey = (1.0 - s) * ev.gy[j * nx + i] + s * ev.gy[j * nx + i + 1];
-    let r = layout.cell_region[c.0];
-    let part = if r == CONDUCTOR {
-        let e = layout.node_electrode[grid.cell_nodes(c)[0].0];
-        layout.electrodes[e as usize].name.clone()
-    } else {
-        layout.regions[r as usize].name.clone()
-    };
-    ProbeField { potential, e: (ex * ex + ey * ey).sqrt(), part }
+/// What lies at a sampled point.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Inside {
+    /// A dielectric region (index into the layout's regions).
+    Region(u32),
+    /// An electrode (index into the layout's electrodes).
+    Electrode(u32),
+}
+
+/// The field at one point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Sample {
+    /// Potential in V.
+    pub potential: f64,
+    /// Field components (E_x, E_y) or (E_r, E_z) in V/m.
+    pub e: [f64; 2],
+    /// What the point lies in (by the cell that holds it).
+    pub inside: Inside,
+}
+
+impl Sample {
+    /// |E| in V/m.
+    pub fn magnitude(&self) -> f64 {
+        self.e[0].hypot(self.e[1])
+    }
+}
+
+/// Evaluates potential and field anywhere in the domain: the potential
+/// bilinear in the cell that holds the point, each field component linear
+/// between the two cell edges along its direction (the edge values of the
+/// module docs, second order at edge midpoints). Built once per solution.
+#[derive(Debug, Clone)]
+pub struct Sampler<'a> {
+    grid: &'a Grid,
+    layout: &'a Layout,
+    geometry: Geometry,
+    phi: &'a [f64],
+    ev: EdgeValues,
+}
+
+impl<'a> Sampler<'a> {
+    /// Prepares the edge values of `phi`.
+    pub fn new(case: &Case, grid: &'a Grid, layout: &'a Layout, phi: &'a [f64]) -> Self {
+        Sampler {
+            grid,
+            layout,
+            geometry: case.geometry,
+            phi,
+            ev: boundary_corrected_edges(grid, layout, case.geometry, phi),
+        }
+    }
+
+    /// The field at `at` (m); points outside the domain are clamped to it.
+    pub fn at(&self, at: [f64; 2]) -> Sample {
+        let (grid, layout, phi, ev) = (self.grid, self.layout, self.phi, &self.ev);
+        let c = grid.locate(at);
+        let (i, j) = grid.cell_ij(c);
+        let nx = grid.nx();
+        let s = ((at[0] - grid.x[i]) / (grid.x[i + 1] - grid.x[i])).clamp(0.0, 1.0);
+        let t = ((at[1] - grid.y[j]) / (grid.y[j + 1] - grid.y[j])).clamp(0.0, 1.0);
+        let [a, b, cc, d] = grid.cell_nodes(c).map(|n| phi[n.0]);
+        let potential = (1.0 - t) * ((1.0 - s) * a + s * b) + t * ((1.0 - s) * cc + s * d);
+        let g = (1.0 - t) * ev.gx[j * (nx - 1) + i] + t * ev.gx[(j + 1) * (nx - 1) + i];
+        let ex = weight(self.geometry, at[0]).map_or(0.0, |w| g / w);
+        let ey = (1.0 - s) * ev.gy[j * nx + i] + s * ev.gy[j * nx + i + 1];
+        let r = layout.cell_region[c.0];
+        let inside = if r == CONDUCTOR {
+            Inside::Electrode(layout.node_electrode[grid.cell_nodes(c)[0].0])
+        } else {
+            Inside::Region(r)
+        };
+        Sample { potential, e: [ex, ey], inside }
+    }
+
+    /// Name of what a sample lies in.
+    pub fn name_of(&self, inside: Inside) -> &'a str {
+        match inside {
+            Inside::Region(r) => &self.layout.regions[r as usize].name,
+            Inside::Electrode(e) => &self.layout.electrodes[e as usize].name,
+        }
+    }
+}
+
+fn probe(sampler: &Sampler, at: [f64; 2]) -> ProbeField {
+    let s = sampler.at(at);
+    ProbeField { potential: s.potential, e: s.magnitude(), part: sampler.name_of(s.inside).to_string() }
+}
+
+/// The field along a straight line at `points` evenly spaced points, ends
+/// included.
+pub fn line_field(sampler: &Sampler, from: [f64; 2], to: [f64; 2], points: usize) -> LineField {
+    let length = (to[0] - from[0]).hypot(to[1] - from[1]);
+    let samples = (0..points)
+        .map(|k| {
+            let f = k as f64 / (points - 1).max(1) as f64;
+            let at = [from[0] + f * (to[0] - from[0]), from[1] + f * (to[1] - from[1])];
+            let s = sampler.at(at);
+            LineSample {
+                distance: f * length,
+                at,
+                potential: s.potential,
+                e: s.e,
+                part: sampler.name_of(s.inside).into(),
+                in_electrode: matches!(s.inside, Inside::Electrode(_)),
+            }
+        })
+        .collect();
+    LineField { samples }
 }
 
 /// Nodes of an electrode that have a neighbour outside it.

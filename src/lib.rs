@@ -34,11 +34,14 @@
 pub mod assemble;
 pub mod assess;
 pub mod case;
+pub mod export;
 pub mod fields;
 pub mod grid;
 pub mod materials;
 pub mod meshcheck;
+pub mod picture;
 pub mod report;
+pub mod review;
 pub mod shape;
 pub mod solve;
 pub mod units;

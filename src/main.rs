@@ -66,6 +66,12 @@ enum Command {
         /// e.g. from a cluster job array's task index.
         #[arg(long, value_parser = parse_shard)]
         shard: Option<(usize, usize)>,
+        /// Write a review folder: field maps (SVG, PNG), an HTML page, the JSON
+        /// result, line CSVs and a VTK file; a batch gets one subfolder per case
+        /// and an index page. The folder is replaced whole, and only if it is new,
+        /// empty or an earlier review folder.
+        #[arg(long, value_name = "DIR")]
+        report: Option<PathBuf>,
     },
     /// Show what changed between two results of a case, part by part.
     ///
@@ -122,9 +128,15 @@ fn json<T: serde::Serialize>(value: &T) -> String {
     s
 }
 
-/// Reads, evaluates and reports one case; errors come back as the message
-/// to print (exit status 2).
-fn run_case(path: &Path, max_nodes: usize) -> Result<hvstack::report::CheckReport, String> {
+type ReviewFiles = Vec<hvstack::review::ReviewFile>;
+
+/// Reads, evaluates and reports one case, with its review files when
+/// asked; errors come back as the message to print (exit status 2).
+fn run_case(
+    path: &Path,
+    max_nodes: usize,
+    review: bool,
+) -> Result<(hvstack::report::CheckReport, Option<ReviewFiles>), String> {
     let file = path.display().to_string();
     let text = std::fs::read_to_string(path).map_err(|e| format!("{file}: cannot read the case: {e}"))?;
     let mut options = hvstack::Options::default();
@@ -134,7 +146,89 @@ fn run_case(path: &Path, max_nodes: usize) -> Result<hvstack::report::CheckRepor
     let started = Instant::now();
     let solution = prepared.solve(&options.solve).map_err(|e| e.to_string())?;
     let seconds = started.elapsed().as_secs_f64();
-    Ok(prepared.report(&solution, &options, seconds))
+    let report = prepared.report(&solution, &options, seconds);
+    let files = if review {
+        Some(
+            hvstack::review::files(&prepared, &solution, &report, &file)
+                .map_err(|e| format!("{file}: cannot build the review files: {e}"))?,
+        )
+    } else {
+        None
+    };
+    Ok((report, files))
+}
+
+/// Marks a folder as an hvstack review folder, which `--report` may replace.
+const REVIEW_MARKER: &str = ".hvstack-review";
+
+/// A review folder built beside its destination and swapped in whole by
+/// `commit`, so an interrupted run leaves the previous review intact.
+struct Staging {
+    dir: tempfile::TempDir,
+    dest: PathBuf,
+}
+
+impl Staging {
+    fn new(dest: &Path) -> Result<Staging, String> {
+        let shown = dest.display();
+        if dest.exists() {
+            let entries =
+                std::fs::read_dir(dest).map_err(|e| format!("{shown}: cannot use as a review folder: {e}"))?;
+            let empty = entries.count() == 0;
+            if !empty && !dest.join(REVIEW_MARKER).is_file() {
+                return Err(format!(
+                    "{shown}: exists and is not an hvstack review folder; name a new or empty folder (it is replaced \
+                     whole on every run)"
+                ));
+            }
+        }
+        let parent = dest.parent().filter(|d| !d.as_os_str().is_empty()).unwrap_or(Path::new("."));
+        std::fs::create_dir_all(parent).map_err(|e| format!("{}: cannot create: {e}", parent.display()))?;
+        let dir = tempfile::Builder::new()
+            .prefix(".hvstack-review-")
+            .tempdir_in(parent)
+            .map_err(|e| format!("{}: cannot write: {e}", parent.display()))?;
+        Ok(Staging { dir, dest: dest.to_path_buf() })
+    }
+
+    /// Writes files into `sub` ("" for the top) of the staged folder.
+    fn write(&self, sub: &str, files: &[hvstack::review::ReviewFile]) -> Result<(), String> {
+        let dir = self.dir.path().join(sub);
+        std::fs::create_dir_all(&dir).map_err(|e| format!("{}: cannot create: {e}", self.dest.join(sub).display()))?;
+        for f in files {
+            std::fs::write(dir.join(&f.name), &f.bytes)
+                .map_err(|e| format!("{}: cannot write: {e}", self.dest.join(sub).join(&f.name).display()))?;
+        }
+        Ok(())
+    }
+
+    /// Swaps the staged folder in place of the destination.
+    fn commit(self) -> Result<(), String> {
+        let shown = self.dest.display().to_string();
+        let marker = "Written by hvstack check --report; the whole folder is replaced on every run.\n";
+        std::fs::write(self.dir.path().join(REVIEW_MARKER), marker).map_err(|e| format!("{shown}: {e}"))?;
+        let staged = self.dir.keep();
+        let old = if self.dest.exists() {
+            let parent = staged.parent().unwrap_or(Path::new("."));
+            let old = tempfile::Builder::new()
+                .prefix(".hvstack-old-")
+                .tempdir_in(parent)
+                .map_err(|e| format!("{shown}: cannot replace: {e}"))?
+                .keep();
+            let old = old.join("review");
+            std::fs::rename(&self.dest, &old).map_err(|e| format!("{shown}: cannot replace: {e}"))?;
+            Some(old)
+        } else {
+            None
+        };
+        std::fs::rename(&staged, &self.dest).map_err(|e| format!("{shown}: cannot replace: {e}"))?;
+        if let Some(old) = old
+            && let Some(holder) = old.parent()
+        {
+            let _ = std::fs::remove_dir_all(holder);
+        }
+        Ok(())
+    }
 }
 
 /// A result as JSON: read from a .json file, or computed from a case file.
@@ -143,15 +237,28 @@ fn result_value(path: &Path) -> Result<serde_json::Value, String> {
         let text = std::fs::read_to_string(path).map_err(|e| format!("{}: cannot read: {e}", path.display()))?;
         serde_json::from_str(&text).map_err(|e| format!("{}:{}: not a result JSON: {e}", path.display(), e.line()))
     } else {
-        let report = run_case(path, hvstack::DEFAULT_MAX_NODES)?;
+        let (report, _) = run_case(path, hvstack::DEFAULT_MAX_NODES, false)?;
         serde_json::to_value(&report).map_err(|e| format!("{}: {e}", path.display()))
     }
 }
 
 /// The case files of a batch: files as given, folders searched recursively
-/// for *.yaml and *.yml, sorted.
-fn collect(paths: &[PathBuf]) -> Result<Vec<PathBuf>, String> {
-    let mut files = Vec::new();
+/// for *.yaml and *.yml, sorted; each with the name of its review subfolder
+/// (its path below the folder given, or its stem, without the extension;
+/// made unique with a suffix).
+fn collect(paths: &[PathBuf]) -> Result<Vec<(PathBuf, String)>, String> {
+    let mut files: Vec<(PathBuf, String)> = Vec::new();
+    let mut seen = std::collections::BTreeSet::new();
+    let mut add = |files: &mut Vec<(PathBuf, String)>, f: PathBuf, key: String| {
+        let mut unique = key.clone();
+        let mut n = 2;
+        while !seen.insert(unique.clone()) {
+            unique = format!("{key}-{n}");
+            n += 1;
+        }
+        files.push((f, unique));
+    };
+    let stem_key = |f: &Path| f.with_extension("").to_string_lossy().replace('\\', "/");
     for p in paths {
         if p.is_dir() {
             let mut found: Vec<PathBuf> = walkdir::WalkDir::new(p)
@@ -165,9 +272,13 @@ fn collect(paths: &[PathBuf]) -> Result<Vec<PathBuf>, String> {
                 return Err(format!("{}: no case files (*.yaml, *.yml) in this folder", p.display()));
             }
             found.sort();
-            files.extend(found);
+            for f in found {
+                let key = stem_key(f.strip_prefix(p).unwrap_or(&f));
+                add(&mut files, f, key);
+            }
         } else {
-            files.push(p.clone());
+            let key = p.file_stem().map_or_else(|| "case".to_string(), |s| s.to_string_lossy().into_owned());
+            add(&mut files, p.clone(), key);
         }
     }
     Ok(files)
@@ -190,6 +301,7 @@ struct BatchOptions {
     junit: Option<PathBuf>,
     quiet: bool,
     shard: Option<(usize, usize)>,
+    report: Option<PathBuf>,
 }
 
 fn batch(paths: &[PathBuf], o: &BatchOptions) -> ExitCode {
@@ -204,9 +316,16 @@ fn batch(paths: &[PathBuf], o: &BatchOptions) -> ExitCode {
     };
     // Slice I of N takes every N-th case from the sorted list: disjoint
     // slices that together cover the batch, balanced by count.
-    let files: Vec<PathBuf> = match o.shard {
+    let files: Vec<(PathBuf, String)> = match o.shard {
         Some((i, n)) => files.into_iter().enumerate().filter(|(k, _)| k % n == i - 1).map(|(_, f)| f).collect(),
         None => files,
+    };
+    let staging = match o.report.as_deref().map(Staging::new).transpose() {
+        Ok(s) => s,
+        Err(e) => {
+            eprintln!("{e}");
+            return ExitCode::from(2);
+        }
     };
     let bar = if o.quiet { indicatif::ProgressBar::hidden() } else { indicatif::ProgressBar::new(files.len() as u64) };
     let pool = match rayon::ThreadPoolBuilder::new().num_threads(o.jobs as usize).build() {
@@ -216,22 +335,42 @@ fn batch(paths: &[PathBuf], o: &BatchOptions) -> ExitCode {
             return ExitCode::from(2);
         }
     };
-    // Cases run in parallel; results come back in file order.
-    let rows: Vec<summary::SummaryRow> = pool.install(|| {
+    // Cases run in parallel; results come back in file order. Review files
+    // go to disk as each case ends, so a batch holds one case's at a time.
+    let done: Vec<(summary::SummaryRow, Option<String>)> = pool.install(|| {
         files
             .par_iter()
-            .map(|f| {
+            .map(|(f, key)| {
                 let name = f.display().to_string();
-                let row = match run_case(f, o.max_nodes) {
-                    Ok(r) => summary::row(&name, &r),
-                    Err(e) => summary::error_row(&name, &e),
+                let out = match run_case(f, o.max_nodes, staging.is_some()) {
+                    Ok((r, review)) => match (&staging, review) {
+                        (Some(st), Some(files)) => match st.write(key, &files) {
+                            Ok(()) => (summary::row(&name, &r), Some(key.clone())),
+                            Err(e) => (summary::error_row(&name, &e), None),
+                        },
+                        _ => (summary::row(&name, &r), None),
+                    },
+                    Err(e) => (summary::error_row(&name, &e), None),
                 };
                 bar.inc(1);
-                row
+                out
             })
             .collect()
     });
     bar.finish_and_clear();
+    let (rows, links): (Vec<summary::SummaryRow>, Vec<Option<String>>) = done.into_iter().unzip();
+    if let Some(st) = staging {
+        let index = hvstack::report::html::render_batch(&rows, &links);
+        let page = hvstack::review::ReviewFile {
+            name: "index.html".into(),
+            what: "batch review page".into(),
+            bytes: index.into_bytes(),
+        };
+        if let Err(e) = st.write("", &[page]).and_then(|_| st.commit()) {
+            eprintln!("{e}");
+            return ExitCode::from(2);
+        }
+    }
     if let Some(path) = &o.junit
         && let Err(e) = write_atomically(path, &summary::junit_xml(&rows))
     {
@@ -254,13 +393,26 @@ fn main() -> ExitCode {
     });
     let cli = Cli::parse();
     match cli.command {
-        Command::Check { paths, format, max_nodes, jobs, junit, quiet, shard } => {
+        Command::Check { paths, format, max_nodes, jobs, junit, quiet, shard, report } => {
             let single = paths.len() == 1 && !paths[0].is_dir() && junit.is_none() && shard.is_none();
             if !single {
-                return batch(&paths, &BatchOptions { format, max_nodes, jobs, junit, quiet, shard });
+                return batch(&paths, &BatchOptions { format, max_nodes, jobs, junit, quiet, shard, report });
             }
-            match run_case(&paths[0], max_nodes) {
-                Ok(report) => {
+            let staging = match report.as_deref().map(Staging::new).transpose() {
+                Ok(s) => s,
+                Err(e) => {
+                    eprintln!("{e}");
+                    return ExitCode::from(2);
+                }
+            };
+            match run_case(&paths[0], max_nodes, staging.is_some()) {
+                Ok((report, review)) => {
+                    if let (Some(st), Some(files)) = (staging, review)
+                        && let Err(e) = st.write("", &files).and_then(|_| st.commit())
+                    {
+                        eprintln!("{e}");
+                        return ExitCode::from(2);
+                    }
                     let pass = report.verdict == hvstack::report::VerdictOut::Pass;
                     let code = emit(&match format {
                         Format::Text => hvstack::report::render_text(&report),

@@ -87,6 +87,37 @@ impl Shape {
         }
     }
 
+    /// The outline as a closed polygon (last point not repeated), arcs
+    /// sampled every few degrees: for drawing, not for geometry tests.
+    pub fn outline(&self) -> Vec<[f64; 2]> {
+        const ARC_STEPS: usize = 96;
+        let arc = |c: [f64; 2], r: f64, from: f64, steps: usize| {
+            (0..=steps).map(move |k| {
+                let a = from + std::f64::consts::FRAC_PI_2 * k as f64 / steps as f64;
+                [c[0] + r * a.cos(), c[1] + r * a.sin()]
+            })
+        };
+        match self {
+            Shape::Rect(r) => vec![[r.x0, r.y0], [r.x1, r.y0], [r.x1, r.y1], [r.x0, r.y1]],
+            Shape::Circle { center, radius } => (0..ARC_STEPS)
+                .map(|k| {
+                    let a = std::f64::consts::TAU * k as f64 / ARC_STEPS as f64;
+                    [center[0] + radius * a.cos(), center[1] + radius * a.sin()]
+                })
+                .collect(),
+            Shape::Polygon(v) | Shape::Filleted { points: v, .. } => v.clone(),
+            Shape::RoundedRect { rect: r, radius } => {
+                let q = ARC_STEPS / 4;
+                let (rad, h) = (*radius, std::f64::consts::FRAC_PI_2);
+                arc([r.x1 - rad, r.y0 + rad], rad, -h, q)
+                    .chain(arc([r.x1 - rad, r.y1 - rad], rad, 0.0, q))
+                    .chain(arc([r.x0 + rad, r.y1 - rad], rad, h, q))
+                    .chain(arc([r.x0 + rad, r.y0 + rad], rad, 2.0 * h, q))
+                    .collect()
+            }
+        }
+    }
+
     /// Area enclosed (zero for a line).
     pub fn area(&self) -> f64 {
         match self {
@@ -406,6 +437,22 @@ mod tests {
         assert!(s.sharp_points().is_empty());
         assert!(!s.contains_closed([0.05, 0.05], 0.0) && s.contains_closed([1.0, 1.0], 0.0));
         assert!(fillet(&sq, 1.5).is_err());
+    }
+
+    #[test]
+    fn outlines_enclose_the_shapes_area() {
+        // Shoelace area of the drawn outline against the exact area
+        // (common practice: polygon approximation of arcs, error ∝ 1/n²).
+        let shapes = [
+            Shape::Rect(Rect { x0: 0.0, x1: 2.0, y0: 0.0, y1: 1.0 }),
+            Shape::Circle { center: [1.0, 1.0], radius: 0.5 },
+            Shape::RoundedRect { rect: Rect { x0: 0.0, x1: 3.0, y0: 0.0, y1: 2.0 }, radius: 0.5 },
+        ];
+        for s in &shapes {
+            let drawn = polygon_signed_area(&s.outline());
+            assert!(drawn > 0.0, "{s:?}: outline runs counter-clockwise");
+            assert!((drawn - s.area()).abs() < 1e-3 * s.area(), "{s:?}: {drawn} vs {}", s.area());
+        }
     }
 
     #[test]

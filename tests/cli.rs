@@ -206,7 +206,10 @@ fn diff_of_a_design_change() {
     let dir = std::env::temp_dir().join(format!("hvstack-diff-{}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
     let text = std::fs::read_to_string("cases/planar-sheet.yaml").unwrap();
-    let changed = text.replace("voltage_kv: 12", "voltage_kv: 15").replace("thickness: 1.0 }", "thickness: 0.8 }");
+    let changed = text
+        .replace("voltage_kv: 12", "voltage_kv: 15")
+        .replace("thickness: 1.0 }", "thickness: 0.8 }")
+        .replace("to: [10, 3.125]", "to: [10, 2.925]");
     let new = dir.join("sheet.yaml");
     std::fs::write(&new, changed).unwrap();
     let old_json = dir.join("old.json");

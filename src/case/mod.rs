@@ -109,9 +109,18 @@ pub fn parse(text: &str, file: &str) -> Result<Case, CaseError> {
     let (case, mut diagnostics) = validate::validate(parsed, &locations);
     diagnostics.sort_by_key(|d| (d.line, d.column));
     match case {
-        Some(c) if diagnostics.is_empty() => Ok(c),
+        Some(mut c) if diagnostics.is_empty() => {
+            c.source_sha256 = sha256_hex(text.as_bytes());
+            Ok(c)
+        }
         _ => Err(fail(diagnostics)),
     }
+}
+
+/// SHA-256 of `bytes` as 64 lower-case hex digits.
+pub fn sha256_hex(bytes: &[u8]) -> String {
+    use sha2::{Digest, Sha256};
+    Sha256::digest(bytes).iter().map(|b| format!("{b:02x}")).collect()
 }
 
 /// Every key the case format does not know, with the nearest known key.

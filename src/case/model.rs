@@ -113,6 +113,19 @@ pub struct Probe {
     pub at: [f64; 2],
 }
 
+/// A straight sampling line.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Line {
+    /// Name shown in the report.
+    pub name: String,
+    /// Start in m.
+    pub from: [f64; 2],
+    /// End in m.
+    pub to: [f64; 2],
+    /// Number of sample points, ends included (at least 2).
+    pub points: usize,
+}
+
 /// A validated case in SI units.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Case {
@@ -136,8 +149,13 @@ pub struct Case {
     pub parts: Vec<Part>,
     /// Probe points.
     pub probes: Vec<Probe>,
+    /// Sampling lines.
+    pub lines: Vec<Line>,
     /// Required ratio of strength to peak field.
     pub safety_factor: f64,
+    /// SHA-256 of the case text (hex), set by `parse`; empty for cases
+    /// built in code.
+    pub source_sha256: String,
 }
 
 impl Case {

@@ -32,6 +32,8 @@ pub struct CaseFile {
     pub parts: Option<Vec<PartFile>>,
     /// Points where potential and field are reported.
     pub probes: Option<Vec<ProbeFile>>,
+    /// Straight lines along which the field is sampled (CSV in `--report`).
+    pub lines: Option<Vec<LineFile>>,
     /// Assessment limits.
     pub limits: Option<LimitsFile>,
 }
@@ -278,6 +280,20 @@ pub struct ProbeFile {
     pub at: [f64; 2],
 }
 
+/// One entry of `lines:`: a straight line sampled at evenly spaced points.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct LineFile {
+    /// Name shown in the report and used in the CSV file name.
+    pub name: String,
+    /// Start [x, y] in mm.
+    pub from: [f64; 2],
+    /// End [x, y] in mm.
+    pub to: [f64; 2],
+    /// Number of sample points, ends included (default 401).
+    pub points: Option<usize>,
+}
+
 /// `limits:`
 #[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
@@ -304,6 +320,7 @@ pub const KNOWN_KEYS: &[(&str, &[&str])] = &[
             "stack",
             "parts",
             "probes",
+            "lines",
             "limits",
         ],
     ),
@@ -319,5 +336,6 @@ pub const KNOWN_KEYS: &[(&str, &[&str])] = &[
     ("parts[].shape.rect", &["x", "y", "radius"]),
     ("parts[].shape.circle", &["center", "radius"]),
     ("probes[]", &["name", "at"]),
+    ("lines[]", &["name", "from", "to", "points"]),
     ("limits", &["safety_factor"]),
 ];

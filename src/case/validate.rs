@@ -402,6 +402,62 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
     }
 }
 
+/// Default number of sample points along a line (ends included).
+const DEFAULT_LINE_POINTS: usize = 401;
+/// Most sample points a line may ask for.
+const MAX_LINE_POINTS: usize = 100_000;
+
+/// Checks `lines:`: names usable as file names and unique, finite end
+/// points inside the domain, distinct ends, a sane number of points.
+fn sampling_lines(ctx: &mut Ctx, lines: &Option<Vec<LineFile>>, domain: Option<&Rect>) -> Option<Vec<Line>> {
+    let mut ok = true;
+    let mut out = Vec::new();
+    let mut names = BTreeSet::new();
+    for (i, l) in lines.iter().flatten().enumerate() {
+        let key = format!("lines[{i}]");
+        let file_safe = |c: char| c.is_ascii_alphanumeric() || matches!(c, '-' | '_' | '.');
+        if l.name.is_empty() || l.name.starts_with('.') || !l.name.chars().all(file_safe) {
+            ctx.err(
+                &format!("{key}.name"),
+                format!("line name '{}' becomes a file name: use letters, digits, '-', '_' or '.' (not first)", l.name),
+            );
+            ok = false;
+        } else if !names.insert(l.name.clone()) {
+            ctx.err(&format!("{key}.name"), format!("line name '{}' is used twice", l.name));
+            ok = false;
+        }
+        let mut ends = Vec::new();
+        for (end, p) in [("from", l.from), ("to", l.to)] {
+            let k = format!("{key}.{end}");
+            if !(ctx.finite(&format!("{k}[0]"), p[0]) & ctx.finite(&format!("{k}[1]"), p[1])) {
+                ok = false;
+                continue;
+            }
+            let at = p.map(units::mm);
+            if let Some(d) = domain
+                && !d.contains_closed(at, 0.0)
+            {
+                ctx.err(&k, "the line end lies outside the domain");
+                ok = false;
+            }
+            ends.push(at);
+        }
+        let points = l.points.unwrap_or(DEFAULT_LINE_POINTS);
+        if !(2..=MAX_LINE_POINTS).contains(&points) {
+            ctx.err(&format!("{key}.points"), format!("must be from 2 to {MAX_LINE_POINTS}, found {points}"));
+            ok = false;
+        }
+        if let [from, to] = ends[..] {
+            if from == to {
+                ctx.err(&format!("{key}.to"), "the line has the same start and end");
+                ok = false;
+            }
+            out.push(Line { name: l.name.clone(), from, to, points });
+        }
+    }
+    ok.then_some(out)
+}
+
 fn refine_boxes(ctx: &mut Ctx, g: Option<&GridFile>) -> Option<Vec<RefineBox>> {
     let mut ok = true;
     let mut out = Vec::new();
@@ -686,6 +742,7 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
         probes.push(Probe { name: p.name.clone(), at });
     }
 
+    let lines = sampling_lines(&mut ctx, &f.lines, domain.as_ref());
     let safety_factor = f.limits.as_ref().and_then(|l| l.safety_factor).unwrap_or(DEFAULT_SAFETY_FACTOR);
     if !(safety_factor.is_finite() && safety_factor >= 1.0) {
         ctx.err("limits.safety_factor", format!("must be a number of at least 1, found {safety_factor}"));
@@ -694,8 +751,8 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
 
     let grid = domain.and_then(|d| grid_spec(&mut ctx, f.grid.as_ref(), &d));
     let refine_boxes = refine_boxes(&mut ctx, f.grid.as_ref());
-    let (Some(domain), Some(grid), Some(refine_boxes), Some(background), true) =
-        (domain, grid, refine_boxes, background, ok && ctx.diags.is_empty())
+    let (Some(domain), Some(grid), Some(refine_boxes), Some(background), Some(lines), true) =
+        (domain, grid, refine_boxes, background, lines, ok && ctx.diags.is_empty())
     else {
         return (None, ctx.diags);
     };
@@ -710,7 +767,9 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
         materials: table.used,
         parts,
         probes,
+        lines,
         safety_factor,
+        source_sha256: String::new(),
     };
     (Some(case), ctx.diags)
 }

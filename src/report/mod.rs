@@ -4,12 +4,14 @@
 //! every number it shows was computed by `fields` or `assess`.
 
 pub mod diff;
+pub mod html;
 mod model;
 pub mod summary;
 mod text;
 
 pub use model::*;
-pub use text::{render_materials, render_text};
+pub(crate) use text::significant;
+pub use text::{render_materials, render_text, sig4, verdict_sentence};
 
 use crate::assess::{Assessment, FindingKind, Severity, Verdict};
 use crate::case::{Case, ElectrodeKind, Geometry, Normalisation};
@@ -233,6 +235,7 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
             e_kv_per_mm: to_kv_per_mm(f.e),
         })
         .collect();
+    let lines = case.lines.iter().zip(&fields.lines).map(|(l, f)| line_out(l, f)).collect();
     let findings = assessment
         .findings
         .iter()
@@ -281,12 +284,62 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
         parts,
         electrodes,
         probes,
+        lines,
         findings,
         caution: CAUTION,
         safety_factor: case.safety_factor,
         format_version: RESULT_FORMAT_VERSION,
         hvstack_version: env!("CARGO_PKG_VERSION"),
+        case_sha256: case.source_sha256.clone(),
     }
+}
+
+/// Rounds a position in mm to 1e-9 mm, dropping the float noise of
+/// m → mm conversion (3.4650000000000007 → 3.465).
+fn clean(mm: f64) -> f64 {
+    (mm * 1e9).round() / 1e9
+}
+
+fn line_out(line: &crate::case::Line, field: &crate::fields::LineField) -> LineOut {
+    let samples: Vec<LineSampleOut> = field
+        .samples
+        .iter()
+        .map(|s| LineSampleOut {
+            distance_mm: clean(to_mm(s.distance)),
+            x_mm: clean(to_mm(s.at[0])),
+            y_mm: clean(to_mm(s.at[1])),
+            potential_kv: to_kv(s.potential),
+            e_kv_per_mm: to_kv_per_mm(s.e[0].hypot(s.e[1])),
+            e_x_kv_per_mm: to_kv_per_mm(s.e[0]),
+            e_y_kv_per_mm: to_kv_per_mm(s.e[1]),
+            part: s.part.clone(),
+        })
+        .collect();
+    let peak = field.samples.iter().zip(&samples).filter(|(s, _)| !s.in_electrode).map(|(_, o)| o).fold(
+        None,
+        |best: Option<&LineSampleOut>, o| match best {
+            Some(b) if b.e_kv_per_mm >= o.e_kv_per_mm => Some(b),
+            _ => Some(o),
+        },
+    );
+    LineOut {
+        name: line.name.clone(),
+        from_mm: line.from.map(to_mm),
+        to_mm: line.to.map(to_mm),
+        points: line.points,
+        e_max_kv_per_mm: peak.map_or(0.0, |p| p.e_kv_per_mm),
+        e_max_at_mm: peak.map_or(line.from.map(to_mm), |p| [p.x_mm, p.y_mm]),
+        samples,
+    }
+}
+
+/// The samples of a line as CSV (header row, then one row per sample).
+pub fn line_csv(line: &LineOut) -> Result<Vec<u8>, csv::Error> {
+    let mut w = csv::Writer::from_writer(Vec::new());
+    for s in &line.samples {
+        w.serialize(s)?;
+    }
+    w.into_inner().map_err(|e| e.into_error().into())
 }
 
 /// The built-in library in report units.

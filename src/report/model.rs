@@ -201,6 +201,9 @@ pub struct CheckReport {
     pub electrodes: Vec<ElectrodeOut>,
     /// Probes.
     pub probes: Vec<ProbeOut>,
+    /// Sampling lines: a summary each (the samples go to CSV, not JSON).
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub lines: Vec<LineOut>,
     /// Findings, most severe first.
     pub findings: Vec<FindingOut>,
     /// The screening caution that goes with every result.
@@ -211,6 +214,49 @@ pub struct CheckReport {
     pub format_version: u32,
     /// Version of hvstack that produced the result.
     pub hvstack_version: &'static str,
+    /// SHA-256 of the case file's bytes (hex), empty for cases built in code.
+    pub case_sha256: String,
+}
+
+/// A sampling line: where it runs and its largest field.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct LineOut {
+    /// Name from the case.
+    pub name: String,
+    /// Start [x, y] in mm.
+    pub from_mm: [f64; 2],
+    /// End [x, y] in mm.
+    pub to_mm: [f64; 2],
+    /// Number of samples.
+    pub points: usize,
+    /// Largest |E| over the samples outside electrodes, kV/mm.
+    pub e_max_kv_per_mm: f64,
+    /// Where it occurs [x, y] in mm.
+    pub e_max_at_mm: [f64; 2],
+    /// The samples, start to end (written as CSV, left out of JSON).
+    #[serde(skip)]
+    pub samples: Vec<LineSampleOut>,
+}
+
+/// One sample of a line: a CSV row. In axisymmetric cases x is r and y is z.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct LineSampleOut {
+    /// Distance from the start in mm.
+    pub distance_mm: f64,
+    /// x (or r) in mm.
+    pub x_mm: f64,
+    /// y (or z) in mm.
+    pub y_mm: f64,
+    /// Potential in kV.
+    pub potential_kv: f64,
+    /// |E| in kV/mm.
+    pub e_kv_per_mm: f64,
+    /// E_x (or E_r) in kV/mm.
+    pub e_x_kv_per_mm: f64,
+    /// E_y (or E_z) in kV/mm.
+    pub e_y_kv_per_mm: f64,
+    /// Part (or electrode) the sample lies in.
+    pub part: String,
 }
 
 /// One material of the built-in library, as listed by `materials`.

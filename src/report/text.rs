@@ -34,7 +34,16 @@ fn opt(v: Option<f64>) -> String {
     v.map_or_else(|| "—".to_string(), sig4)
 }
 
-fn verdict_word(v: VerdictOut) -> &'static str {
+/// The verdict in plain words.
+pub fn verdict_sentence(v: VerdictOut) -> &'static str {
+    match v {
+        VerdictOut::Pass => "PASS — every part meets the safety factor; no warnings",
+        VerdictOut::Review => "REVIEW — something needs an engineer's look (see findings)",
+        VerdictOut::Fail => "FAIL — a typical breakdown strength is exceeded (see findings)",
+    }
+}
+
+pub(crate) fn verdict_word(v: VerdictOut) -> &'static str {
     match v {
         VerdictOut::Pass => "pass",
         VerdictOut::Review => "review",
@@ -70,12 +79,7 @@ pub fn render_text(r: &CheckReport) -> String {
     let mut o = String::new();
     let _ = writeln!(o, "hvstack {} — screening check", r.hvstack_version);
     let _ = writeln!(o, "case         {}", r.title);
-    let verdict = match r.verdict {
-        VerdictOut::Pass => "PASS — every part meets the safety factor; no warnings",
-        VerdictOut::Review => "REVIEW — something needs an engineer's look (see findings)",
-        VerdictOut::Fail => "FAIL — a typical breakdown strength is exceeded (see findings)",
-    };
-    let _ = writeln!(o, "verdict      {verdict}");
+    let _ = writeln!(o, "verdict      {}", verdict_sentence(r.verdict));
     let _ = writeln!(o, "geometry     {}; charge, capacitance and energy {}", r.geometry, r.results_per);
     let g = &r.grid;
     let _ = writeln!(
@@ -192,6 +196,25 @@ pub fn render_text(r: &CheckReport) -> String {
             })
             .collect();
         let _ = writeln!(o, "{}", table(&["probe", "at mm", "in part", "potential kV", "E kV/mm"], rows, &[1, 3, 4]));
+    }
+
+    if !r.lines.is_empty() {
+        let _ = writeln!(o, "\nlines (samples in the CSV of --report)");
+        let rows = r
+            .lines
+            .iter()
+            .map(|l| {
+                vec![
+                    l.name.clone(),
+                    format!("{}, {}", sig4(l.from_mm[0]), sig4(l.from_mm[1])),
+                    format!("{}, {}", sig4(l.to_mm[0]), sig4(l.to_mm[1])),
+                    sig4(l.e_max_kv_per_mm),
+                    format!("{}, {}", sig4(l.e_max_at_mm[0]), sig4(l.e_max_at_mm[1])),
+                ]
+            })
+            .collect();
+        let head = ["line", "from mm", "to mm", "E max kV/mm", "at mm"];
+        let _ = writeln!(o, "{}", table(&head, rows, &[1, 2, 3, 4]));
     }
 
     let _ = writeln!(o, "\nfindings");

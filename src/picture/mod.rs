@@ -1,0 +1,351 @@
+//! Stage 8: field maps. `build` computes everything a picture shows — the
+//! |E| raster, equipotential lines, part outlines, peak markers and scale
+//! ticks — in report units (mm, kV, kV/mm); `svg` only formats it and `png`
+//! only rasterises the SVG. Nothing here feeds back into the assessment.
+
+pub mod colour;
+pub mod png;
+pub mod svg;
+
+use crate::case::{Case, Geometry};
+use crate::fields::{Inside, Sampler};
+use crate::grid::{Grid, Layout};
+use crate::report::CheckReport;
+use crate::units::{to_kv, to_kv_per_mm, to_mm};
+
+/// Size limits of the plot area in pixels (SVG user units).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct MapConfig {
+    /// Widest plot area.
+    pub max_width_px: f64,
+    /// Tallest plot area.
+    pub max_height_px: f64,
+    /// Equipotential lines drawn between the lowest and highest fixed
+    /// potential (at 1/(n+1), 2/(n+1), … of the difference).
+    pub equipotentials: usize,
+}
+
+impl Default for MapConfig {
+    fn default() -> Self {
+        MapConfig { max_width_px: 640.0, max_height_px: 540.0, equipotentials: 9 }
+    }
+}
+
+/// |E| sampled at pixel centres, row 0 at the top (largest y).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Raster {
+    /// Columns.
+    pub width: usize,
+    /// Rows.
+    pub height: usize,
+    /// |E| in kV/mm, row-major; NaN inside electrodes.
+    pub e_kv_per_mm: Vec<f64>,
+}
+
+/// One equipotential level.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Isoline {
+    /// Potential in kV.
+    pub level_kv: f64,
+    /// Polylines in mm.
+    pub paths: Vec<Vec<[f64; 2]>>,
+}
+
+/// The outline of a part.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Outline {
+    /// Part name.
+    pub name: String,
+    /// Electrodes are drawn filled.
+    pub electrode: bool,
+    /// Closed polygon in mm.
+    pub points_mm: Vec<[f64; 2]>,
+}
+
+/// A marked peak field.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Peak {
+    /// Number shown beside the marker (1-based, in the order of the parts table).
+    pub number: usize,
+    /// Part name.
+    pub part: String,
+    /// Where, in mm.
+    pub at_mm: [f64; 2],
+    /// Peak |E| in kV/mm.
+    pub e_kv_per_mm: f64,
+}
+
+/// A label placed on the map.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Label {
+    /// Text.
+    pub text: String,
+    /// Anchor in mm.
+    pub at_mm: [f64; 2],
+}
+
+/// Everything a field map shows, in report units.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FieldMap {
+    /// Case title.
+    pub title: String,
+    /// Axisymmetric cases show the axis and label axes r and z.
+    pub axisymmetric: bool,
+    /// Domain [x0, x1, y0, y1] in mm.
+    pub extent_mm: [f64; 4],
+    /// Plot area in pixels (width, height); the mm scale is the same on both axes.
+    pub plot_px: [f64; 2],
+    /// The |E| raster.
+    pub raster: Raster,
+    /// Top of the colour scale in kV/mm (bottom is 0).
+    pub scale_top_kv_per_mm: f64,
+    /// Ticks on the colour bar in kV/mm.
+    pub scale_ticks: Vec<f64>,
+    /// Ticks along x and y in mm.
+    pub axis_ticks: [Vec<f64>; 2],
+    /// Equipotential lines.
+    pub equipotentials: Vec<Isoline>,
+    /// Spacing of the equipotential lines in kV (0 when there are none).
+    pub equipotential_step_kv: f64,
+    /// Part outlines in painting order.
+    pub outlines: Vec<Outline>,
+    /// Electrode names.
+    pub electrode_labels: Vec<Label>,
+    /// Peak field of each part.
+    pub peaks: Vec<Peak>,
+    /// Verdict word (pass, review, fail).
+    pub verdict: &'static str,
+}
+
+/// What `build` reads.
+pub struct MapInputs<'a> {
+    /// The case.
+    pub case: &'a Case,
+    /// The grid.
+    pub grid: &'a Grid,
+    /// The painted layout.
+    pub layout: &'a Layout,
+    /// Nodal potential in V.
+    pub phi: &'a [f64],
+    /// The result (peaks, verdict, names).
+    pub report: &'a CheckReport,
+}
+
+/// A "nice" number near `v` (1, 2, 2.5 or 5 times a power of ten), at or
+/// above it when `up`, else the nearest.
+fn nice(v: f64, up: bool) -> f64 {
+    if !(v.is_finite() && v > 0.0) {
+        return 1.0;
+    }
+    let p = 10f64.powf(v.log10().floor());
+    let candidates = [1.0, 2.0, 2.5, 5.0, 10.0];
+    if up {
+        candidates.iter().map(|c| c * p).find(|c| *c >= v * (1.0 - 1e-9)).unwrap_or(10.0 * p)
+    } else {
+        candidates.iter().map(|c| c * p).min_by(|a, b| (a - v).abs().total_cmp(&(b - v).abs())).unwrap_or(p)
+    }
+}
+
+/// Ticks at multiples of a nice step covering [lo, hi], about `n` of them.
+pub fn ticks(lo: f64, hi: f64, n: usize) -> Vec<f64> {
+    if hi.partial_cmp(&lo) != Some(std::cmp::Ordering::Greater) {
+        return vec![lo];
+    }
+    let step = nice((hi - lo) / n.max(1) as f64, false);
+    let first = (lo / step - 1e-9).ceil() as i64;
+    let last = (hi / step + 1e-9).floor() as i64;
+    // Rounded to the step's digits so that labels print cleanly.
+    (first..=last).map(|k| k as f64 * step).map(|v| if v.abs() < step * 1e-9 { 0.0 } else { v }).collect()
+}
+
+/// Coordinate at fractional index `f` along node coordinates `v`.
+fn at_index(v: &[f64], f: f64) -> f64 {
+    let f = f.clamp(0.0, (v.len() - 1) as f64);
+    let k = (f.floor() as usize).min(v.len() - 2);
+    v[k] + (f - k as f64) * (v[k + 1] - v[k])
+}
+
+/// Equipotential polylines at `levels` (V) from the nodal potential, in m.
+/// The contour crate pads the grid and closes rings along its border; the
+/// rings are cut where they leave the grid, so only true isolines remain.
+fn isolines(grid: &Grid, phi: &[f64], levels: &[f64]) -> Vec<Vec<Vec<[f64; 2]>>> {
+    let (nx, ny) = (grid.nx(), grid.ny());
+    let builder = contour::ContourBuilder::new(nx, ny, true);
+    let Ok(lines) = builder.lines(phi, levels) else {
+        return vec![Vec::new(); levels.len()];
+    };
+    // Node (i, j) sits at (i + ½, j + ½) in the crate's coordinates.
+    let inside = |c: &contour::Float, n: usize| *c >= 0.5 - 1e-9 && *c <= n as f64 - 0.5 + 1e-9;
+    lines
+        .iter()
+        .map(|line| {
+            let mut paths = Vec::new();
+            for ls in line.geometry().0.iter() {
+                let mut current: Vec<[f64; 2]> = Vec::new();
+                for c in ls.0.iter() {
+                    if inside(&c.x, nx) && inside(&c.y, ny) {
+                        current.push([at_index(&grid.x, c.x - 0.5), at_index(&grid.y, c.y - 0.5)]);
+                    } else if current.len() > 1 {
+                        paths.push(std::mem::take(&mut current));
+                    } else {
+                        current.clear();
+                    }
+                }
+                if current.len() > 1 {
+                    paths.push(current);
+                }
+            }
+            paths
+        })
+        .collect()
+}
+
+/// Drops points closer than `tol` (mm) to the last kept one.
+fn thin(path: Vec<[f64; 2]>, tol: f64) -> Vec<[f64; 2]> {
+    let n = path.len();
+    let mut out: Vec<[f64; 2]> = Vec::with_capacity(n);
+    for (k, p) in path.into_iter().enumerate() {
+        let keep = match out.last() {
+            None => true,
+            Some(q) => k + 1 == n || (p[0] - q[0]).hypot(p[1] - q[1]) >= tol,
+        };
+        if keep {
+            out.push(p);
+        }
+    }
+    out
+}
+
+/// Computes a field map.
+pub fn build(inp: &MapInputs, config: &MapConfig) -> FieldMap {
+    let MapInputs { case, grid, layout, phi, report } = *inp;
+    let d = case.domain;
+    let extent_mm = [to_mm(d.x0), to_mm(d.x1), to_mm(d.y0), to_mm(d.y1)];
+    let (w_mm, h_mm) = (extent_mm[1] - extent_mm[0], extent_mm[3] - extent_mm[2]);
+    let px_per_mm = (config.max_width_px / w_mm).min(config.max_height_px / h_mm);
+    let plot_px = [w_mm * px_per_mm, h_mm * px_per_mm];
+    let (width, height) = (plot_px[0].round().max(1.0) as usize, plot_px[1].round().max(1.0) as usize);
+
+    let sampler = Sampler::new(case, grid, layout, phi);
+    let mut e = Vec::with_capacity(width * height);
+    for row in 0..height {
+        let y = d.y1 - (row as f64 + 0.5) / height as f64 * d.height();
+        for col in 0..width {
+            let x = d.x0 + (col as f64 + 0.5) / width as f64 * d.width();
+            let s = sampler.at([x, y]);
+            e.push(match s.inside {
+                Inside::Electrode(_) => f64::NAN,
+                Inside::Region(_) => to_kv_per_mm(s.magnitude()),
+            });
+        }
+    }
+
+    let peak_top = report.parts.iter().map(|p| p.e_max_kv_per_mm).fold(0.0, f64::max);
+    let scale_top = nice(peak_top, true);
+
+    let fixed: Vec<f64> = layout
+        .electrodes
+        .iter()
+        .filter_map(|e| match e.kind {
+            crate::case::ElectrodeKind::Fixed { potential_v } => Some(potential_v),
+            crate::case::ElectrodeKind::Floating => None,
+        })
+        .collect();
+    let (lo, hi) = fixed.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| (a.min(v), b.max(v)));
+    let n = config.equipotentials;
+    let levels: Vec<f64> =
+        if hi > lo { (1..=n).map(|k| lo + (hi - lo) * k as f64 / (n + 1) as f64).collect() } else { Vec::new() };
+    let tol_mm = 0.4 / px_per_mm;
+    let equipotentials = isolines(grid, phi, &levels)
+        .into_iter()
+        .zip(&levels)
+        .map(|(paths, &level)| Isoline {
+            level_kv: to_kv(level),
+            paths: paths.into_iter().map(|p| thin(p.into_iter().map(|q| q.map(to_mm)).collect(), tol_mm)).collect(),
+        })
+        .collect();
+
+    let outlines = case
+        .parts
+        .iter()
+        .map(|p| Outline {
+            name: p.name.clone(),
+            electrode: matches!(p.role, crate::case::Role::Electrode(_)),
+            points_mm: p.shape.outline().into_iter().map(|q| q.map(to_mm)).collect(),
+        })
+        .collect();
+    let electrode_labels = case
+        .electrodes()
+        .map(|(_, p, _)| {
+            let b = p.shape.bounds();
+            let cx = 0.5 * (b.x0.max(d.x0) + b.x1.min(d.x1));
+            let cy = 0.5 * (b.y0.max(d.y0) + b.y1.min(d.y1));
+            Label { text: p.name.clone(), at_mm: [to_mm(cx), to_mm(cy)] }
+        })
+        .collect();
+    let peaks = report
+        .parts
+        .iter()
+        .enumerate()
+        .filter(|(_, p)| p.e_max_kv_per_mm > 0.0)
+        .map(|(k, p)| Peak {
+            number: k + 1,
+            part: p.name.clone(),
+            at_mm: p.e_max_at_mm,
+            e_kv_per_mm: p.e_max_kv_per_mm,
+        })
+        .collect();
+
+    FieldMap {
+        title: report.title.clone(),
+        axisymmetric: case.geometry == Geometry::Axisymmetric,
+        extent_mm,
+        plot_px,
+        raster: Raster { width, height, e_kv_per_mm: e },
+        scale_top_kv_per_mm: scale_top,
+        scale_ticks: ticks(0.0, scale_top, 5),
+        axis_ticks: [
+            ticks(extent_mm[0], extent_mm[1], (plot_px[0] / 90.0).round().max(2.0) as usize),
+            ticks(extent_mm[2], extent_mm[3], (plot_px[1] / 70.0).round().max(2.0) as usize),
+        ],
+        equipotentials,
+        equipotential_step_kv: if levels.is_empty() { 0.0 } else { to_kv((hi - lo) / (n + 1) as f64) },
+        outlines,
+        electrode_labels,
+        peaks,
+        verdict: match report.verdict {
+            crate::report::VerdictOut::Pass => "pass",
+            crate::report::VerdictOut::Review => "review",
+            crate::report::VerdictOut::Fail => "fail",
+        },
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn nice_numbers_and_ticks() {
+        // Round tick steps 1-2-2.5-5 (common practice for chart axes).
+        assert_eq!(nice(3.2, true), 5.0);
+        assert_eq!(nice(0.021, true), 0.025);
+        assert_eq!(nice(10.0, true), 10.0);
+        assert_eq!(ticks(0.0, 10.0, 5), vec![0.0, 2.0, 4.0, 6.0, 8.0, 10.0]);
+        assert_eq!(ticks(-3.0, 3.0, 3), vec![-2.0, 0.0, 2.0]);
+    }
+
+    #[test]
+    fn fractional_index_maps_onto_graded_coordinates() {
+        let v = [0.0, 1.0, 3.0];
+        assert_eq!(at_index(&v, 0.5), 0.5);
+        assert_eq!(at_index(&v, 1.5), 2.0);
+        assert_eq!(at_index(&v, 2.0), 3.0);
+    }
+
+    #[test]
+    fn thinning_keeps_the_ends() {
+        let p = vec![[0.0, 0.0], [0.01, 0.0], [0.02, 0.0], [1.0, 0.0], [1.001, 0.0]];
+        assert_eq!(thin(p, 0.1), vec![[0.0, 0.0], [1.0, 0.0], [1.001, 0.0]]);
+    }
+}

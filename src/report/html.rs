@@ -1,0 +1,247 @@
+//! The review page: one self-contained HTML file per case (no scripts, no
+//! external resources) with the verdict in plain words up top, the field
+//! map, the parts table with margins, findings, electrodes, probes, lines,
+//! the mesh self-check and the caution footer. Formatting only.
+
+use super::text::{sig4, verdict_sentence, verdict_word};
+use super::{CheckReport, SeverityOut, VerdictOut};
+use maud::{DOCTYPE, Markup, PreEscaped, html};
+
+/// What the page shows besides the result.
+pub struct PageInputs<'a> {
+    /// The result.
+    pub report: &'a CheckReport,
+    /// The case file as the user named it.
+    pub case_file: &'a str,
+    /// The field map as SVG markup (inlined).
+    pub map_svg: &'a str,
+    /// Other files of the review folder, linked from the page: (file name, what it holds).
+    pub files: &'a [(String, String)],
+}
+
+const STYLE: &str = r#"
+:root { --ink: #1f2328; --muted: #59636e; --line: #d0d7de; --pass: #1a7f37; --review: #9a6700; --fail: #cf222e; }
+* { box-sizing: border-box; }
+body { font-family: Ubuntu, 'DejaVu Sans', 'Helvetica Neue', Arial, sans-serif; color: var(--ink); margin: 0;
+       background: #f6f8fa; line-height: 1.45; }
+main { max-width: 1100px; margin: 0 auto; padding: 24px; background: #ffffff; }
+h1 { font-size: 1.5rem; margin: 0 0 4px; }
+h2 { font-size: 1.1rem; margin: 28px 0 8px; border-bottom: 1px solid var(--line); padding-bottom: 4px; }
+.meta { color: var(--muted); font-size: 0.9rem; }
+.verdict { margin: 16px 0; padding: 14px 18px; border-radius: 6px; font-size: 1.15rem; font-weight: bold;
+           color: #ffffff; }
+.verdict.pass { background: var(--pass); } .verdict.review { background: var(--review); }
+.verdict.fail { background: var(--fail); }
+table { border-collapse: collapse; width: 100%; font-size: 0.9rem; }
+th, td { border-bottom: 1px solid var(--line); padding: 5px 8px; text-align: left; vertical-align: top; }
+td.num, th.num { text-align: right; font-variant-numeric: tabular-nums; }
+.tag { display: inline-block; padding: 1px 7px; border-radius: 10px; font-size: 0.8rem; font-weight: bold;
+       color: #ffffff; }
+.tag.pass { background: var(--pass); } .tag.review, .tag.warning { background: var(--review); }
+.tag.fail { background: var(--fail); } .tag.info { background: #57606a; }
+figure { margin: 0; overflow-x: auto; } figure svg { max-width: 100%; height: auto; }
+code { font-size: 0.85rem; word-break: break-all; }
+td code { white-space: nowrap; word-break: normal; }
+footer { margin-top: 32px; padding-top: 12px; border-top: 2px solid var(--ink); font-size: 0.9rem; }
+"#;
+
+fn opt(v: Option<f64>) -> String {
+    v.map_or_else(|| "—".to_string(), sig4)
+}
+
+fn severity(s: SeverityOut) -> &'static str {
+    match s {
+        SeverityOut::Info => "info",
+        SeverityOut::Warning => "warning",
+        SeverityOut::Fail => "fail",
+    }
+}
+
+fn parts(r: &CheckReport) -> Markup {
+    html! {
+        table {
+            thead { tr {
+                th { "#" } th { "part" } th { "material" } th.num { "εr" } th.num { "peak |E| (kV/mm)" }
+                th.num { "at (mm)" } th.num { "mean |E| (kV/mm)" } th.num { "strength (kV/mm)" }
+                th.num { "margin" } th.num { "error estimate (%)" } th { "verdict" }
+            } }
+            tbody {
+                @for (k, p) in r.parts.iter().enumerate() {
+                    tr {
+                        td { (k + 1) } td { (p.name) } td { (p.material) } td.num { (sig4(p.permittivity)) }
+                        td.num { (sig4(p.e_max_kv_per_mm)) }
+                        td.num { (sig4(p.e_max_at_mm[0])) ", " (sig4(p.e_max_at_mm[1])) }
+                        td.num { (sig4(p.e_mean_kv_per_mm)) } td.num { (opt(p.strength_kv_per_mm)) }
+                        td.num { (opt(p.margin)) } td.num { (opt(p.e_max_error_estimate_pct)) }
+                        td { span class={ "tag " (verdict_word(p.verdict)) } { (verdict_word(p.verdict)) } }
+                    }
+                }
+            }
+        }
+    }
+}
+
+fn mesh_check(r: &CheckReport) -> Markup {
+    html! {
+        @match &r.mesh_check {
+            None => p { "The mesh self-check did not run or could not solve its coarser grids (see findings)." },
+            Some(m) => {
+                p { "The case was solved again on two coarser grids (" (m.nodes[1]) " and " (m.nodes[2])
+                    " nodes, against " (m.nodes[0]) "); each part's peak field is compared across the three." }
+                table {
+                    thead { tr {
+                        th { "part" } th.num { "peak, finest (kV/mm)" } th.num { "coarser grids (kV/mm)" }
+                        th.num { "observed order" } th.num { "error estimate (%)" } th { "grows with refinement" }
+                    } }
+                    tbody { @for p in &r.parts { tr {
+                        td { (p.name) } td.num { (sig4(p.e_max_kv_per_mm)) }
+                        td.num { @match p.e_max_coarser_grids_kv_per_mm {
+                            Some(c) => { (sig4(c[0])) ", " (sig4(c[1])) }
+                            None => "—",
+                        } }
+                        td.num { (opt(p.e_max_observed_order)) } td.num { (opt(p.e_max_error_estimate_pct)) }
+                        td { @if p.e_max_grows_with_refinement { "yes — see findings" } @else { "no" } }
+                    } } }
+                }
+            }
+        }
+    }
+}
+
+/// The review page as HTML.
+pub fn render_page(inp: &PageInputs) -> String {
+    let r = inp.report;
+    let class = verdict_word(r.verdict);
+    let page = html! {
+        (DOCTYPE)
+        html lang="en" {
+            head {
+                meta charset="utf-8";
+                meta name="viewport" content="width=device-width, initial-scale=1";
+                title { (r.title) " — hvstack review" }
+                style { (PreEscaped(STYLE)) }
+            }
+            body { main {
+                h1 { (r.title) }
+                div.meta { "Case file " code { (inp.case_file) } " · " (r.geometry) " · results " (r.results_per) }
+                div class={ "verdict " (class) } { (verdict_sentence(r.verdict)) }
+                @if r.verdict != VerdictOut::Pass {
+                    p { "Read the findings below: each says what the number means and what to change." }
+                }
+                h2 { "Field map" }
+                figure { (PreEscaped(inp.map_svg)) }
+                h2 { "Parts" }
+                p.meta { "Margin = typical breakdown strength ÷ peak field; the required safety factor is "
+                    (sig4(r.safety_factor)) "." }
+                (parts(r))
+                h2 { "Findings" }
+                @if r.findings.is_empty() { p { "None." } } @else {
+                    table { tbody { @for f in &r.findings { tr {
+                        td { span class={ "tag " (severity(f.severity)) } { (severity(f.severity)) } }
+                        td { code { (f.code) } }
+                        td { @if let Some(p) = &f.part { b { (p) } ": " } (f.message) }
+                    } } } }
+                }
+                h2 { "Electrodes" }
+                table {
+                    thead { tr { th { "electrode" } th { "kind" } th.num { "potential (kV)" } th.num { "charge" } } }
+                    tbody { @for e in &r.electrodes { tr {
+                        td { (e.name) } td { (e.kind) } td.num { (sig4(e.potential_kv)) }
+                        td.num { (sig4(e.charge.value)) " " (e.charge.unit) }
+                    } } }
+                }
+                p.meta {
+                    @if let Some(c) = &r.capacitance { "Capacitance " (sig4(c.value)) " " (c.unit) " · " }
+                    "stored energy " (sig4(r.energy.value)) " " (r.energy.unit)
+                    @if let Some(c) = &r.field_concentration {
+                        " · field enhancement factor " (sig4(c.factor)) " (peak " (sig4(c.e_max_kv_per_mm))
+                        " kV/mm against " (sig4(c.e_uniform_kv_per_mm)) " kV/mm over the " (sig4(c.gap_mm)) " mm gap)"
+                    }
+                }
+                @if !r.probes.is_empty() {
+                    h2 { "Probes" }
+                    table {
+                        thead { tr { th { "probe" } th.num { "at (mm)" } th { "in" } th.num { "potential (kV)" }
+                            th.num { "|E| (kV/mm)" } } }
+                        tbody { @for p in &r.probes { tr {
+                            td { (p.name) } td.num { (sig4(p.at_mm[0])) ", " (sig4(p.at_mm[1])) } td { (p.part) }
+                            td.num { (sig4(p.potential_kv)) } td.num { (sig4(p.e_kv_per_mm)) }
+                        } } }
+                    }
+                }
+                @if !r.lines.is_empty() {
+                    h2 { "Lines" }
+                    table {
+                        thead { tr { th { "line" } th.num { "from (mm)" } th.num { "to (mm)" }
+                            th.num { "peak |E| (kV/mm)" } th.num { "at (mm)" } th { "samples" } } }
+                        tbody { @for l in &r.lines { tr {
+                            td { (l.name) } td.num { (sig4(l.from_mm[0])) ", " (sig4(l.from_mm[1])) }
+                            td.num { (sig4(l.to_mm[0])) ", " (sig4(l.to_mm[1])) }
+                            td.num { (sig4(l.e_max_kv_per_mm)) }
+                            td.num { (sig4(l.e_max_at_mm[0])) ", " (sig4(l.e_max_at_mm[1])) }
+                            td { a href={ "line-" (l.name) ".csv" } { "line-" (l.name) ".csv" } " (" (l.points) ")" }
+                        } } }
+                    }
+                }
+                h2 { "Mesh self-check" }
+                (mesh_check(r))
+                p.meta { "Grid " (r.grid.nodes_x) " × " (r.grid.nodes_y) " = " (r.grid.nodes) " nodes, steps "
+                    (sig4(r.grid.min_step_mm)) " to " (sig4(r.grid.max_step_mm)) " mm; solved by " (r.solve.method)
+                    " in " (r.solve.iterations) " iterations to a relative residual of "
+                    (format!("{:.1e}", r.solve.relative_residual)) "." }
+                @if !inp.files.is_empty() {
+                    h2 { "Files" }
+                    ul { @for (name, what) in inp.files { li { a href=(name) { (name) } " — " (what) } } }
+                }
+                footer {
+                    p { b { "Caution. " } (r.caution) }
+                    p.meta { "hvstack " (r.hvstack_version) " · case SHA-256 " code { (r.case_sha256) } }
+                }
+            } }
+        }
+    };
+    page.into_string()
+}
+
+/// The index page of a batch review: one row per case with a link to its
+/// page (`links[k]` is the folder of row k, `None` when it has no page).
+pub fn render_batch(rows: &[super::summary::SummaryRow], links: &[Option<String>]) -> String {
+    let worst = rows.iter().map(|r| r.exit_status).max().unwrap_or(0);
+    let (class, words) = match worst {
+        0 => ("pass", "PASS — every case passes"),
+        1 => ("review", "REVIEW — at least one case needs an engineer's look or fails"),
+        _ => ("fail", "ERROR — at least one case could not be evaluated"),
+    };
+    let page = html! {
+        (DOCTYPE)
+        html lang="en" {
+            head {
+                meta charset="utf-8";
+                meta name="viewport" content="width=device-width, initial-scale=1";
+                title { "hvstack batch review" }
+                style { (PreEscaped(STYLE)) }
+            }
+            body { main {
+                h1 { "Batch review" }
+                div.meta { (rows.len()) " case(s)" }
+                div class={ "verdict " (class) } { (words) }
+                table {
+                    thead { tr { th { "case" } th { "verdict" } th { "worst part" } th.num { "peak |E| (kV/mm)" }
+                        th.num { "margin" } th { "findings / error" } } }
+                    tbody { @for (r, link) in rows.iter().zip(links) { tr {
+                        td { @match link {
+                            Some(l) => a href={ (l) "/index.html" } { (r.file) },
+                            None => (r.file),
+                        } }
+                        td { span class={ "tag " (if r.verdict == "error" { "fail" } else { r.verdict }) } { (r.verdict) } }
+                        td { (r.worst_part.as_deref().unwrap_or("—")) }
+                        td.num { (opt(r.e_max_kv_per_mm)) } td.num { (opt(r.margin)) }
+                        td { @if let Some(e) = &r.error { (e) } @else { (r.findings.join(", ")) } }
+                    } } }
+                }
+                footer { p { b { "Caution. " } (super::CAUTION) } p.meta { "hvstack " (env!("CARGO_PKG_VERSION")) } }
+            } }
+        }
+    };
+    page.into_string()
+}
