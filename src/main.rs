@@ -158,6 +158,9 @@ fn run_case(
     Ok((report, files))
 }
 
+/// Review folders being staged, removed if the run is interrupted.
+static STAGED: std::sync::Mutex<Vec<PathBuf>> = std::sync::Mutex::new(Vec::new());
+
 /// Marks a folder as an hvstack review folder, which `--report` may replace.
 const REVIEW_MARKER: &str = ".hvstack-review";
 
@@ -188,6 +191,9 @@ impl Staging {
             .prefix(".hvstack-review-")
             .tempdir_in(parent)
             .map_err(|e| format!("{}: cannot write: {e}", parent.display()))?;
+        if let Ok(mut staged) = STAGED.lock() {
+            staged.push(dir.path().to_path_buf());
+        }
         Ok(Staging { dir, dest: dest.to_path_buf() })
     }
 
@@ -208,6 +214,9 @@ impl Staging {
         let marker = "Written by hvstack check --report; the whole folder is replaced on every run.\n";
         std::fs::write(self.dir.path().join(REVIEW_MARKER), marker).map_err(|e| format!("{shown}: {e}"))?;
         let staged = self.dir.keep();
+        if let Ok(mut list) = STAGED.lock() {
+            list.retain(|p| p != &staged);
+        }
         let old = if self.dest.exists() {
             let parent = staged.parent().unwrap_or(Path::new("."));
             let old = tempfile::Builder::new()
@@ -388,7 +397,12 @@ fn main() -> ExitCode {
     // Outputs are written whole at the end (stdout in one write, files by
     // rename), so an interrupt loses nothing: say so and stop.
     let _ = ctrlc::set_handler(|| {
-        eprintln!("hvstack: interrupted; nothing was written");
+        if let Ok(staged) = STAGED.try_lock() {
+            for dir in staged.iter() {
+                let _ = std::fs::remove_dir_all(dir);
+            }
+        }
+        eprintln!("hvstack: interrupted; nothing was written (earlier outputs are intact)");
         std::process::exit(130);
     });
     let cli = Cli::parse();
