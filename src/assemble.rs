@@ -65,6 +65,31 @@ pub struct Stencil {
     pub gx: Vec<f64>,
     /// Edge (i, j)–(i, j+1) at index `j·nx + i`.
     pub gy: Vec<f64>,
+    /// Diagonal couplings of cells cut by an oblique interface (the ε_xy
+    /// term of their laminate tensor): (node, other node, conductance),
+    /// both directions, sorted. Conductances may be negative.
+    pub cross: Vec<(u32, u32, f64)>,
+}
+
+/// Per-unit-permittivity conductances of cell (i, j)'s quarters: (bottom or
+/// top edge, left edge, right edge), and the weight of the cross term
+/// (1 planar, 2π·r_centre axisymmetric).
+fn cell_factors(grid: &Grid, geometry: Geometry, i: usize, j: usize) -> (f64, f64, f64, f64) {
+    let (x0, x1) = (grid.x[i], grid.x[i + 1]);
+    let (hx, hy) = (x1 - x0, grid.y[j + 1] - grid.y[j]);
+    match geometry {
+        Geometry::Planar => (0.5 * hy / hx, 0.5 * hx / hy, 0.5 * hx / hy, 1.0),
+        Geometry::Axisymmetric => {
+            let radial = radial_weight(x0, x1);
+            let xm = face_radius(x0, x1);
+            (
+                2.0 * PI * 0.5 * hy * radial,
+                2.0 * PI * 0.5 * (xm * xm - x0 * x0) / hy,
+                2.0 * PI * 0.5 * (x1 * x1 - xm * xm) / hy,
+                2.0 * PI * 0.5 * (x0 + x1),
+            )
+        }
+    }
 }
 
 impl Stencil {
@@ -79,28 +104,14 @@ impl Stencil {
         for j in 0..ny - 1 {
             for i in 0..nx - 1 {
                 let Some([e_bottom, e_top, e_left, e_right]) = eps(grid.cell(i, j)) else { continue };
-                let (x0, x1) = (grid.x[i], grid.x[i + 1]);
-                let (hx, hy) = (x1 - x0, grid.y[j + 1] - grid.y[j]);
-                // (bottom, top, left, right) conductances per unit permittivity
-                let (g_h, g_left, g_right) = match geometry {
-                    Geometry::Planar => (0.5 * hy / hx, 0.5 * hx / hy, 0.5 * hx / hy),
-                    Geometry::Axisymmetric => {
-                        let radial = radial_weight(x0, x1);
-                        let xm = face_radius(x0, x1);
-                        (
-                            2.0 * PI * 0.5 * hy * radial,
-                            2.0 * PI * 0.5 * (xm * xm - x0 * x0) / hy,
-                            2.0 * PI * 0.5 * (x1 * x1 - xm * xm) / hy,
-                        )
-                    }
-                };
+                let (g_h, g_left, g_right, _) = cell_factors(grid, geometry, i, j);
                 gx[j * (nx - 1) + i] += e_bottom * g_h;
                 gx[(j + 1) * (nx - 1) + i] += e_top * g_h;
                 gy[j * nx + i] += e_left * g_left;
                 gy[j * nx + i + 1] += e_right * g_right;
             }
         }
-        Stencil { gx, gy }
+        Stencil { gx, gy, cross: Vec::new() }
     }
 
     /// The stencil of a case's painted layout. An edge that a curved
@@ -118,7 +129,7 @@ impl Stencil {
 
     fn bulk(case: &Case, grid: &Grid, layout: &Layout) -> Stencil {
         let eps: Vec<f64> = layout.regions.iter().map(|r| case.materials[r.material].epsilon()).collect();
-        Stencil::build(grid, case.geometry, |c| {
+        let mut s = Stencil::build(grid, case.geometry, |c| {
             let r = layout.cell_region[c.0];
             if r == CONDUCTOR {
                 return None;
@@ -127,11 +138,21 @@ impl Stencil {
                 Ok(k) => Some(layout.cut_cells[k].eps.map(|e| EPSILON_0 * e)),
                 Err(_) => Some([eps[r as usize]; 4]),
             }
-        })
+        });
+        s.cross = cross_couplings(grid, case.geometry, layout);
+        s
     }
 
-    /// The up to four neighbours of node n with their edge conductances.
+    /// The neighbours of node n with their conductances: up to four along
+    /// the grid lines, then any diagonal couplings.
     pub fn neighbours(&self, grid: &Grid, n: NodeIx) -> impl Iterator<Item = (NodeIx, f64)> {
+        let start = self.cross.partition_point(|c| (c.0 as usize) < n.0);
+        let diagonal =
+            self.cross[start..].iter().take_while(move |c| c.0 as usize == n.0).map(|c| (NodeIx(c.1 as usize), c.2));
+        self.axis_neighbours(grid, n).chain(diagonal)
+    }
+
+    fn axis_neighbours(&self, grid: &Grid, n: NodeIx) -> impl Iterator<Item = (NodeIx, f64)> {
         let (nx, ny) = (grid.nx(), grid.ny());
         let (i, j) = grid.node_ij(n);
         let mut out = [(NodeIx(0), 0.0); 4];
@@ -171,6 +192,10 @@ impl Stencil {
                 w += self.gy[j * nx + i] * d * d;
             }
         }
+        for &(a, b, g) in self.cross.iter().filter(|c| c.0 < c.1) {
+            let d = phi[a as usize] - phi[b as usize];
+            w += g * d * d;
+        }
         0.5 * w
     }
 
@@ -179,6 +204,50 @@ impl Stencil {
     pub fn outflux(&self, grid: &Grid, phi: &[f64], nodes: impl Iterator<Item = NodeIx>) -> f64 {
         nodes.map(|n| self.neighbours(grid, n).map(|(m, g)| g * (phi[n.0] - phi[m.0])).sum::<f64>()).sum()
     }
+}
+
+/// Safety margin on the cross term: |κ| ≤ this × 2·√(Hx·Hy), which keeps
+/// each cut cell's contribution positive semi-definite (see
+/// `cross_couplings`).
+const CROSS_LIMIT: f64 = 0.95;
+
+/// The ε_xy term of each cut cell's laminate tensor as diagonal couplings.
+///
+/// With bilinear φ in the cell, ∫ε_xy·∂xφ·∂yφ dA = κ·(s·φ)(t·φ), where
+/// s·φ = φ2 − φ1 + φ4 − φ3 and t·φ = φ3 − φ1 + φ4 − φ2 (nodes 1–4 at the
+/// lower left, lower right, upper left, upper right) and κ = ε_xy/4
+/// (planar; × 2π·r_centre axisymmetric). That is a conductance 2κ between
+/// nodes 1 and 4 and −2κ between nodes 2 and 3. The cell's own axis
+/// conductances bound its energy below by Hx·(s·φ)² + Hy·(t·φ)² (Hx, Hy the
+/// series values of its two x and two y quarters), so |κ| ≤ 2·√(Hx·Hy)
+/// keeps its whole contribution positive semi-definite and the matrix SPD.
+fn cross_couplings(grid: &Grid, geometry: Geometry, layout: &Layout) -> Vec<(u32, u32, f64)> {
+    let mut out = Vec::new();
+    for c in layout.cut_cells.iter().filter(|c| c.eps_xy != 0.0) {
+        let (i, j) = grid.cell_ij(CellIx(c.cell as usize));
+        let (g_h, g_left, g_right, w) = cell_factors(grid, geometry, i, j);
+        let series = |a: f64, b: f64| a * b / (a + b);
+        let hx = series(c.eps[0] * g_h, c.eps[1] * g_h);
+        let hy = series(c.eps[2] * g_left, c.eps[3] * g_right);
+        let limit = CROSS_LIMIT * 2.0 * (hx * hy).sqrt();
+        let kappa = EPSILON_0 * (0.25 * w * c.eps_xy).clamp(-limit, limit);
+        let [n1, n2, n3, n4] = grid.cell_nodes(CellIx(c.cell as usize)).map(|n| n.0 as u32);
+        for (a, b, g) in [(n1, n4, 2.0 * kappa), (n2, n3, -2.0 * kappa)] {
+            out.push((a, b, g));
+            out.push((b, a, g));
+        }
+    }
+    out.sort_by_key(|c| (c.0, c.1));
+    // Neighbouring cut cells share no diagonal, but merge defensively.
+    out.dedup_by(|next, kept| {
+        if (next.0, next.1) == (kept.0, kept.1) {
+            kept.2 += next.2;
+            true
+        } else {
+            false
+        }
+    });
+    out
 }
 
 /// Nodes per parallel assembly task.

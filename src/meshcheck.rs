@@ -13,6 +13,8 @@
 //! the estimate assumes order ½: the larger difference / (r^½ − 1). A peak that keeps growing under
 //! refinement without slowing (`d12 ≥ 0.7·d23 > 0`) is a field singularity
 //! of the drawn geometry (a sharp edge or corner), not a converging number.
+//! Peaks that carry an error floor (`RegionField::e_max_floor`, from the
+//! error model of fitted inclusions) never get a smaller estimate.
 
 use crate::fields::RegionField;
 
@@ -82,11 +84,14 @@ pub fn compare(fields: [&[RegionField]; 3], nodes: [usize; 3]) -> MeshCheck {
     let r = ((nodes[0] as f64 / nodes[1] as f64).sqrt() * (nodes[1] as f64 / nodes[2] as f64).sqrt()).sqrt();
     let regions = (0..fields[0].len())
         .map(|k| {
-            judge(
+            let mut c = judge(
                 [fields[0][k].e_max, fields[1][k].e_max, fields[2][k].e_max],
                 [fields[0][k].cells, fields[1][k].cells, fields[2][k].cells],
                 r,
-            )
+            );
+            // The error model of the fine grid's peak bounds the estimate below.
+            c.error_estimate = c.error_estimate.map(|e| e.max(fields[0][k].e_max_floor));
+            c
         })
         .collect();
     MeshCheck { nodes, regions }

@@ -240,6 +240,41 @@ impl Shape {
         }
     }
 
+    /// Distance from `p` to the nearest point of the outline.
+    pub fn outline_distance(&self, p: [f64; 2]) -> f64 {
+        let edges =
+            |v: &[[f64; 2]]| polygon_edges(v).map(|(a, b)| segment_distance(a, b, p)).fold(f64::INFINITY, f64::min);
+        match self {
+            Shape::Circle { center, radius } => ((p[0] - center[0]).hypot(p[1] - center[1]) - radius).abs(),
+            Shape::RoundedRect { .. } => self.signed_distance(p).abs(),
+            Shape::Rect(r) => edges(&[[r.x0, r.y0], [r.x1, r.y0], [r.x1, r.y1], [r.x0, r.y1]]),
+            Shape::Polygon(v) | Shape::Filleted { points: v, .. } => edges(v),
+        }
+    }
+
+    /// Unit normal of the outline at the outline point nearest `p` (its
+    /// sign is not specified; a tensor n·nᵀ does not need it).
+    pub fn normal_near(&self, p: [f64; 2]) -> [f64; 2] {
+        let unit = |v: [f64; 2]| {
+            let len = v[0].hypot(v[1]);
+            if len > 0.0 { [v[0] / len, v[1] / len] } else { [1.0, 0.0] }
+        };
+        let nearest_edge = |v: &[[f64; 2]]| {
+            polygon_edges(v)
+                .min_by(|a, b| segment_distance(a.0, a.1, p).total_cmp(&segment_distance(b.0, b.1, p)))
+                .map_or([1.0, 0.0], |(a, b)| unit([b[1] - a[1], a[0] - b[0]]))
+        };
+        match self {
+            Shape::Circle { center, .. } => unit([p[0] - center[0], p[1] - center[1]]),
+            Shape::RoundedRect { .. } => {
+                let n = self.outward_normal(p);
+                if n == [0.0, 0.0] { [1.0, 0.0] } else { n }
+            }
+            Shape::Rect(r) => nearest_edge(&[[r.x0, r.y0], [r.x1, r.y0], [r.x1, r.y1], [r.x0, r.y1]]),
+            Shape::Polygon(v) | Shape::Filleted { points: v, .. } => nearest_edge(v),
+        }
+    }
+
     /// True when `p` lies inside the shape or within `tol` of its outline.
     pub fn contains_closed(&self, p: [f64; 2], tol: f64) -> bool {
         match self {

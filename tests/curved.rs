@@ -111,3 +111,103 @@ parts:
         assert!((a - b).abs() / a < 0.003, "shift {shift}: {a} vs {b}");
     }
 }
+
+/// A circular (planar: cylindrical) or spherical (axisymmetric) inclusion of
+/// relative permittivity `inner` in `outer`, radius 1 mm, in a uniform
+/// field E0 = 1 kV/mm between plates 100 mm apart.
+fn inclusion_case(geometry: &str, outer: f64, inner: f64, shift: f64) -> String {
+    let c = 50.0 + shift;
+    let (center, x) =
+        if geometry == "axisymmetric" { (format!("[0, {c}]"), "0") } else { (format!("[{c}, {c}]"), "0") };
+    format!(
+        "
+title: inclusion in a uniform field
+geometry: {geometry}
+domain: {{ x: [{x}, 100], y: [0, 100] }}
+materials:
+  host: {{ base: epoxy, permittivity: {outer}, source: test value }}
+  filler: {{ base: air, permittivity: {inner}, source: test value }}
+background: host
+parts:
+  - {{ name: low, electrode: {{ potential_kv: 0 }}, shape: {{ rect: {{ x: [0, 100], y: [0, 0] }} }} }}
+  - {{ name: high, electrode: {{ potential_kv: 100 }}, shape: {{ rect: {{ x: [0, 100], y: [100, 100] }} }} }}
+  - {{ name: inclusion, material: filler, shape: {{ circle: {{ center: {center}, radius: 1 }} }} }}
+"
+    )
+}
+
+/// Field inside the inclusion (uniform), and the peak of the field outside
+/// it, for E0 = 1: cylinder E_in = 2·ε_o/(ε_o + ε_i), sphere
+/// E_in = 3·ε_o/(2·ε_o + ε_i) (Jackson, Classical Electrodynamics, 3rd ed.
+/// 1999, §4.4 and problem 4.10; Stratton, Electromagnetic Theory, 1941,
+/// §3.25). Outside, the peak sits on the outline: where the field is
+/// tangential (E_out = E_in) for a lower-permittivity inclusion, where it is
+/// normal (E_out = ε_i/ε_o·E_in) for a higher one.
+fn inclusion_fields(geometry: &str, outer: f64, inner: f64) -> (f64, f64) {
+    let e_in =
+        if geometry == "axisymmetric" { 3.0 * outer / (2.0 * outer + inner) } else { 2.0 * outer / (outer + inner) };
+    (e_in, if inner < outer { e_in } else { e_in * inner / outer })
+}
+
+fn parts(yaml: &str) -> Vec<hvstack::report::PartOut> {
+    hvstack::check(yaml, "inclusion.yaml", &hvstack::Options::default()).unwrap().parts
+}
+
+/// Gas voids in solid insulation, both geometries, on the default grid:
+/// the void's peak (its uniform interior field) and the solid's peak beside
+/// it within 0.5 % of the closed form for permittivity ratios up to 6, and
+/// the self-check's estimate covering the true error (issue target; the
+/// error grows with the ratio, see the next test).
+#[test]
+fn voids_match_the_closed_form_within_half_a_percent() {
+    for geometry in ["planar", "axisymmetric"] {
+        for outer in [2.3, 3.7, 6.0] {
+            let (e_in, e_out) = inclusion_fields(geometry, outer, 1.0);
+            let p = parts(&inclusion_case(geometry, outer, 1.0, 0.0));
+            for (part, exact) in [("inclusion", e_in), ("background", e_out)] {
+                let q = p.iter().find(|q| q.name == part).unwrap();
+                let error = (q.e_max_kv_per_mm - exact).abs() / exact;
+                assert!(error < 0.005, "{geometry} εr {outer}, {part}: {} vs {exact}", q.e_max_kv_per_mm);
+                let est = q.e_max_error_estimate_pct.unwrap() / 100.0;
+                assert!(est >= error, "{geometry} εr {outer}, {part}: estimate {est} below error {error}");
+            }
+        }
+    }
+}
+
+/// Higher contrasts and inclusions of higher permittivity (a water drop):
+/// the error grows with the ratio (0.7 % at 10:1, 3 % at 27:1 on the
+/// default grid, measured) and the estimate still covers it.
+#[test]
+fn high_contrast_inclusions_have_a_covering_estimate() {
+    for geometry in ["planar", "axisymmetric"] {
+        for (outer, inner) in [(10.0, 1.0), (2.0, 10.0), (3.0, 80.0)] {
+            let (e_in, e_out) = inclusion_fields(geometry, outer, inner);
+            let p = parts(&inclusion_case(geometry, outer, inner, 0.0));
+            for (part, exact) in [("inclusion", e_in), ("background", e_out)] {
+                let q = p.iter().find(|q| q.name == part).unwrap();
+                let error = (q.e_max_kv_per_mm - exact).abs() / exact;
+                let est = q.e_max_error_estimate_pct.unwrap() / 100.0;
+                assert!(error < 0.04, "{geometry} {outer}/{inner}, {part}: {} vs {exact}", q.e_max_kv_per_mm);
+                assert!(est >= error, "{geometry} {outer}/{inner}, {part}: estimate {est} below error {error}");
+            }
+        }
+    }
+}
+
+/// Moving a void against the grid by a fraction of a step changes its peak
+/// by less than 0.3 % (issue target).
+#[test]
+fn void_peaks_do_not_depend_on_where_the_grid_falls() {
+    for geometry in ["planar", "axisymmetric"] {
+        let peak = |shift: f64| {
+            let p = parts(&inclusion_case(geometry, 3.7, 1.0, shift));
+            p.iter().find(|q| q.name == "inclusion").unwrap().e_max_kv_per_mm
+        };
+        let a = peak(0.0);
+        for shift in [0.013, 0.037, 0.29] {
+            let b = peak(shift);
+            assert!((a - b).abs() / a < 0.003, "{geometry} shift {shift}: {a} vs {b}");
+        }
+    }
+}
