@@ -58,8 +58,10 @@ pub enum Shape {
     Filleted {
         /// Outline, arcs sampled.
         points: Vec<[f64; 2]>,
-        /// Tangent points.
+        /// Tangent points, two per corner (start and end of its arc).
         breaks: Vec<[f64; 2]>,
+        /// Fillet radius.
+        radius: f64,
     },
     /// Axis-aligned rectangle with its four corners rounded to `radius`
     /// (at most half the shorter side).
@@ -394,7 +396,7 @@ pub fn fillet(v: &[[f64; 2]], radius: f64) -> Result<Shape, String> {
         breaks.push(t2);
     }
     points.dedup();
-    Ok(Shape::Filleted { points, breaks })
+    Ok(Shape::Filleted { points, breaks, radius })
 }
 
 fn dist(a: [f64; 2], b: [f64; 2]) -> f64 {

@@ -1,6 +1,8 @@
-//! Peak fields on curved electrodes (boundary placed where it really lies
-//! between nodes, surface field from a one-sided quadratic). Progress
-//! towards the 0.5 % target of the curved-boundary work: these hold to 1 %.
+//! Peak fields on curved boundaries against closed forms on the default
+//! grid: electrodes (boundary placed where it really lies between nodes,
+//! surface field from a one-sided quadratic) and dielectric inclusions
+//! (laminate tensor, fitted inclusion fields). Issue target: within 0.5 %,
+//! the self-check's estimate covering the true error.
 
 fn peak(yaml: &str, part: &str) -> (f64, Option<f64>) {
     let r = hvstack::check(yaml, "curved.yaml", &hvstack::Options::default()).unwrap();
@@ -26,7 +28,7 @@ parts:
 ",
         "gas",
     );
-    assert!((e - 2.0).abs() / 2.0 < 0.01, "peak {e}");
+    assert!((e - 2.0).abs() / 2.0 < 0.005, "peak {e}");
     // the self-check's estimate covers the actual error
     assert!(est.unwrap() / 100.0 >= (e - 2.0).abs() / 2.0, "estimate {est:?} vs error {}", (e - 2.0).abs() / 2.0);
 }
@@ -50,7 +52,7 @@ parts:
 ",
         "background",
     );
-    assert!((e - 3.0).abs() / 3.0 < 0.01, "peak {e}");
+    assert!((e - 3.0).abs() / 3.0 < 0.005, "peak {e}");
     assert!(est.unwrap() / 100.0 >= (e - 3.0).abs() / 3.0);
 }
 
@@ -70,7 +72,7 @@ fn sphere_over_a_plane_matches_the_image_series() {
         q *= radius / next;
         d = radius * radius / next;
     }
-    let (peak, _) = peak(
+    let (peak, est) = peak(
         "
 title: sphere over a plane
 geometry: axisymmetric
@@ -83,7 +85,8 @@ parts:
     );
     // 3.5406 kV/mm from the series; the model's far boundary is zero-flux at 150 mm
     assert!((e - 3.5406).abs() < 1e-3, "series {e}");
-    assert!((peak - e).abs() / e < 0.01, "peak {peak} vs {e}");
+    assert!((peak - e).abs() / e < 0.005, "peak {peak} vs {e}");
+    assert!(est.unwrap() / 100.0 >= (peak - e).abs() / e, "estimate {est:?}");
 }
 
 /// Moving the geometry against the grid by a fraction of a step moves the
@@ -210,4 +213,78 @@ fn void_peaks_do_not_depend_on_where_the_grid_falls() {
             assert!((a - b).abs() / a < 0.003, "{geometry} shift {shift}: {a} vs {b}");
         }
     }
+}
+
+/// Refining the grid keeps curved-electrode peaks within 0.5 % with a
+/// covering estimate (closed form 2·E0 as above): no drift under
+/// refinement (boundary crossings nearer a node than 5 % of a step once
+/// snapped and pushed the peak up by 2 % at 64 cells per radius).
+#[test]
+fn curved_electrode_peaks_hold_under_refinement() {
+    for cells in [8, 16, 32] {
+        let (e, est) = peak(
+            &format!(
+                "
+title: rod in a field
+grid: {{ cells_across: {cells} }}
+stack:
+  form: planar
+  voltage_kv: 80
+  width: 80
+  layers: [ {{ name: gas, material: sf6, thickness: 80 }} ]
+parts:
+  - {{ name: rod, electrode: floating, shape: {{ circle: {{ center: [40, 40], radius: 1 }} }} }}
+"
+            ),
+            "gas",
+        );
+        let error = (e - 2.0).abs() / 2.0;
+        assert!(error < 0.005, "{cells} cells: peak {e}");
+        assert!(est.unwrap() / 100.0 >= error, "{cells} cells: estimate {est:?} vs {error}");
+    }
+}
+
+/// The sphere–plane gap's peak does not depend on where the grid falls
+/// (issue target 0.3 %).
+#[test]
+fn sphere_plane_peak_does_not_depend_on_where_the_grid_falls() {
+    let case = |z: f64| {
+        format!(
+            "
+title: sphere over a plane
+geometry: axisymmetric
+domain: {{ x: [0, 150], y: [0, 150] }}
+parts:
+  - {{ name: plane, electrode: {{ potential_kv: 0 }}, shape: {{ rect: {{ x: [0, 150], y: [0, 0] }} }} }}
+  - {{ name: ball, electrode: {{ potential_kv: 10 }}, shape: {{ circle: {{ center: [0, {z}], radius: 5 }} }} }}
+"
+        )
+    };
+    // The gap changes with the shift, so each peak is compared with its own
+    // image series; the relative errors may differ by less than 0.3 %.
+    let error = |z: f64| {
+        let (p, _) = peak(&case(z), "background");
+        p / image_series(5.0, z - 5.0, 10.0) - 1.0
+    };
+    let a = error(10.0);
+    for shift in [0.01, 0.037, 0.29] {
+        let b = error(10.0 + shift);
+        assert!((a - b).abs() < 0.003, "shift {shift}: error {a} vs {b}");
+    }
+}
+
+/// Field at the gap of a sphere (radius R, potential V) over an earthed
+/// plane, gap g, from the method of images (as in
+/// `sphere_over_a_plane_matches_the_image_series`).
+fn image_series(radius: f64, gap: f64, v: f64) -> f64 {
+    let h = radius + gap;
+    let (mut q, mut d, mut e) = (1.0f64, 0.0f64, 0.0f64);
+    for _ in 0..200 {
+        let z = h - d;
+        e += q * radius * v * (1.0 / (z - gap).powi(2) + 1.0 / (z + gap).powi(2));
+        let next = 2.0 * h - d;
+        q *= radius / next;
+        d = radius * radius / next;
+    }
+    e
 }

@@ -75,6 +75,7 @@ parts:
     );
     let p = &round.parts[0];
     assert!(p.e_max_error_estimate_pct.unwrap() < 2.0);
-    // rounding lowers the peak: a finite radius instead of a corner (common practice)
-    assert!(p.e_max_kv_per_mm < sharp.parts[0].e_max_kv_per_mm);
+    // The sharp bar's number is not comparable: it depends on the grid (and
+    // on the default grid it can fall below the rounded bar's converged peak).
+    assert!(sharp.parts[0].e_max_grows_with_refinement || sharp.findings.iter().any(|f| f.code == "singular-peak"));
 }
