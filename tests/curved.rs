@@ -62,16 +62,7 @@ parts:
 /// their images below the plane, summed here.
 #[test]
 fn sphere_over_a_plane_matches_the_image_series() {
-    let (radius, gap, v) = (5.0f64, 5.0f64, 10.0f64);
-    let h = radius + gap;
-    let (mut q, mut d, mut e) = (1.0f64, 0.0f64, 0.0f64);
-    for _ in 0..200 {
-        let z = h - d;
-        e += q * radius * v * (1.0 / (z - gap).powi(2) + 1.0 / (z + gap).powi(2));
-        let next = 2.0 * h - d;
-        q *= radius / next;
-        d = radius * radius / next;
-    }
+    let e = image_series(5.0, 5.0, 10.0);
     let (peak, est) = peak(
         "
 title: sphere over a plane
