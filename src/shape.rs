@@ -58,10 +58,15 @@ pub enum Shape {
     Filleted {
         /// Outline, arcs sampled.
         points: Vec<[f64; 2]>,
-        /// Tangent points, two per corner (start and end of its arc).
+        /// Points where grid lines belong: the ends of every arc and its
+        /// extremes along x and y, and the polygon's vertices.
         breaks: Vec<[f64; 2]>,
-        /// Fillet radius.
+        /// Smallest arc radius.
         radius: f64,
+        /// Bounding boxes of the arcs (where the default grid is refined).
+        curved: Vec<Rect>,
+        /// Convex corners left sharp (where an arc meets an edge at an angle).
+        sharp: Vec<[f64; 2]>,
     },
     /// Axis-aligned rectangle with its four corners rounded to `radius`
     /// (at most half the shorter side).
@@ -166,7 +171,8 @@ impl Shape {
                 }
                 v
             }
-            Shape::Circle { .. } | Shape::RoundedRect { .. } | Shape::Filleted { .. } => Vec::new(),
+            Shape::Circle { .. } | Shape::RoundedRect { .. } => Vec::new(),
+            Shape::Filleted { sharp, .. } => sharp.clone(),
             Shape::Polygon(v) => {
                 let orientation = polygon_signed_area(v).signum();
                 (0..v.len())
@@ -375,7 +381,9 @@ pub fn fillet(v: &[[f64; 2]], radius: f64) -> Result<Shape, String> {
             ));
         }
     }
+    let mut curved = Vec::new();
     for (t1, t2, c) in arcs {
+        let first = points.len();
         let a1 = (t1[1] - c[1]).atan2(t1[0] - c[0]);
         let mut a2 = (t2[1] - c[1]).atan2(t2[0] - c[0]);
         // the short way round
@@ -394,9 +402,108 @@ pub fn fillet(v: &[[f64; 2]], radius: f64) -> Result<Shape, String> {
         }
         breaks.push(t1);
         breaks.push(t2);
+        curved.push(bounds_of(&points[first..]));
     }
     points.dedup();
-    Ok(Shape::Filleted { points, breaks, radius })
+    Ok(Shape::Filleted { points, breaks, radius, curved, sharp: Vec::new() })
+}
+
+fn bounds_of(points: &[[f64; 2]]) -> Rect {
+    points
+        .iter()
+        .fold(Rect { x0: f64::INFINITY, x1: f64::NEG_INFINITY, y0: f64::INFINITY, y1: f64::NEG_INFINITY }, |b, p| {
+            Rect { x0: b.x0.min(p[0]), x1: b.x1.max(p[0]), y0: b.y0.min(p[1]), y1: b.y1.max(p[1]) }
+        })
+}
+
+/// Replaces edges of a polygon by circular arcs: `arcs` holds (edge, radius)
+/// with edge i running from vertex i to vertex i + 1 (0-based), a positive
+/// radius bulging outward and a negative one inward (the shorter arc
+/// through both ends). For axisymmetric profiles: bushing sheds, grading
+/// ring sections, domed ends. Errors name the edge whose chord is longer
+/// than the arc's diameter.
+pub fn arced(v: &[[f64; 2]], arcs: &[(usize, f64)]) -> Result<Shape, String> {
+    use std::f64::consts::{FRAC_PI_2, PI};
+    let n = v.len();
+    let orientation = polygon_signed_area(v).signum();
+    let mut points = Vec::new();
+    let mut breaks: Vec<[f64; 2]> = v.to_vec();
+    let mut curved = Vec::new();
+    let mut smallest = f64::INFINITY;
+    for i in 0..n {
+        let (a, b) = (v[i], v[(i + 1) % n]);
+        points.push(a);
+        let Some(&(_, radius)) = arcs.iter().find(|(e, _)| *e == i) else { continue };
+        let chord = dist(a, b);
+        let r = radius.abs();
+        if chord == 0.0 || r < 0.5 * chord * (1.0 - 1e-12) {
+            return Err(format!(
+                "the arc radius {} mm is less than half the edge from corner {} to corner {}",
+                1e3 * r,
+                i + 1,
+                (i + 1) % n + 1
+            ));
+        }
+        if r > 1e6 * chord {
+            return Err(format!(
+                "the arc on the edge from corner {} to corner {} is straight to a millionth: leave the edge straight",
+                i + 1,
+                (i + 1) % n + 1
+            ));
+        }
+        smallest = smallest.min(r);
+        let e = [(b[0] - a[0]) / chord, (b[1] - a[1]) / chord];
+        let outward = [orientation * e[1], -orientation * e[0]];
+        let bulge = if radius > 0.0 { outward } else { [-outward[0], -outward[1]] };
+        let d = (r * r - 0.25 * chord * chord).max(0.0).sqrt();
+        let m = [0.5 * (a[0] + b[0]), 0.5 * (a[1] + b[1])];
+        let c = [m[0] - bulge[0] * d, m[1] - bulge[1] * d];
+        let a1 = (a[1] - c[1]).atan2(a[0] - c[0]);
+        let mut sweep = (b[1] - c[1]).atan2(b[0] - c[0]) - a1;
+        while sweep > PI {
+            sweep -= 2.0 * PI;
+        }
+        while sweep < -PI {
+            sweep += 2.0 * PI;
+        }
+        let steps = ((sweep.abs() / FRAC_PI_2) * ARC_SEGMENTS_PER_QUARTER).ceil().max(1.0) as usize;
+        let first = points.len() - 1;
+        for k in 1..steps {
+            let ang = a1 + sweep * k as f64 / steps as f64;
+            points.push([c[0] + r * ang.cos(), c[1] + r * ang.sin()]);
+        }
+        let mut arc = points[first..].to_vec();
+        arc.push(b);
+        curved.push(bounds_of(&arc));
+        // The arc's extremes along x and y become grid lines, as for circles.
+        for q in 0..4 {
+            let ang = q as f64 * FRAC_PI_2;
+            // the direction lies on the arc if some turn of it falls inside the sweep
+            let within = (-1..=1).any(|turns| {
+                let t = (ang + turns as f64 * 2.0 * PI - a1) / sweep;
+                t > 0.0 && t < 1.0
+            });
+            if within {
+                breaks.push([c[0] + r * ang.cos(), c[1] + r * ang.sin()]);
+            }
+        }
+    }
+    points.dedup();
+    // Convex vertices where the outline turns by more than a few degrees
+    // stay sharp corners.
+    let sharp = v
+        .iter()
+        .filter(|&&p| {
+            let Some(k) = points.iter().position(|q| *q == p) else { return false };
+            let (prev, next) = (points[(k + points.len() - 1) % points.len()], points[(k + 1) % points.len()]);
+            let (u, w) = ([p[0] - prev[0], p[1] - prev[1]], [next[0] - p[0], next[1] - p[1]]);
+            let cross = u[0] * w[1] - u[1] * w[0];
+            let turn = cross.atan2(u[0] * w[0] + u[1] * w[1]);
+            turn * orientation > 5f64.to_radians()
+        })
+        .copied()
+        .collect();
+    Ok(Shape::Filleted { points, breaks, radius: smallest, curved, sharp })
 }
 
 fn dist(a: [f64; 2], b: [f64; 2]) -> f64 {

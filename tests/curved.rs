@@ -279,3 +279,51 @@ fn image_series(radius: f64, gap: f64, v: f64) -> f64 {
     }
     e
 }
+
+/// Arced polygon edges (`shape.arcs`) draw the same conductors as circles:
+/// a diamond with four outward arcs of the circumradius is the cylinder, a
+/// profile of two arcs against the axis is the sphere; closed forms 2·E0 and
+/// 3·E0 as above, no sharp-edge finding. The cylinder holds to 0.5 %; the
+/// arced sphere reads −0.53 % (the drawn circle −0.43 %: the arcs are
+/// sampled as polylines for the point tests), checked to 0.6 %.
+#[test]
+fn arced_profiles_match_the_circles() {
+    let rod = "
+title: rod drawn with arcs
+stack:
+  form: planar
+  voltage_kv: 80
+  width: 80
+  layers: [ { name: gas, material: sf6, thickness: 80 } ]
+parts:
+  - name: rod
+    electrode: floating
+    shape:
+      polygon: [[39, 40], [40, 39], [41, 40], [40, 41]]
+      arcs: [ { edge: 0, radius: 1 }, { edge: 1, radius: 1 }, { edge: 2, radius: 1 }, { edge: 3, radius: 1 } ]
+";
+    let ball = "
+title: ball drawn with arcs
+geometry: axisymmetric
+domain: { x: [0, 60], y: [0, 80] }
+materials:
+  gas: { base: sf6, permittivity: 1.0, source: test value }
+background: gas
+parts:
+  - { name: low, electrode: { potential_kv: 0 }, shape: { rect: { x: [0, 60], y: [0, 0] } } }
+  - { name: high, electrode: { potential_kv: 80 }, shape: { rect: { x: [0, 60], y: [80, 80] } } }
+  - name: ball
+    electrode: floating
+    shape:
+      polygon: [[0, 39], [1, 40], [0, 41]]
+      arcs: [ { edge: 0, radius: 1 }, { edge: 1, radius: 1 } ]
+";
+    for (yaml, part, exact, tol) in [(rod, "gas", 2.0, 0.005), (ball, "background", 3.0, 0.006)] {
+        let r = hvstack::check(yaml, "arcs.yaml", &hvstack::Options::default()).unwrap();
+        let p = r.parts.iter().find(|p| p.name == part).unwrap();
+        let error = (p.e_max_kv_per_mm - exact).abs() / exact;
+        assert!(error < tol, "{part}: {} vs {exact}", p.e_max_kv_per_mm);
+        assert!(p.e_max_error_estimate_pct.unwrap() / 100.0 >= error);
+        assert!(!r.findings.iter().any(|f| f.code == "singular-peak"), "{:?}", r.findings);
+    }
+}

@@ -246,6 +246,19 @@ pub struct ShapeFile {
     pub polygon: Option<Vec<[f64; 2]>>,
     /// With `polygon`: round every corner with this radius (mm).
     pub fillet: Option<f64>,
+    /// With `polygon`: edges bent into circular arcs.
+    pub arcs: Option<Vec<ArcFile>>,
+}
+
+/// One arced edge of a polygon.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct ArcFile {
+    /// Edge index: edge i runs from vertex i to vertex i + 1 (from 0; the
+    /// last edge closes the polygon).
+    pub edge: usize,
+    /// Radius in mm: positive bulges outward, negative inward.
+    pub radius: f64,
 }
 
 /// A rectangle in mm.
@@ -332,7 +345,8 @@ pub const KNOWN_KEYS: &[(&str, &[&str])] = &[
     ("stack.layers[]", &["name", "material", "thickness"]),
     ("parts[]", &["name", "material", "electrode", "shape"]),
     ("parts[].electrode", &["potential_kv"]),
-    ("parts[].shape", &["rect", "circle", "polygon", "fillet"]),
+    ("parts[].shape", &["rect", "circle", "polygon", "fillet", "arcs"]),
+    ("parts[].shape.arcs[]", &["edge", "radius"]),
     ("parts[].shape.rect", &["x", "y", "radius"]),
     ("parts[].shape.circle", &["center", "radius"]),
     ("probes[]", &["name", "at"]),

@@ -219,6 +219,10 @@ fn shape(ctx: &mut Ctx, key: &str, s: &ShapeFile) -> Option<Shape> {
         ctx.err(&format!("{key}.fillet"), "`fillet` rounds the corners of a `polygon` (rectangles take `radius`)");
         return None;
     }
+    if s.arcs.is_some() && (s.polygon.is_none() || s.fillet.is_some()) {
+        ctx.err(&format!("{key}.arcs"), "`arcs` bends edges of a `polygon` and cannot be combined with `fillet`");
+        return None;
+    }
     match (&s.rect, &s.circle, &s.polygon) {
         (Some(r), None, None) => {
             let k = format!("{key}.rect");
@@ -263,6 +267,37 @@ fn shape(ctx: &mut Ctx, key: &str, s: &ShapeFile) -> Option<Shape> {
             if ok && poly.area() <= 0.0 {
                 ctx.err(&k, "polygon encloses no area");
                 return None;
+            }
+            if let Some(arcs) = &s.arcs {
+                let ak = format!("{key}.arcs");
+                let mut list = Vec::new();
+                for (i, a) in arcs.iter().enumerate() {
+                    let k = format!("{ak}[{i}]");
+                    if a.edge >= v.len() {
+                        ctx.err(&format!("{k}.edge"), format!("the polygon has edges 0 to {}", v.len() - 1));
+                        ok = false;
+                    } else if list.iter().any(|(e, _)| *e == a.edge) {
+                        ctx.err(&format!("{k}.edge"), format!("edge {} has two arcs", a.edge));
+                        ok = false;
+                    }
+                    if !ctx.finite(&format!("{k}.radius"), a.radius) || a.radius == 0.0 {
+                        if a.radius == 0.0 {
+                            ctx.err(&format!("{k}.radius"), "an arc radius cannot be 0 (leave the edge straight)");
+                        }
+                        ok = false;
+                    }
+                    list.push((a.edge, units::mm(a.radius)));
+                }
+                if !ok {
+                    return None;
+                }
+                return match crate::shape::arced(&pts, &list) {
+                    Ok(shape) => Some(shape),
+                    Err(e) => {
+                        ctx.err(&ak, e);
+                        None
+                    }
+                };
             }
             match s.fillet {
                 None => ok.then_some(poly),
@@ -425,19 +460,14 @@ fn curved_electrode_boxes(parts: &[Part], grid: &GridSpec) -> Vec<RefineBox> {
                     max_step: radius / (CURVED_ELECTRODE_REFINEMENT * grid.cells_across as f64),
                 }])
             }
-            Shape::Filleted { breaks, radius, .. } if *radius > 0.0 => Some(
-                // One box per rounded corner: around its two tangent points.
-                breaks
-                    .chunks_exact(2)
-                    .map(|pair| {
+            Shape::Filleted { curved, radius, .. } if *radius > 0.0 && radius.is_finite() => Some(
+                // One box per arc (each rounded corner, each arced edge).
+                curved
+                    .iter()
+                    .map(|b| {
                         let grow = 0.5 * radius;
                         RefineBox {
-                            rect: Rect {
-                                x0: pair[0][0].min(pair[1][0]) - grow,
-                                x1: pair[0][0].max(pair[1][0]) + grow,
-                                y0: pair[0][1].min(pair[1][1]) - grow,
-                                y1: pair[0][1].max(pair[1][1]) + grow,
-                            },
+                            rect: Rect { x0: b.x0 - grow, x1: b.x1 + grow, y0: b.y0 - grow, y1: b.y1 + grow },
                             max_step: radius / (CURVED_ELECTRODE_REFINEMENT * grid.cells_across as f64),
                         }
                     })
