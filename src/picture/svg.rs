@@ -71,25 +71,19 @@ fn halo_text(x: f64, y: f64, size: f64, content: &str) -> Text {
 }
 
 fn marker(x: f64, y: f64) -> Group {
+    let ring = |colour: &str, width: f64| {
+        Circle::new()
+            .set("cx", round1(x))
+            .set("cy", round1(y))
+            .set("r", 6)
+            .set("fill", "none")
+            .set("stroke", colour)
+            .set("stroke-width", width)
+    };
+    // A white halo under the coloured ring keeps it visible on any colour.
     Group::new()
-        .add(
-            Circle::new()
-                .set("cx", round1(x))
-                .set("cy", round1(y))
-                .set("r", 6)
-                .set("fill", "none")
-                .set("stroke", "#ffffff")
-                .set("stroke-width", 4.4),
-        )
-        .add(
-            Circle::new()
-                .set("cx", round1(x))
-                .set("cy", round1(y))
-                .set("r", 6)
-                .set("fill", "none")
-                .set("stroke", MARKER)
-                .set("stroke-width", 2.2),
-        )
+        .add(ring("#ffffff", 4.4))
+        .add(ring(MARKER, 2.2))
         .add(Circle::new().set("cx", round1(x)).set("cy", round1(y)).set("r", 1.6).set("fill", MARKER))
 }
 

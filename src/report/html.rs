@@ -45,6 +45,18 @@ td code { white-space: nowrap; word-break: normal; }
 footer { margin-top: 32px; padding-top: 12px; border-top: 2px solid var(--ink); font-size: 0.9rem; }
 "#;
 
+/// The page head: character set, viewport, title and the inline style.
+fn head(title: &str) -> Markup {
+    html! {
+        head {
+            meta charset="utf-8";
+            meta name="viewport" content="width=device-width, initial-scale=1";
+            title { (title) }
+            style { (PreEscaped(STYLE)) }
+        }
+    }
+}
+
 fn opt(v: Option<f64>) -> String {
     v.map_or_else(|| "—".to_string(), sig4)
 }
@@ -115,12 +127,7 @@ pub fn render_page(inp: &PageInputs) -> String {
     let page = html! {
         (DOCTYPE)
         html lang="en" {
-            head {
-                meta charset="utf-8";
-                meta name="viewport" content="width=device-width, initial-scale=1";
-                title { (r.title) " — hvstack review" }
-                style { (PreEscaped(STYLE)) }
-            }
+            (head(&format!("{} — hvstack review", r.title)))
             body { main {
                 h1 { (r.title) }
                 div.meta { "Case file " code { (inp.case_file) } " · " (r.geometry) " · results " (r.results_per) }
@@ -215,12 +222,7 @@ pub fn render_batch(rows: &[super::summary::SummaryRow], links: &[Option<String>
     let page = html! {
         (DOCTYPE)
         html lang="en" {
-            head {
-                meta charset="utf-8";
-                meta name="viewport" content="width=device-width, initial-scale=1";
-                title { "hvstack batch review" }
-                style { (PreEscaped(STYLE)) }
-            }
+            (head("hvstack batch review"))
             body { main {
                 h1 { "Batch review" }
                 div.meta { (rows.len()) " case(s)" }
