@@ -213,11 +213,15 @@ pub fn render_page(inp: &PageInputs) -> String {
 /// The index page of a batch review: one row per case with a link to its
 /// page (`links[k]` is the folder of row k, `None` when it has no page).
 pub fn render_batch(rows: &[super::summary::SummaryRow], links: &[Option<String>]) -> String {
-    let worst = rows.iter().map(|r| r.exit_status).max().unwrap_or(0);
-    let (class, words) = match worst {
-        0 => ("pass", "PASS — every case passes"),
-        1 => ("review", "REVIEW — at least one case needs an engineer's look or fails"),
-        _ => ("fail", "ERROR — at least one case could not be evaluated"),
+    let any = |v: &str| rows.iter().any(|r| r.verdict == v);
+    let (class, words) = if any("error") {
+        ("fail", "ERROR — at least one case could not be evaluated")
+    } else if any("fail") {
+        ("fail", "FAIL — at least one case exceeds a typical breakdown strength")
+    } else if any("review") {
+        ("review", "REVIEW — at least one case needs an engineer's look")
+    } else {
+        ("pass", "PASS — every case passes")
     };
     let page = html! {
         (DOCTYPE)
