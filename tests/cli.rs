@@ -133,6 +133,28 @@ fn all_unknown_keys_are_reported_at_once_with_suggestions() {
     std::fs::remove_dir_all(&dir).unwrap();
 }
 
+/// Values of the wrong type are all reported at once too (serde stops at
+/// the first; the JSON Schema of the format finds the rest), each with its
+/// file, line, column and key.
+#[test]
+fn all_wrong_types_are_reported_at_once() {
+    let dir = std::env::temp_dir().join(format!("hvstack-types-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let file = dir.join("case.yaml");
+    std::fs::write(
+        &file,
+        "title: two wrong types\nstack:\n  form: planar\n  voltage_kv: twelve\n  layers:\n    - { name: a, material: ptfe, thickness: 1 }\n    - { name: b, material: mica, thickness: thin }\nprobes:\n  - { name: p, at: [1, \"x\"] }\n",
+    )
+    .unwrap();
+    let out = hvstack(&["check", file.to_str().unwrap()]);
+    let err = stderr(&out);
+    assert_eq!(out.status.code(), Some(2));
+    for (line, key) in [(4, "stack.voltage_kv"), (7, "stack.layers[1].thickness"), (9, "probes[0].at[1]")] {
+        assert!(err.lines().any(|l| l.contains(&format!("case.yaml:{line}:")) && l.contains(key)), "{key} in {err}");
+    }
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
 /// The table of known keys (used for the all-at-once report) agrees with
 /// the serde schema: a case using every key once parses.
 #[test]

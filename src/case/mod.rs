@@ -104,7 +104,12 @@ pub fn parse(text: &str, file: &str) -> Result<Case, CaseError> {
             Some((head, rest)) if !head.is_empty() && key.starts_with(head) => rest.to_string(),
             _ => message,
         };
-        fail(vec![Diagnostic { key, line, column, message }])
+        // serde stops at its first problem; the schema finds the others.
+        let mut all: Vec<Diagnostic> =
+            schema_errors(text, &locations).into_iter().filter(|d| d.key != key && !key.starts_with(&d.key)).collect();
+        all.push(Diagnostic { key, line, column, message });
+        all.sort_by_key(|d| (d.line, d.column));
+        fail(all)
     })?;
     let (case, mut diagnostics) = validate::validate(parsed, &locations);
     diagnostics.sort_by_key(|d| (d.line, d.column));
@@ -115,6 +120,77 @@ pub fn parse(text: &str, file: &str) -> Result<Case, CaseError> {
         }
         _ => Err(fail(diagnostics)),
     }
+}
+
+/// Every place where the case does not fit the JSON Schema of the format
+/// (wrong types, missing fields), found by the `jsonschema` crate on the
+/// YAML read as a plain value. Used only after serde has failed, so that a
+/// case with several such problems hears of all of them at once. Empty when
+/// the text cannot be read as plain JSON-like data (then serde's message
+/// stands alone).
+fn schema_errors(text: &str, locations: &Locations) -> Vec<Diagnostic> {
+    let Ok(yaml) = serde_yaml::from_str::<serde_yaml::Value>(text) else { return Vec::new() };
+    let Ok(instance) = serde_json::to_value(&yaml) else { return Vec::new() };
+    let Ok(mut schema) = serde_json::to_value(schemars::schema_for!(schema::CaseFile)) else { return Vec::new() };
+    unwrap_optional(&mut schema);
+    let Ok(validator) = jsonschema::validator_for(&schema) else { return Vec::new() };
+    validator
+        .iter_errors(&instance)
+        .map(|e| {
+            let key = key_of_pointer(e.instance_path().as_str());
+            let pos = locations.find(&key);
+            Diagnostic { line: pos.map(|p| p.0), column: pos.map(|p| p.1), message: e.to_string(), key }
+        })
+        .collect()
+}
+
+/// Replaces `anyOf: [X, {type: null}]` (how an optional structure reads in
+/// the schema) by X, so that problems inside X are reported where they are
+/// instead of as one "not valid under any of the schemas" on the parent.
+fn unwrap_optional(v: &mut serde_json::Value) {
+    use serde_json::Value;
+    match v {
+        Value::Object(map) => {
+            let inner = match map.get("anyOf") {
+                Some(Value::Array(options)) if options.len() == 2 => {
+                    let is_null = |o: &Value| o.get("type") == Some(&Value::String("null".into()));
+                    match (is_null(&options[0]), is_null(&options[1])) {
+                        (true, false) => Some(options[1].clone()),
+                        (false, true) => Some(options[0].clone()),
+                        _ => None,
+                    }
+                }
+                _ => None,
+            };
+            if let Some(Value::Object(inner)) = inner {
+                map.remove("anyOf");
+                map.extend(inner);
+            }
+            map.values_mut().for_each(unwrap_optional);
+        }
+        Value::Array(items) => items.iter_mut().for_each(unwrap_optional),
+        _ => {}
+    }
+}
+
+/// A JSON pointer (`/stack/layers/1/thickness`) as a key path
+/// (`stack.layers[1].thickness`); names under `materials` stay names.
+fn key_of_pointer(pointer: &str) -> String {
+    let mut key = String::new();
+    let mut previous = "";
+    for raw in pointer.split('/').skip(1) {
+        let segment = raw.replace("~1", "/").replace("~0", "~");
+        if previous != "materials" && !segment.is_empty() && segment.bytes().all(|b| b.is_ascii_digit()) {
+            key.push_str(&format!("[{segment}]"));
+        } else {
+            if !key.is_empty() {
+                key.push('.');
+            }
+            key.push_str(&segment);
+        }
+        previous = raw;
+    }
+    key
 }
 
 /// SHA-256 of `bytes` as 64 lower-case hex digits.
