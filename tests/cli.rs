@@ -111,16 +111,9 @@ fn a_missing_file_is_exit_2() {
 /// where one is close, the key that was probably meant.
 #[test]
 fn all_unknown_keys_are_reported_at_once_with_suggestions() {
-    let dir = std::env::temp_dir().join(format!("hvstack-unknown-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    let file = dir.join("case.yaml");
-    std::fs::write(
-        &file,
+    let (out, err) = check_text(
         "titel: typo\ngeometry: planar\ndomain: { x: [0, 10], y: [0, 10] }\nmaterials:\n  r: { permitivity: 4, source: t }\nparts:\n  - { name: a, electrode: { potential_kv: 5 }, shape: { circle: { centre: [5, 5], radius: 1 } } }\n",
-    )
-    .unwrap();
-    let out = hvstack(&["check", file.to_str().unwrap()]);
-    let err = stderr(&out);
+    );
     assert_eq!(out.status.code(), Some(2));
     for (line, fragment) in
         [(1, "did you mean `title`?"), (5, "did you mean `permittivity`?"), (7, "did you mean `center`?")]
@@ -130,7 +123,17 @@ fn all_unknown_keys_are_reported_at_once_with_suggestions() {
             "{fragment} in {err}"
         );
     }
-    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+/// Checks a case given as text (written to a temporary `case.yaml`):
+/// the output and its stderr.
+fn check_text(text: &str) -> (Output, String) {
+    let dir = tempfile::tempdir().unwrap();
+    let file = dir.path().join("case.yaml");
+    std::fs::write(&file, text).unwrap();
+    let out = hvstack(&["check", file.to_str().unwrap()]);
+    let err = stderr(&out);
+    (out, err)
 }
 
 /// Values of the wrong type are all reported at once too (serde stops at
@@ -138,21 +141,13 @@ fn all_unknown_keys_are_reported_at_once_with_suggestions() {
 /// file, line, column and key.
 #[test]
 fn all_wrong_types_are_reported_at_once() {
-    let dir = std::env::temp_dir().join(format!("hvstack-types-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    let file = dir.join("case.yaml");
-    std::fs::write(
-        &file,
+    let (out, err) = check_text(
         "title: two wrong types\nstack:\n  form: planar\n  voltage_kv: twelve\n  layers:\n    - { name: a, material: ptfe, thickness: 1 }\n    - { name: b, material: mica, thickness: thin }\nprobes:\n  - { name: p, at: [1, \"x\"] }\n",
-    )
-    .unwrap();
-    let out = hvstack(&["check", file.to_str().unwrap()]);
-    let err = stderr(&out);
+    );
     assert_eq!(out.status.code(), Some(2));
     for (line, key) in [(4, "stack.voltage_kv"), (7, "stack.layers[1].thickness"), (9, "probes[0].at[1]")] {
         assert!(err.lines().any(|l| l.contains(&format!("case.yaml:{line}:")) && l.contains(key)), "{key} in {err}");
     }
-    std::fs::remove_dir_all(&dir).unwrap();
 }
 
 /// The table of known keys (used for the all-at-once report) agrees with
