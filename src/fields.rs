@@ -29,6 +29,7 @@ mod inclusion;
 use crate::assemble::{Stencil, is_log_form, radial_weight};
 use crate::case::{Case, ElectrodeKind, Geometry, Normalisation};
 use crate::grid::{CONDUCTOR, CellIx, Grid, Layout, NO_ELECTRODE, NodeIx};
+use crate::shape::dist;
 use std::f64::consts::PI;
 
 /// Charges below this fraction of the largest electrode charge are reported
@@ -89,6 +90,9 @@ pub struct ProbeField {
 pub struct LineField {
     /// Samples in order from the start.
     pub samples: Vec<LineSample>,
+    /// Index of the sample with the largest |E| outside electrodes (the
+    /// first of equal ones within rounding), if any sample is outside.
+    pub peak: Option<usize>,
 }
 
 /// One sample of a line.
@@ -601,10 +605,6 @@ fn quadratic_at_zero(points: &[(f64, f64)]) -> f64 {
     }
 }
 
-fn dist(a: [f64; 2], b: [f64; 2]) -> f64 {
-    (a[0] - b[0]).hypot(a[1] - b[1])
-}
-
 /// Arc length along a closed outline polygon to the point nearest `p`.
 fn arc_position(outline: &[[f64; 2]], p: [f64; 2]) -> f64 {
     let mut best = (f64::INFINITY, 0.0);
@@ -758,8 +758,19 @@ pub fn line_field(sampler: &Sampler, from: [f64; 2], to: [f64; 2], points: usize
                 in_electrode: matches!(s.inside, Inside::Electrode(_)),
             }
         })
-        .collect();
-    LineField { samples }
+        .collect::<Vec<LineSample>>();
+    // Ties within rounding (a uniform field) keep the first sample, so the
+    // location does not depend on solver round-off.
+    let magnitude = |s: &LineSample| s.e[0].hypot(s.e[1]);
+    let peak =
+        samples.iter().enumerate().filter(|(_, s)| !s.in_electrode).fold(
+            None,
+            |best: Option<usize>, (k, s)| match best {
+                Some(b) if magnitude(s) <= magnitude(&samples[b]) * (1.0 + TIE) => Some(b),
+                _ => Some(k),
+            },
+        );
+    LineField { samples, peak }
 }
 
 /// Nodes of an electrode that have a neighbour outside it.

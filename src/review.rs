@@ -74,16 +74,7 @@ pub fn files(
         });
     }
     let listed: Vec<(String, String)> = out.iter().map(|f| (f.name.clone(), f.what.clone())).collect();
-    let page =
-        report::html::render_page(&PageInputs { report, case_file, map_svg: &strip_prolog(&svg), files: &listed });
+    let page = report::html::render_page(&PageInputs { report, case_file, map_svg: &svg, files: &listed });
     out.insert(0, ReviewFile { name: "index.html".into(), what: "review page".into(), bytes: page.into_bytes() });
     Ok(out)
-}
-
-/// The SVG without an XML prolog, for inlining into HTML.
-fn strip_prolog(svg: &str) -> String {
-    match svg.strip_prefix("<?xml") {
-        Some(rest) => rest.split_once("?>").map_or(svg, |(_, s)| s).trim_start().to_string(),
-        None => svg.to_string(),
-    }
 }

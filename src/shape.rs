@@ -87,10 +87,7 @@ impl Shape {
                 Rect { x0: center[0] - radius, x1: center[0] + radius, y0: center[1] - radius, y1: center[1] + radius }
             }
             Shape::RoundedRect { rect, .. } => *rect,
-            Shape::Polygon(v) | Shape::Filleted { points: v, .. } => v.iter().fold(
-                Rect { x0: f64::INFINITY, x1: f64::NEG_INFINITY, y0: f64::INFINITY, y1: f64::NEG_INFINITY },
-                |b, p| Rect { x0: b.x0.min(p[0]), x1: b.x1.max(p[0]), y0: b.y0.min(p[1]), y1: b.y1.max(p[1]) },
-            ),
+            Shape::Polygon(v) | Shape::Filleted { points: v, .. } => bounds_of(v),
         }
     }
 
@@ -408,6 +405,7 @@ pub fn fillet(v: &[[f64; 2]], radius: f64) -> Result<Shape, String> {
     Ok(Shape::Filleted { points, breaks, radius, curved, sharp: Vec::new() })
 }
 
+/// Bounding box of points.
 fn bounds_of(points: &[[f64; 2]]) -> Rect {
     points
         .iter()
@@ -506,7 +504,8 @@ pub fn arced(v: &[[f64; 2]], arcs: &[(usize, f64)]) -> Result<Shape, String> {
     Ok(Shape::Filleted { points, breaks, radius: smallest, curved, sharp })
 }
 
-fn dist(a: [f64; 2], b: [f64; 2]) -> f64 {
+/// Distance between two points.
+pub(crate) fn dist(a: [f64; 2], b: [f64; 2]) -> f64 {
     ((a[0] - b[0]).powi(2) + (a[1] - b[1]).powi(2)).sqrt()
 }
 

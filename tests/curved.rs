@@ -15,19 +15,7 @@ fn peak(yaml: &str, part: &str) -> (f64, Option<f64>) {
 /// 40 mm away each side, E0 = 1 kV/mm.
 #[test]
 fn conducting_cylinder_in_a_uniform_field() {
-    let (e, est) = peak(
-        "
-title: rod in a field
-stack:
-  form: planar
-  voltage_kv: 80
-  width: 80
-  layers: [ { name: gas, material: sf6, thickness: 80 } ]
-parts:
-  - { name: rod, electrode: floating, shape: { circle: { center: [40, 40], radius: 1 } } }
-",
-        "gas",
-    );
+    let (e, est) = peak(&rod_in_a_field("", "{ circle: { center: [40, 40], radius: 1 } }"), "gas");
     assert!((e - 2.0).abs() / 2.0 < 0.005, "peak {e}");
     // the self-check's estimate covers the actual error
     assert!(est.unwrap() / 100.0 >= (e - 2.0).abs() / 2.0, "estimate {est:?} vs error {}", (e - 2.0).abs() / 2.0);
@@ -85,25 +73,30 @@ parts:
     assert!(est.unwrap() / 100.0 >= (peak - e).abs() / e, "estimate {est:?}");
 }
 
-/// Moving the geometry against the grid by a fraction of a step moves the
-/// peak by less than 0.3 % (issue target; grid lines follow the outline's
-/// extremes, so the local grid moves with the shape).
-#[test]
-fn the_peak_does_not_depend_on_where_the_grid_falls() {
-    let case = |c: f64| {
-        format!(
-            "
-title: rod
+/// A floating rod between plates 80 mm apart at 0 and 80 kV (E0 = 1 kV/mm)
+/// in SF6, drawn with `shape`; `grid` is an optional `grid:` line.
+fn rod_in_a_field(grid: &str, shape: &str) -> String {
+    format!(
+        "
+title: rod in a field
+{grid}
 stack:
   form: planar
   voltage_kv: 80
   width: 80
   layers: [ {{ name: gas, material: sf6, thickness: 80 }} ]
 parts:
-  - {{ name: rod, electrode: floating, shape: {{ circle: {{ center: [{c}, {c}], radius: 1 }} }} }}
+  - {{ name: rod, electrode: floating, shape: {shape} }}
 "
-        )
-    };
+    )
+}
+
+/// Moving the geometry against the grid by a fraction of a step moves the
+/// peak by less than 0.3 % (issue target; grid lines follow the outline's
+/// extremes, so the local grid moves with the shape).
+#[test]
+fn the_peak_does_not_depend_on_where_the_grid_falls() {
+    let case = |c: f64| rod_in_a_field("", &format!("{{ circle: {{ center: [{c}, {c}], radius: 1 }} }}"));
     let (a, _) = peak(&case(40.0), "gas");
     for shift in [0.037, 0.29, 0.61] {
         let (b, _) = peak(&case(40.0 + shift), "gas");
@@ -218,22 +211,8 @@ fn void_peaks_do_not_depend_on_where_the_grid_falls() {
 #[test]
 fn curved_electrode_peaks_hold_under_refinement() {
     for cells in [8, 16, 32] {
-        let (e, est) = peak(
-            &format!(
-                "
-title: rod in a field
-grid: {{ cells_across: {cells} }}
-stack:
-  form: planar
-  voltage_kv: 80
-  width: 80
-  layers: [ {{ name: gas, material: sf6, thickness: 80 }} ]
-parts:
-  - {{ name: rod, electrode: floating, shape: {{ circle: {{ center: [40, 40], radius: 1 }} }} }}
-"
-            ),
-            "gas",
-        );
+        let grid = format!("grid: {{ cells_across: {cells} }}");
+        let (e, est) = peak(&rod_in_a_field(&grid, "{ circle: { center: [40, 40], radius: 1 } }"), "gas");
         let error = (e - 2.0).abs() / 2.0;
         assert!(error < 0.005, "{cells} cells: peak {e}");
         assert!(est.unwrap() / 100.0 >= error, "{cells} cells: estimate {est:?} vs {error}");
@@ -291,24 +270,15 @@ fn image_series(radius: f64, gap: f64, v: f64) -> f64 {
 /// 3·E0 as above, within 0.5 %, no sharp-edge finding.
 #[test]
 fn arced_profiles_match_the_circles() {
-    let rod = "
-title: rod drawn with arcs
-stack:
-  form: planar
-  voltage_kv: 80
-  width: 80
-  layers: [ { name: gas, material: sf6, thickness: 80 } ]
-parts:
-  - name: rod
-    electrode: floating
-    shape:
-      polygon: [[39, 40], [40, 39], [41, 40], [40, 41]]
-      arcs: [ { edge: 0, radius: 1 }, { edge: 1, radius: 1 }, { edge: 2, radius: 1 }, { edge: 3, radius: 1 } ]
-";
+    let rod = rod_in_a_field(
+        "",
+        "{ polygon: [[39, 40], [40, 39], [41, 40], [40, 41]], \
+         arcs: [ { edge: 0, radius: 1 }, { edge: 1, radius: 1 }, { edge: 2, radius: 1 }, { edge: 3, radius: 1 } ] }",
+    );
     let ball = ball_in_a_field(
         "{ polygon: [[0, 39], [1, 40], [0, 41]], arcs: [ { edge: 0, radius: 1 }, { edge: 1, radius: 1 } ] }",
     );
-    for (yaml, part, exact) in [(rod, "gas", 2.0), (ball.as_str(), "background", 3.0)] {
+    for (yaml, part, exact) in [(rod.as_str(), "gas", 2.0), (ball.as_str(), "background", 3.0)] {
         let r = hvstack::check(yaml, "arcs.yaml", &hvstack::Options::default()).unwrap();
         let p = r.parts.iter().find(|p| p.name == part).unwrap();
         let error = (p.e_max_kv_per_mm - exact).abs() / exact;

@@ -7,7 +7,7 @@
 //! vision deficiency; hue turns from indigo through teal to sand and the
 //! chroma stays moderate so every step is in the sRGB gamut or close to it.
 
-use palette::{Clamp, FromColor, Oklab, Oklch, Srgb};
+use palette::{Clamp, FromColor, Oklch, Srgb};
 
 /// Entries of the lookup table.
 pub const STEPS: usize = 256;
@@ -35,25 +35,26 @@ pub fn table() -> Vec<[u8; 3]> {
     (0..STEPS).map(|k| at(k as f64 / (STEPS - 1) as f64)).collect()
 }
 
-/// Oklab lightness of an 8-bit sRGB colour (for tests of the scale).
-pub fn lightness(rgb: [u8; 3]) -> f32 {
-    let c: Srgb<f32> = Srgb::new(rgb[0], rgb[1], rgb[2]).into_format();
-    Oklab::from_color(c).l
-}
-
-/// Oklab distance between two 8-bit sRGB colours.
-pub fn distance(a: [u8; 3], b: [u8; 3]) -> f32 {
-    let lab = |v: [u8; 3]| {
-        let c: Srgb<f32> = Srgb::new(v[0], v[1], v[2]).into_format();
-        Oklab::from_color(c)
-    };
-    let (p, q) = (lab(a), lab(b));
-    ((p.l - q.l).powi(2) + (p.a - q.a).powi(2) + (p.b - q.b).powi(2)).sqrt()
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
+    use palette::Oklab;
+
+    /// Oklab lightness of an 8-bit sRGB colour (for tests of the scale).
+    fn lightness(rgb: [u8; 3]) -> f32 {
+        let c: Srgb<f32> = Srgb::new(rgb[0], rgb[1], rgb[2]).into_format();
+        Oklab::from_color(c).l
+    }
+
+    /// Oklab distance between two 8-bit sRGB colours.
+    fn distance(a: [u8; 3], b: [u8; 3]) -> f32 {
+        let lab = |v: [u8; 3]| {
+            let c: Srgb<f32> = Srgb::new(v[0], v[1], v[2]).into_format();
+            Oklab::from_color(c)
+        };
+        let (p, q) = (lab(a), lab(b));
+        ((p.l - q.l).powi(2) + (p.a - q.a).powi(2) + (p.b - q.b).powi(2)).sqrt()
+    }
 
     #[test]
     fn lightness_rises_evenly_along_the_scale() {

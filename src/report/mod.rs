@@ -294,9 +294,6 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
     }
 }
 
-/// Relative difference under which two line samples count as equal.
-const LINE_TIE: f64 = 1e-6;
-
 /// Rounds a position in mm to 1e-9 mm, dropping the float noise of
 /// m → mm conversion (3.4650000000000007 → 3.465).
 fn clean(mm: f64) -> f64 {
@@ -318,15 +315,7 @@ fn line_out(line: &crate::case::Line, field: &crate::fields::LineField) -> LineO
             part: s.part.clone(),
         })
         .collect();
-    let peak = field.samples.iter().zip(&samples).filter(|(s, _)| !s.in_electrode).map(|(_, o)| o).fold(
-        None,
-        // Ties within rounding (a uniform field) keep the first sample, so
-        // the location does not depend on solver round-off.
-        |best: Option<&LineSampleOut>, o| match best {
-            Some(b) if o.e_kv_per_mm <= b.e_kv_per_mm * (1.0 + LINE_TIE) => Some(b),
-            _ => Some(o),
-        },
-    );
+    let peak = field.peak.map(|k| &samples[k]);
     LineOut {
         name: line.name.clone(),
         from_mm: line.from.map(to_mm),
