@@ -113,6 +113,9 @@ pub enum FindingKind {
     MeshUnbracketed,
     /// The coarser grids could not be solved; no peak could be checked.
     MeshCheckFailed,
+    /// A legal input value lies outside the range usual in insulation work
+    /// (a probable unit slip).
+    ImplausibleInput(crate::case::Implausible),
     /// A user value lies outside the range published for its base material.
     ValueOutOfRange {
         /// Material name.
@@ -140,6 +143,7 @@ impl FindingKind {
             FindingKind::MeshUnbracketed => "mesh-check-unbracketed",
             FindingKind::MeshCheckFailed => "mesh-check-failed",
             FindingKind::ValueOutOfRange { .. } => "value-out-of-range",
+            FindingKind::ImplausibleInput(_) => "implausible-input",
         }
     }
 
@@ -306,6 +310,10 @@ pub fn assess(case: &Case, layout: &Layout, fields: &Fields, check: Option<&Mesh
                 part: None,
             });
         }
+    }
+
+    for note in &case.implausible {
+        findings.push(Finding { kind: FindingKind::ImplausibleInput(note.clone()), part: note.owner.clone() });
     }
 
     if check.is_none() {

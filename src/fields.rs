@@ -140,6 +140,36 @@ pub struct Fields {
     pub lines: Vec<LineField>,
 }
 
+impl Fields {
+    /// The first result that is not a finite number, named (`None` when
+    /// all are finite). A solve that converged gives finite fields; this is
+    /// the last guard against a verdict from numbers that mean nothing.
+    pub fn first_non_finite(&self) -> Option<String> {
+        let bad = |v: f64| !v.is_finite();
+        // an empty region, or one without a peak, has no location (NaN)
+        for (k, r) in self.regions.iter().enumerate().filter(|(_, r)| r.cells > 0) {
+            if bad(r.e_max) || bad(r.e_mean) || (r.e_max > 0.0 && r.e_max_at.iter().any(|&v| bad(v))) {
+                return Some(format!("the field of region {k}"));
+            }
+        }
+        if let Some(k) = self.electrodes.iter().position(|e| bad(e.potential) || bad(e.charge)) {
+            return Some(format!("the potential or charge of electrode {k}"));
+        }
+        if bad(self.energy) || bad(self.energy_from_cells) {
+            return Some("the stored energy".into());
+        }
+        if let Some(k) = self.probes.iter().position(|p| bad(p.potential) || bad(p.e)) {
+            return Some(format!("probe {k}"));
+        }
+        if let Some(k) =
+            self.lines.iter().position(|l| l.samples.iter().any(|s| bad(s.potential) || s.e.iter().any(|&v| bad(v))))
+        {
+            return Some(format!("line {k}"));
+        }
+        None
+    }
+}
+
 /// Edge values of a nodal potential (see the module docs).
 #[derive(Debug, Clone)]
 struct EdgeValues {
@@ -705,9 +735,14 @@ impl<'a> Sampler<'a> {
     }
 
     /// The field at `at` (m); points outside the domain are clamped to it.
+    /// A point on the boundary between an electrode and insulation (an
+    /// electrode outline on a grid line) is evaluated on the insulation
+    /// side: of the cells that touch it, the first that is not inside an
+    /// electrode.
     pub fn at(&self, at: [f64; 2]) -> Sample {
         let (grid, layout, phi, ev) = (self.grid, self.layout, self.phi, &self.ev);
-        let c = grid.locate(at);
+        let c =
+            grid.cells_touching(at).find(|c| layout.cell_region[c.0] != CONDUCTOR).unwrap_or_else(|| grid.locate(at));
         let (i, j) = grid.cell_ij(c);
         let nx = grid.nx();
         let s = ((at[0] - grid.x[i]) / (grid.x[i + 1] - grid.x[i])).clamp(0.0, 1.0);

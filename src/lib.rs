@@ -108,6 +108,18 @@ pub enum Error {
         /// The problem.
         source: SolveError,
     },
+    /// The solve converged but a result is not a finite number; no verdict
+    /// may be given.
+    #[error(
+        "{file}: {what} is not a finite number although the solve converged; no verdict is given (check for extreme \
+         sizes, potentials or material values)"
+    )]
+    NonFinite {
+        /// Case file name.
+        file: String,
+        /// Which result.
+        what: String,
+    },
 }
 
 /// A case made ready to solve: grid, layout, stencil and system.
@@ -194,22 +206,26 @@ impl Prepared {
         Some(meshcheck::compare([&fine.regions, &coarser[0].1, &coarser[1].1], nodes))
     }
 
-    /// Fields, self-check and assessment of a solution.
+    /// Fields, self-check and assessment of a solution; an error when a
+    /// field result is not finite.
     pub fn evaluate(
         &self,
         solution: &Solution,
         options: &Options,
-    ) -> (fields::Fields, Option<meshcheck::MeshCheck>, assess::Assessment) {
+    ) -> Result<(fields::Fields, Option<meshcheck::MeshCheck>, assess::Assessment), Error> {
         let f = self.fields(solution);
+        if let Some(what) = f.first_non_finite() {
+            return Err(Error::NonFinite { file: self.file.clone(), what });
+        }
         let check = self.self_check(&f, options);
         let a = assess::assess(&self.case, &self.layout, &f, check.as_ref());
-        (f, check, a)
+        Ok((f, check, a))
     }
 
     /// The result model; `seconds` is the solve time measured by the caller.
-    pub fn report(&self, solution: &Solution, options: &Options, seconds: f64) -> report::CheckReport {
-        let (f, check, a) = self.evaluate(solution, options);
-        report::build(
+    pub fn report(&self, solution: &Solution, options: &Options, seconds: f64) -> Result<report::CheckReport, Error> {
+        let (f, check, a) = self.evaluate(solution, options)?;
+        Ok(report::build(
             &report::Inputs {
                 case: &self.case,
                 grid: &self.grid,
@@ -220,7 +236,7 @@ impl Prepared {
                 assessment: &a,
             },
             seconds,
-        )
+        ))
     }
 }
 
@@ -229,5 +245,5 @@ pub fn check(text: &str, file: &str, options: &Options) -> Result<report::CheckR
     let case = case::parse(text, file)?;
     let prepared = prepare(case, file, options)?;
     let solution = prepared.solve(&options.solve)?;
-    Ok(prepared.report(&solution, options, 0.0))
+    prepared.report(&solution, options, 0.0)
 }

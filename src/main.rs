@@ -2,7 +2,11 @@
 //! and maps outcomes to exit status 0 (pass), 1 (review or fail) and 2 (the
 //! case could not be evaluated).
 
+mod cli;
+
 use clap::{Parser, Subcommand, ValueEnum};
+use cli::input::{self, Entry, shown};
+use cli::output::{self, Staging};
 use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -50,9 +54,11 @@ enum Command {
         /// Output format (a batch prints its summary rows as a JSON array).
         #[arg(long, value_enum, default_value = "text")]
         format: Format,
-        /// Refuse grids above this many nodes (exit 2) instead of running out of time or memory.
-        #[arg(long, default_value_t = hvstack::DEFAULT_MAX_NODES)]
-        max_nodes: usize,
+        /// Refuse grids above this many nodes (exit 2) instead of running out of time or memory;
+        /// at most 2147483648 (the solver's 32-bit indices).
+        #[arg(long, default_value_t = hvstack::DEFAULT_MAX_NODES as u64,
+              value_parser = clap::value_parser!(u64).range(1..=hvstack::grid::MAX_SUPPORTED_NODES as u64))]
+        max_nodes: u64,
         /// Cases checked at once in a batch (each solve also uses every core).
         #[arg(long, default_value_t = 1, value_parser = clap::value_parser!(u16).range(1..=256))]
         jobs: u16,
@@ -110,6 +116,7 @@ fn parse_shard(s: &str) -> Result<(usize, usize), String> {
 
 /// Prints to stdout; a closed pipe is not an error.
 fn emit(text: &str) -> ExitCode {
+    cli::signals::outputs().stdout_started = true;
     let mut out = std::io::stdout().lock();
     match out.write_all(text.as_bytes()).and_then(|_| out.flush()) {
         Ok(()) => ExitCode::SUCCESS,
@@ -128,6 +135,12 @@ fn json<T: serde::Serialize>(value: &T) -> String {
     s
 }
 
+/// Prints a message to stderr and gives exit status 2.
+fn refuse(message: &str) -> ExitCode {
+    eprintln!("{message}");
+    ExitCode::from(2)
+}
+
 type ReviewFiles = Vec<hvstack::review::ReviewFile>;
 
 /// Reads, evaluates and reports one case, with its review files when
@@ -137,8 +150,9 @@ fn run_case(
     max_nodes: usize,
     review: bool,
 ) -> Result<(hvstack::report::CheckReport, Option<ReviewFiles>), String> {
-    let file = path.display().to_string();
-    let text = std::fs::read_to_string(path).map_err(|e| format!("{file}: cannot read the case: {e}"))?;
+    let file = shown(path);
+    let bytes = input::read_regular(path, "case")?;
+    let text = hvstack::case::decode(&bytes, &file).map_err(|e| e.to_string())?;
     let mut options = hvstack::Options::default();
     options.limits.max_nodes = max_nodes;
     let case = hvstack::case::parse(&text, &file).map_err(|e| e.to_string())?;
@@ -146,7 +160,7 @@ fn run_case(
     let started = Instant::now();
     let solution = prepared.solve(&options.solve).map_err(|e| e.to_string())?;
     let seconds = started.elapsed().as_secs_f64();
-    let report = prepared.report(&solution, &options, seconds);
+    let report = prepared.report(&solution, &options, seconds).map_err(|e| e.to_string())?;
     let files = if review {
         Some(
             hvstack::review::files(&prepared, &solution, &report, &file)
@@ -158,149 +172,22 @@ fn run_case(
     Ok((report, files))
 }
 
-/// Review folders being staged, removed if the run is interrupted.
-static STAGED: std::sync::Mutex<Vec<PathBuf>> = std::sync::Mutex::new(Vec::new());
-
-/// Marks a folder as an hvstack review folder, which `--report` may replace.
-const REVIEW_MARKER: &str = ".hvstack-review";
-
-/// A review folder built beside its destination and swapped in whole by
-/// `commit`, so an interrupted run leaves the previous review intact.
-struct Staging {
-    dir: tempfile::TempDir,
-    dest: PathBuf,
-}
-
-impl Staging {
-    fn new(dest: &Path) -> Result<Staging, String> {
-        let shown = dest.display();
-        if dest.exists() {
-            let entries =
-                std::fs::read_dir(dest).map_err(|e| format!("{shown}: cannot use as a review folder: {e}"))?;
-            let empty = entries.count() == 0;
-            if !empty && !dest.join(REVIEW_MARKER).is_file() {
-                return Err(format!(
-                    "{shown}: exists and is not an hvstack review folder; name a new or empty folder (it is replaced \
-                     whole on every run)"
-                ));
-            }
-        }
-        let parent = dest.parent().filter(|d| !d.as_os_str().is_empty()).unwrap_or(Path::new("."));
-        std::fs::create_dir_all(parent).map_err(|e| format!("{}: cannot create: {e}", parent.display()))?;
-        let dir = tempfile::Builder::new()
-            .prefix(".hvstack-review-")
-            .tempdir_in(parent)
-            .map_err(|e| format!("{}: cannot write: {e}", parent.display()))?;
-        if let Ok(mut staged) = STAGED.lock() {
-            staged.push(dir.path().to_path_buf());
-        }
-        Ok(Staging { dir, dest: dest.to_path_buf() })
-    }
-
-    /// Writes files into `sub` ("" for the top) of the staged folder.
-    fn write(&self, sub: &str, files: &[hvstack::review::ReviewFile]) -> Result<(), String> {
-        let dir = self.dir.path().join(sub);
-        std::fs::create_dir_all(&dir).map_err(|e| format!("{}: cannot create: {e}", self.dest.join(sub).display()))?;
-        for f in files {
-            std::fs::write(dir.join(&f.name), &f.bytes)
-                .map_err(|e| format!("{}: cannot write: {e}", self.dest.join(sub).join(&f.name).display()))?;
-        }
-        Ok(())
-    }
-
-    /// Swaps the staged folder in place of the destination.
-    fn commit(self) -> Result<(), String> {
-        let shown = self.dest.display().to_string();
-        let marker = "Written by hvstack check --report; the whole folder is replaced on every run.\n";
-        std::fs::write(self.dir.path().join(REVIEW_MARKER), marker).map_err(|e| format!("{shown}: {e}"))?;
-        let staged = self.dir.keep();
-        if let Ok(mut list) = STAGED.lock() {
-            list.retain(|p| p != &staged);
-        }
-        let old = if self.dest.exists() {
-            let parent = staged.parent().unwrap_or(Path::new("."));
-            let old = tempfile::Builder::new()
-                .prefix(".hvstack-old-")
-                .tempdir_in(parent)
-                .map_err(|e| format!("{shown}: cannot replace: {e}"))?
-                .keep();
-            let old = old.join("review");
-            std::fs::rename(&self.dest, &old).map_err(|e| format!("{shown}: cannot replace: {e}"))?;
-            Some(old)
-        } else {
-            None
-        };
-        std::fs::rename(&staged, &self.dest).map_err(|e| format!("{shown}: cannot replace: {e}"))?;
-        if let Some(old) = old
-            && let Some(holder) = old.parent()
-        {
-            let _ = std::fs::remove_dir_all(holder);
-        }
-        Ok(())
-    }
-}
-
-/// A result as JSON: read from a .json file, or computed from a case file.
+/// A result as JSON: read from a .json file (which must be an hvstack
+/// result), or computed from a case file.
 fn result_value(path: &Path) -> Result<serde_json::Value, String> {
+    let name = shown(path);
     if path.extension().and_then(|e| e.to_str()) == Some("json") {
-        let text = std::fs::read_to_string(path).map_err(|e| format!("{}: cannot read: {e}", path.display()))?;
-        serde_json::from_str(&text).map_err(|e| format!("{}:{}: not a result JSON: {e}", path.display(), e.line()))
+        let bytes = input::read_regular(path, "result")?;
+        let value: serde_json::Value = serde_json::from_slice(&bytes)
+            .map_err(|e| format!("{name}:{}:{}: not a result JSON: {e}", e.line(), e.column()))?;
+        match hvstack::report::diff::not_a_result(&value) {
+            None => Ok(value),
+            Some(why) => Err(format!("{name}: not an hvstack result (from `check --format json`): it {why}")),
+        }
     } else {
         let (report, _) = run_case(path, hvstack::DEFAULT_MAX_NODES, false)?;
-        serde_json::to_value(&report).map_err(|e| format!("{}: {e}", path.display()))
+        serde_json::to_value(&report).map_err(|e| format!("{name}: {e}"))
     }
-}
-
-/// The case files of a batch: files as given, folders searched recursively
-/// for *.yaml and *.yml, sorted; each with the name of its review subfolder
-/// (its path below the folder given, or its stem, without the extension;
-/// made unique with a suffix).
-fn collect(paths: &[PathBuf]) -> Result<Vec<(PathBuf, String)>, String> {
-    let mut files: Vec<(PathBuf, String)> = Vec::new();
-    let mut seen = std::collections::BTreeSet::new();
-    let mut add = |files: &mut Vec<(PathBuf, String)>, f: PathBuf, key: String| {
-        let mut unique = key.clone();
-        let mut n = 2;
-        while !seen.insert(unique.clone()) {
-            unique = format!("{key}-{n}");
-            n += 1;
-        }
-        files.push((f, unique));
-    };
-    let stem_key = |f: &Path| f.with_extension("").to_string_lossy().replace('\\', "/");
-    for p in paths {
-        if p.is_dir() {
-            let mut found: Vec<PathBuf> = walkdir::WalkDir::new(p)
-                .into_iter()
-                .filter_map(Result::ok)
-                .filter(|e| e.file_type().is_file())
-                .map(|e| e.into_path())
-                .filter(|f| matches!(f.extension().and_then(|e| e.to_str()), Some("yaml" | "yml")))
-                .collect();
-            if found.is_empty() {
-                return Err(format!("{}: no case files (*.yaml, *.yml) in this folder", p.display()));
-            }
-            found.sort();
-            for f in found {
-                let key = stem_key(f.strip_prefix(p).unwrap_or(&f));
-                add(&mut files, f, key);
-            }
-        } else {
-            let key = p.file_stem().map_or_else(|| "case".to_string(), |s| s.to_string_lossy().into_owned());
-            add(&mut files, p.clone(), key);
-        }
-    }
-    Ok(files)
-}
-
-/// Writes a file atomically: a temporary file beside it, then a rename, so
-/// an interrupted run leaves any previous file intact.
-fn write_atomically(path: &Path, contents: &str) -> Result<(), String> {
-    let dir = path.parent().filter(|d| !d.as_os_str().is_empty()).unwrap_or(Path::new("."));
-    let mut tmp = tempfile::NamedTempFile::new_in(dir).map_err(|e| format!("{}: cannot write: {e}", path.display()))?;
-    tmp.write_all(contents.as_bytes()).map_err(|e| format!("{}: cannot write: {e}", path.display()))?;
-    tmp.persist(path).map_err(|e| format!("{}: cannot write: {}", path.display(), e.error))?;
-    Ok(())
 }
 
 struct BatchOptions {
@@ -316,50 +203,61 @@ struct BatchOptions {
 fn batch(paths: &[PathBuf], o: &BatchOptions) -> ExitCode {
     use hvstack::report::summary;
     use rayon::prelude::*;
-    let files = match collect(paths) {
+    let entries = match input::collect(paths) {
         Ok(f) => f,
-        Err(e) => {
-            eprintln!("{e}");
-            return ExitCode::from(2);
-        }
+        Err(e) => return refuse(&e),
     };
-    // Slice I of N takes every N-th case from the sorted list: disjoint
+    // Slice I of N takes every N-th entry from the sorted list: disjoint
     // slices that together cover the batch, balanced by count.
-    let files: Vec<(PathBuf, String)> = match o.shard {
-        Some((i, n)) => files.into_iter().enumerate().filter(|(k, _)| k % n == i - 1).map(|(_, f)| f).collect(),
-        None => files,
+    let entries: Vec<Entry> = match o.shard {
+        Some((i, n)) => entries.into_iter().enumerate().filter(|(k, _)| k % n == i - 1).map(|(_, f)| f).collect(),
+        None => entries,
     };
-    let staging = match o.report.as_deref().map(Staging::new).transpose() {
+    let inputs: Vec<PathBuf> = entries
+        .iter()
+        .map(|e| match e {
+            Entry::Case(p, _) | Entry::Refused(p, _) => p.clone(),
+        })
+        .collect();
+    if let Some(path) = &o.junit
+        && let Err(e) = output::junit_target(path, &inputs, o.report.as_deref())
+    {
+        return refuse(&e);
+    }
+    let staging = match o.report.as_deref().map(|d| Staging::new(d, &inputs)).transpose() {
         Ok(s) => s,
-        Err(e) => {
-            eprintln!("{e}");
-            return ExitCode::from(2);
-        }
+        Err(e) => return refuse(&e),
     };
-    let bar = if o.quiet { indicatif::ProgressBar::hidden() } else { indicatif::ProgressBar::new(files.len() as u64) };
+    let bar =
+        if o.quiet { indicatif::ProgressBar::hidden() } else { indicatif::ProgressBar::new(entries.len() as u64) };
     let pool = match rayon::ThreadPoolBuilder::new().num_threads(o.jobs as usize).build() {
         Ok(p) => p,
-        Err(e) => {
-            eprintln!("hvstack: cannot start {} jobs: {e}", o.jobs);
-            return ExitCode::from(2);
-        }
+        Err(e) => return refuse(&format!("hvstack: cannot start {} jobs: {e}", o.jobs)),
     };
     // Cases run in parallel; results come back in file order. Review files
     // go to disk as each case ends, so a batch holds one case's at a time.
     let done: Vec<(summary::SummaryRow, Option<String>)> = pool.install(|| {
-        files
+        entries
             .par_iter()
-            .map(|(f, key)| {
-                let name = f.display().to_string();
-                let out = match run_case(f, o.max_nodes, staging.is_some()) {
-                    Ok((r, review)) => match (&staging, review) {
-                        (Some(st), Some(files)) => match st.write(key, &files) {
-                            Ok(()) => (summary::row(&name, &r), Some(key.clone())),
+            .map(|entry| {
+                let out = match entry {
+                    Entry::Refused(f, why) => {
+                        let name = shown(f);
+                        (summary::error_row(&name, &format!("{name}: {why}")), None)
+                    }
+                    Entry::Case(f, key) => {
+                        let name = shown(f);
+                        match run_case(f, o.max_nodes, staging.is_some()) {
+                            Ok((r, review)) => match (&staging, review) {
+                                (Some(st), Some(files)) => match st.write(key, &files) {
+                                    Ok(()) => (summary::row(&name, &r), Some(key.clone())),
+                                    Err(e) => (summary::error_row(&name, &e), None),
+                                },
+                                _ => (summary::row(&name, &r), None),
+                            },
                             Err(e) => (summary::error_row(&name, &e), None),
-                        },
-                        _ => (summary::row(&name, &r), None),
-                    },
-                    Err(e) => (summary::error_row(&name, &e), None),
+                        }
+                    }
                 };
                 bar.inc(1);
                 out
@@ -376,15 +274,13 @@ fn batch(paths: &[PathBuf], o: &BatchOptions) -> ExitCode {
             bytes: index.into_bytes(),
         };
         if let Err(e) = st.write("", &[page]).and_then(|_| st.commit()) {
-            eprintln!("{e}");
-            return ExitCode::from(2);
+            return refuse(&e);
         }
     }
     if let Some(path) = &o.junit
-        && let Err(e) = write_atomically(path, &summary::junit_xml(&rows))
+        && let Err(e) = output::write_junit(path, &inputs, o.report.as_deref(), &summary::junit_xml(&rows))
     {
-        eprintln!("{e}");
-        return ExitCode::from(2);
+        return refuse(&e);
     }
     let code = emit(&match o.format {
         Format::Text => summary::render_summary(&rows),
@@ -393,51 +289,46 @@ fn batch(paths: &[PathBuf], o: &BatchOptions) -> ExitCode {
     if code != ExitCode::SUCCESS { code } else { ExitCode::from(summary::exit_status(&rows)) }
 }
 
-fn main() -> ExitCode {
-    // Outputs are written whole at the end (stdout in one write, files by
-    // rename), so an interrupt loses nothing: say so and stop.
-    let _ = ctrlc::set_handler(|| {
-        if let Ok(staged) = STAGED.try_lock() {
-            for dir in staged.iter() {
-                let _ = std::fs::remove_dir_all(dir);
+/// One case: its full report, and its review folder when asked.
+fn single(path: &Path, format: Format, max_nodes: usize, report: Option<&Path>) -> ExitCode {
+    let staging = match report.map(|d| Staging::new(d, &[path.to_path_buf()])).transpose() {
+        Ok(s) => s,
+        Err(e) => return refuse(&e),
+    };
+    match run_case(path, max_nodes, staging.is_some()) {
+        Ok((report, review)) => {
+            if let (Some(st), Some(files)) = (staging, review)
+                && let Err(e) = st.write("", &files).and_then(|_| st.commit())
+            {
+                return refuse(&e);
             }
+            let pass = report.verdict == hvstack::report::VerdictOut::Pass;
+            let code = emit(&match format {
+                Format::Text => hvstack::report::render_text(&report),
+                Format::Json => json(&report),
+            });
+            if code != ExitCode::SUCCESS || pass { code } else { ExitCode::from(1) }
         }
-        eprintln!("hvstack: interrupted; nothing was written (earlier outputs are intact)");
-        std::process::exit(130);
-    });
+        Err(message) => refuse(&message),
+    }
+}
+
+fn main() -> ExitCode {
+    // SIGINT, SIGTERM and SIGHUP wait for any write in progress, remove
+    // staged folders and say which outputs are complete (cli::signals).
+    if let Err(e) = cli::signals::install() {
+        eprintln!("hvstack: cannot install the interrupt handler: {e}");
+    }
     let cli = Cli::parse();
     match cli.command {
         Command::Check { paths, format, max_nodes, jobs, junit, quiet, shard, report } => {
-            let single = paths.len() == 1 && !paths[0].is_dir() && junit.is_none() && shard.is_none();
-            if !single {
-                return batch(&paths, &BatchOptions { format, max_nodes, jobs, junit, quiet, shard, report });
-            }
-            let staging = match report.as_deref().map(Staging::new).transpose() {
-                Ok(s) => s,
-                Err(e) => {
-                    eprintln!("{e}");
-                    return ExitCode::from(2);
-                }
-            };
-            match run_case(&paths[0], max_nodes, staging.is_some()) {
-                Ok((report, review)) => {
-                    if let (Some(st), Some(files)) = (staging, review)
-                        && let Err(e) = st.write("", &files).and_then(|_| st.commit())
-                    {
-                        eprintln!("{e}");
-                        return ExitCode::from(2);
-                    }
-                    let pass = report.verdict == hvstack::report::VerdictOut::Pass;
-                    let code = emit(&match format {
-                        Format::Text => hvstack::report::render_text(&report),
-                        Format::Json => json(&report),
-                    });
-                    if code != ExitCode::SUCCESS || pass { code } else { ExitCode::from(1) }
-                }
-                Err(message) => {
-                    eprintln!("{message}");
-                    ExitCode::from(2)
-                }
+            // the parser bounds it by MAX_SUPPORTED_NODES, which fits usize
+            let max_nodes = usize::try_from(max_nodes).unwrap_or(hvstack::grid::MAX_SUPPORTED_NODES);
+            let one = paths.len() == 1 && !paths[0].is_dir() && junit.is_none() && shard.is_none();
+            if one {
+                single(&paths[0], format, max_nodes, report.as_deref())
+            } else {
+                batch(&paths, &BatchOptions { format, max_nodes, jobs, junit, quiet, shard, report })
             }
         }
         Command::Diff { old, new, format } => match (result_value(&old), result_value(&new)) {
@@ -448,10 +339,7 @@ fn main() -> ExitCode {
                     Format::Json => json(&d),
                 })
             }
-            (Err(e), _) | (_, Err(e)) => {
-                eprintln!("{e}");
-                ExitCode::from(2)
-            }
+            (Err(e), _) | (_, Err(e)) => refuse(&e),
         },
         Command::Schema => emit(&hvstack::case::json_schema()),
         Command::Materials { format } => {

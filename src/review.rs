@@ -36,6 +36,29 @@ pub enum ReviewError {
     Json(#[from] serde_json::Error),
 }
 
+/// Longest file-name stem made from a line name, in bytes.
+const LINE_STEM_BYTES: usize = 60;
+
+/// The CSV file name of each line, in order: `line-STEM.csv`, where STEM
+/// keeps the name's ASCII letters, digits, '-' and '_' and turns every other
+/// run of characters into one '-' (so any printable name is safe on every
+/// file system and cannot leave the folder), made unique with `-2`, `-3`, …
+pub fn line_file_names<'a>(names: impl Iterator<Item = &'a str>) -> Vec<String> {
+    let mut taken = std::collections::BTreeSet::new();
+    names
+        .map(|name| {
+            let stem = crate::case::text::file_stem(name, LINE_STEM_BYTES, "line");
+            let mut file = format!("line-{stem}.csv");
+            let mut n = 2;
+            while !taken.insert(file.to_ascii_lowercase()) {
+                file = format!("line-{stem}-{n}.csv");
+                n += 1;
+            }
+            file
+        })
+        .collect()
+}
+
 /// Zoom of the PNG map relative to the SVG (sharper text and lines).
 const PNG_ZOOM: f32 = 2.0;
 
@@ -65,16 +88,45 @@ pub fn files(
             bytes: crate::export::vtk(&prepared.case, &prepared.grid, &prepared.layout, &solution.phi).into_bytes(),
         },
     ];
-    for l in &report.lines {
+    let line_files = line_file_names(report.lines.iter().map(|l| l.name.as_str()));
+    for (l, name) in report.lines.iter().zip(&line_files) {
         let bytes = report::line_csv(l).map_err(|source| ReviewError::Csv { line: l.name.clone(), source })?;
         out.push(ReviewFile {
-            name: format!("line-{}.csv", l.name),
+            name: name.clone(),
             what: format!("field along line {} ({} samples)", l.name, l.points),
             bytes,
         });
     }
     let listed: Vec<(String, String)> = out.iter().map(|f| (f.name.clone(), f.what.clone())).collect();
-    let page = report::html::render_page(&PageInputs { report, case_file, map_svg: &svg, files: &listed });
+    let page = report::html::render_page(&PageInputs {
+        report,
+        case_file,
+        map_svg: &svg,
+        files: &listed,
+        line_files: &line_files,
+    });
     out.insert(0, ReviewFile { name: "index.html".into(), what: "review page".into(), bytes: page.into_bytes() });
     Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn line_files_are_safe_and_unique() {
+        let names = ["through void", "through-void", "../../etc/x", "Ω", "A", "a"];
+        let files = line_file_names(names.into_iter());
+        assert_eq!(
+            files,
+            [
+                "line-through-void.csv",
+                "line-through-void-2.csv",
+                "line-etc-x.csv",
+                "line-line.csv",
+                "line-A.csv",
+                "line-a-2.csv"
+            ]
+        );
+    }
 }

@@ -504,6 +504,72 @@ pub fn arced(v: &[[f64; 2]], arcs: &[(usize, f64)]) -> Result<Shape, String> {
     Ok(Shape::Filleted { points, breaks, radius: smallest, curved, sharp })
 }
 
+/// Two edges of a closed outline that cross or touch although they are not
+/// neighbours (the outline is not simple: a bow-tie, a loop).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Crossing {
+    /// The two edges (edge i runs from point i to point i + 1).
+    pub edges: (usize, usize),
+    /// A point where they meet.
+    pub at: [f64; 2],
+}
+
+/// The first pair of non-neighbouring edges of the closed outline `v` that
+/// meet, if any. Zero-length edges are skipped. A sweep over the edges
+/// sorted by their smallest x compares only edges whose x ranges overlap,
+/// so sampled arcs of thousands of points stay cheap.
+pub fn self_crossing(v: &[[f64; 2]]) -> Option<Crossing> {
+    let n = v.len();
+    let edges: Vec<usize> = (0..n).filter(|&i| v[i] != v[(i + 1) % n]).collect();
+    let m = edges.len();
+    if m < 4 {
+        return None;
+    }
+    // neighbours in the cyclic order of the non-degenerate edges
+    let rank: std::collections::HashMap<usize, usize> = edges.iter().enumerate().map(|(k, &i)| (i, k)).collect();
+    let seg = |i: usize| (v[i], v[(i + 1) % n]);
+    let mut order = edges.clone();
+    let lo = |i: usize| v[i][0].min(v[(i + 1) % n][0]);
+    let hi = |i: usize| v[i][0].max(v[(i + 1) % n][0]);
+    order.sort_by(|&a, &b| lo(a).total_cmp(&lo(b)).then(a.cmp(&b)));
+    for (k, &a) in order.iter().enumerate() {
+        for &b in &order[k + 1..] {
+            if lo(b) > hi(a) {
+                break;
+            }
+            let (ra, rb) = (rank[&a], rank[&b]);
+            let d = ra.abs_diff(rb);
+            if d == 1 || d == m - 1 {
+                continue;
+            }
+            let ((p, q), (r, s)) = (seg(a), seg(b));
+            if let Some(at) = segments_meet(p, q, r, s) {
+                return Some(Crossing { edges: (a.min(b), a.max(b)), at });
+            }
+        }
+    }
+    None
+}
+
+/// A point shared by the closed segments p–q and r–s, if any.
+fn segments_meet(p: [f64; 2], q: [f64; 2], r: [f64; 2], s: [f64; 2]) -> Option<[f64; 2]> {
+    let cross = |o: [f64; 2], a: [f64; 2], b: [f64; 2]| (a[0] - o[0]) * (b[1] - o[1]) - (a[1] - o[1]) * (b[0] - o[0]);
+    let on = |a: [f64; 2], b: [f64; 2], c: [f64; 2]| {
+        c[0] >= a[0].min(b[0]) && c[0] <= a[0].max(b[0]) && c[1] >= a[1].min(b[1]) && c[1] <= a[1].max(b[1])
+    };
+    let (d1, d2, d3, d4) = (cross(r, s, p), cross(r, s, q), cross(p, q, r), cross(p, q, s));
+    if ((d1 > 0.0 && d2 < 0.0) || (d1 < 0.0 && d2 > 0.0)) && ((d3 > 0.0 && d4 < 0.0) || (d3 < 0.0 && d4 > 0.0)) {
+        let t = d1 / (d1 - d2);
+        return Some([p[0] + t * (q[0] - p[0]), p[1] + t * (q[1] - p[1])]);
+    }
+    for (d, c, a, b) in [(d1, p, r, s), (d2, q, r, s), (d3, r, p, q), (d4, s, p, q)] {
+        if d == 0.0 && on(a, b, c) {
+            return Some(c);
+        }
+    }
+    None
+}
+
 /// Distance between two points.
 pub(crate) fn dist(a: [f64; 2], b: [f64; 2]) -> f64 {
     ((a[0] - b[0]).powi(2) + (a[1] - b[1]).powi(2)).sqrt()
@@ -603,5 +669,25 @@ mod tests {
         let c = Shape::Circle { center: [0.0, 0.0], radius: 1.0 };
         assert!(c.contains_closed([1.0, 0.0], 1e-12));
         assert!(!c.contains_closed([0.8, 0.8], 1e-12));
+    }
+
+    #[test]
+    fn bow_ties_and_loops_cross_themselves_simple_outlines_do_not() {
+        // common practice: a polygon is simple when no two non-neighbouring edges meet
+        let square = [[0.0, 0.0], [1.0, 0.0], [1.0, 1.0], [0.0, 1.0]];
+        assert_eq!(self_crossing(&square), None);
+        let bow_tie = [[0.0, 0.0], [1.0, 1.0], [1.0, 0.0], [0.0, 1.0]];
+        let c = self_crossing(&bow_tie).expect("crosses");
+        assert_eq!(c.edges, (0, 2));
+        assert!((c.at[0] - 0.5).abs() < 1e-12 && (c.at[1] - 0.5).abs() < 1e-12);
+        // touching itself at a vertex is not simple either
+        let pinched = [[0.0, 0.0], [2.0, 0.0], [1.0, 1.0], [2.0, 2.0], [0.0, 2.0], [1.0, 1.0]];
+        assert!(self_crossing(&pinched).is_some());
+        // a repeated point is skipped, not taken for a crossing
+        let repeated = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.0], [1.0, 1.0], [0.0, 1.0]];
+        assert_eq!(self_crossing(&repeated), None);
+        let arcs = fillet(&square, 0.2).unwrap();
+        let Shape::Filleted { points, .. } = arcs else { panic!() };
+        assert_eq!(self_crossing(&points), None);
     }
 }

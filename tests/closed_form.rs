@@ -175,7 +175,7 @@ fn energy_and_charge_capacitances_agree() {
         let opts = hvstack::Options::default();
         let prepared = hvstack::prepare(case, path, &opts).unwrap();
         let solution = prepared.solve(&opts.solve).unwrap();
-        let (_, _, assessment) = prepared.evaluate(&solution, &opts);
+        let (_, _, assessment) = prepared.evaluate(&solution, &opts).unwrap();
         let c = assessment.capacitance.unwrap();
         assert!(rel(c.from_energy, c.from_charge) < 0.01, "{path}: {c:?}");
         assert!(!assessment.findings.iter().any(|f| f.kind.code() == "capacitance-cross-check"));

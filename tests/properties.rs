@@ -39,7 +39,7 @@ proptest! {
         let opts = hvstack::Options::default();
         let prepared = hvstack::prepare(case, "p.yaml", &opts).unwrap();
         let sol = prepared.solve(&opts.solve).unwrap();
-        let report = prepared.report(&sol, &opts, 0.0);
+        let report = prepared.report(&sol, &opts, 0.0).unwrap();
         let sum: f64 = layers.iter().map(|(e, t)| t / e).sum();
         for (i, (eps, _)) in layers.iter().enumerate() {
             let p = report.parts.iter().find(|p| p.name == format!("l{i}")).unwrap();

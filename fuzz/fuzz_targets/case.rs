@@ -12,8 +12,9 @@ fuzz_target!(|data: &[u8]| {
         ..Default::default()
     };
     if let Ok(prepared) = hvstack::prepare(case, "fuzz.yaml", &options) {
-        if let Ok(solution) = prepared.solve(&options.solve) {
-            let report = prepared.report(&solution, &options, 0.0);
+        if let Ok(solution) = prepared.solve(&options.solve)
+            && let Ok(report) = prepared.report(&solution, &options, 0.0)
+        {
             let _ = hvstack::report::render_text(&report);
         }
     }

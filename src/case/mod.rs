@@ -4,9 +4,11 @@
 //! Every problem is reported with the file, line, column and key path, and
 //! all problems found by validation are reported together.
 
+pub mod limits;
 mod locate;
 mod model;
 pub mod schema;
+pub mod text;
 mod validate;
 
 pub use model::*;
@@ -37,13 +39,16 @@ pub struct CaseError {
     pub diagnostics: Vec<Diagnostic>,
 }
 
+/// One line per diagnostic; control characters from the case (in keys and
+/// quoted values) are escaped, so a message cannot steer a terminal.
 impl fmt::Display for CaseError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        use text::printable;
         for (i, d) in self.diagnostics.iter().enumerate() {
             if i > 0 {
                 writeln!(f)?;
             }
-            write!(f, "{}", self.file)?;
+            write!(f, "{}", printable(&self.file))?;
             if let Some(l) = d.line {
                 write!(f, ":{l}")?;
                 if let Some(c) = d.column {
@@ -51,9 +56,9 @@ impl fmt::Display for CaseError {
                 }
             }
             if d.key.is_empty() {
-                write!(f, ": {}", d.message)?;
+                write!(f, ": {}", printable(&d.message))?;
             } else {
-                write!(f, ": {}: {}", d.key, d.message)?;
+                write!(f, ": {}: {}", printable(&d.key), printable(&d.message))?;
             }
         }
         Ok(())
@@ -70,9 +75,37 @@ pub fn json_schema() -> String {
     s
 }
 
+/// The bytes of a case file as text: UTF-8, with a byte that is not
+/// named by line and column (1-based; the column counts characters).
+/// A leading byte-order mark is kept here and skipped by [`parse`].
+pub fn decode(bytes: &[u8], file: &str) -> Result<String, CaseError> {
+    match std::str::from_utf8(bytes) {
+        Ok(s) => Ok(s.to_string()),
+        Err(e) => {
+            let good = &bytes[..e.valid_up_to()];
+            // the prefix is valid UTF-8 by construction
+            let before = std::str::from_utf8(good).unwrap_or_default();
+            let line = before.matches('\n').count() + 1;
+            let column = before.rsplit('\n').next().map_or(0, |l| l.chars().count()) + 1;
+            Err(CaseError {
+                file: file.to_string(),
+                diagnostics: vec![Diagnostic {
+                    key: String::new(),
+                    line: Some(line),
+                    column: Some(column),
+                    message: format!("byte 0x{:02X} is not UTF-8 text; save the case as UTF-8", bytes[e.valid_up_to()]),
+                }],
+            })
+        }
+    }
+}
+
 /// Parses and validates a case. `file` names the source in messages only;
-/// the library never opens it.
+/// the library never opens it. A leading byte-order mark is skipped (the
+/// SHA-256 is of the whole text, mark included).
 pub fn parse(text: &str, file: &str) -> Result<Case, CaseError> {
+    let whole = text;
+    let text = text.strip_prefix('\u{feff}').unwrap_or(text);
     let fail = |diagnostics: Vec<Diagnostic>| CaseError { file: file.to_string(), diagnostics };
     let locations = Locations::index(text).map_err(|(line, column, message)| {
         fail(vec![Diagnostic {
@@ -115,7 +148,7 @@ pub fn parse(text: &str, file: &str) -> Result<Case, CaseError> {
     diagnostics.sort_by_key(|d| (d.line, d.column));
     match case {
         Some(mut c) if diagnostics.is_empty() => {
-            c.source_sha256 = sha256_hex(text.as_bytes());
+            c.source_sha256 = sha256_hex(whole.as_bytes());
             Ok(c)
         }
         _ => Err(fail(diagnostics)),

@@ -156,6 +156,43 @@ pub struct Case {
     /// SHA-256 of the case text (hex), set by `parse`; empty for cases
     /// built in code.
     pub source_sha256: String,
+    /// Legal values outside the ranges usual in insulation work (probable
+    /// unit slips), found by validation; `assess` turns them into warnings.
+    pub implausible: Vec<Implausible>,
+}
+
+/// The kind of value an [`Implausible`] note is about.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Magnitude {
+    /// A length (m).
+    Length,
+    /// An electrode potential (V).
+    Potential,
+    /// The largest difference between fixed potentials (V).
+    PotentialDifference,
+    /// A breakdown strength (V/m).
+    Strength,
+    /// A relative permittivity.
+    Permittivity,
+}
+
+/// A legal value outside the range usual in insulation work.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Implausible {
+    /// Key path of the value.
+    pub key: String,
+    /// Line in the case file, where known.
+    pub line: Option<usize>,
+    /// The part, layer or material it belongs to, where one does.
+    pub owner: Option<String>,
+    /// What kind of value.
+    pub quantity: Magnitude,
+    /// The value (SI).
+    pub value: f64,
+    /// The bound it crosses (SI).
+    pub bound: f64,
+    /// True when the value is above the bound, false when below.
+    pub above: bool,
 }
 
 impl Case {

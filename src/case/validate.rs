@@ -1,10 +1,10 @@
 //! From the case file as written to the SI [`Case`], collecting every
 //! problem at once with the key path and position where it stands.
 
-use super::Diagnostic;
 use super::locate::Locations;
 use super::model::*;
 use super::schema::*;
+use super::{Diagnostic, limits, text};
 use crate::materials::{self, Material, MaterialClass, OutOfRange, Quantity};
 use crate::shape::{Rect, Shape};
 use crate::units;
@@ -26,6 +26,9 @@ const DEFAULT_SAFETY_FACTOR: f64 = 2.0;
 struct Ctx<'a> {
     loc: &'a Locations,
     diags: Vec<Diagnostic>,
+    implausible: Vec<Implausible>,
+    /// The part, layer or material being validated (named in notes).
+    owner: Option<String>,
 }
 
 impl Ctx<'_> {
@@ -36,6 +39,35 @@ impl Ctx<'_> {
             line: pos.map(|p| p.0),
             column: pos.map(|p| p.1),
             message: message.into(),
+        });
+    }
+
+    /// Names the part (`what` 'name') in every message since diagnostic
+    /// `start` that does not name it already.
+    fn name_owner(&mut self, start: usize, what: &str, name: &str) {
+        let quoted = format!("'{name}'");
+        // an overlong name (itself refused) is shown shortened
+        let shown = match name.char_indices().nth(60) {
+            Some((i, _)) => format!("'{}…'", &name[..i]),
+            None => quoted.clone(),
+        };
+        for d in &mut self.diags[start..] {
+            if !d.message.contains(&quoted) {
+                d.message = format!("{what} {shown}: {}", d.message);
+            }
+        }
+    }
+
+    /// Records a legal but implausible value (SI value and bound).
+    fn implausible(&mut self, key: &str, quantity: Magnitude, value: f64, bound: f64, above: bool) {
+        self.implausible.push(Implausible {
+            key: key.to_string(),
+            line: self.loc.find(key).map(|p| p.0),
+            owner: self.owner.clone(),
+            quantity,
+            value,
+            bound,
+            above,
         });
     }
 
@@ -61,17 +93,161 @@ impl Ctx<'_> {
         }
     }
 
+    /// A position in mm: finite and within ±`MAX_COORDINATE_MM`.
+    fn coordinate(&mut self, key: &str, v: f64) -> bool {
+        if !self.finite(key, v) {
+            return false;
+        }
+        if v.abs() > limits::MAX_COORDINATE_MM {
+            self.err(
+                key,
+                format!("{} mm is beyond ±{} mm (1 km); lengths are in mm", num(v), num(limits::MAX_COORDINATE_MM)),
+            );
+            return false;
+        }
+        true
+    }
+
+    /// A size in mm (thickness, width, radius): positive, at least
+    /// `MIN_SIZE_MM`, at most twice `MAX_COORDINATE_MM`; below
+    /// `PLAUSIBLE_MIN_SIZE_MM` it is noted.
+    fn size(&mut self, key: &str, v: f64, what: &str) -> bool {
+        if !self.positive(key, v, what) {
+            return false;
+        }
+        if v < limits::MIN_SIZE_MM {
+            self.err(
+                key,
+                format!(
+                    "{what} {} mm is below {} mm (0.1 µm), too thin to model meaningfully; lengths are in mm",
+                    num(v),
+                    num(limits::MIN_SIZE_MM)
+                ),
+            );
+            return false;
+        }
+        if v > 2.0 * limits::MAX_COORDINATE_MM {
+            self.err(
+                key,
+                format!(
+                    "{what} {} mm is beyond {} mm; lengths are in mm",
+                    num(v),
+                    num(2.0 * limits::MAX_COORDINATE_MM)
+                ),
+            );
+            return false;
+        }
+        if v < limits::PLAUSIBLE_MIN_SIZE_MM {
+            self.implausible(key, Magnitude::Length, units::mm(v), units::mm(limits::PLAUSIBLE_MIN_SIZE_MM), false);
+        }
+        true
+    }
+
+    /// An electrode potential in kV: 0, or a magnitude from
+    /// `MIN_POTENTIAL_KV` to `MAX_POTENTIAL_KV`; above
+    /// `PLAUSIBLE_MAX_POTENTIAL_KV` it is noted.
+    fn potential(&mut self, key: &str, v: f64) -> bool {
+        if !self.finite(key, v) {
+            return false;
+        }
+        let a = v.abs();
+        if a > limits::MAX_POTENTIAL_KV {
+            self.err(
+                key,
+                format!("{} kV is beyond ±{} kV (100 MV); potentials are in kV", num(v), num(limits::MAX_POTENTIAL_KV)),
+            );
+            return false;
+        }
+        if a > 0.0 && a < limits::MIN_POTENTIAL_KV {
+            self.err(
+                key,
+                format!(
+                    "{} kV is below {} kV (1 mV) but not 0, too small to mean anything here; potentials are in kV",
+                    num(v),
+                    num(limits::MIN_POTENTIAL_KV)
+                ),
+            );
+            return false;
+        }
+        if a > limits::PLAUSIBLE_MAX_POTENTIAL_KV {
+            self.implausible(
+                key,
+                Magnitude::Potential,
+                units::kv(v),
+                units::kv(limits::PLAUSIBLE_MAX_POTENTIAL_KV),
+                true,
+            );
+        }
+        true
+    }
+
+    /// A name or title: not empty, at most `max` characters, no control
+    /// characters.
+    fn name(&mut self, key: &str, s: &str, max: usize) -> bool {
+        match text::name_problem(s, max) {
+            None => true,
+            Some(problem) => {
+                self.err(key, problem);
+                false
+            }
+        }
+    }
+
+    /// A name ([`Ctx::name`]) not yet in `names` (then added).
+    fn unique_name(&mut self, key: &str, name: &str, names: &mut BTreeSet<String>, what: &str) -> bool {
+        if !self.name(key, name, limits::MAX_NAME_CHARS) {
+            return false;
+        }
+        if !names.insert(name.to_string()) {
+            self.err(key, format!("{what} name '{name}' is used twice"));
+            return false;
+        }
+        true
+    }
+
+    /// At most `max` entries of a list.
+    fn count(&mut self, key: &str, n: usize, max: usize, what: &str) -> bool {
+        if n > max {
+            self.err(key, format!("{n} {what}; at most {max} are allowed"));
+            return false;
+        }
+        true
+    }
+
     fn interval(&mut self, key: &str, v: [f64; 2], allow_empty: bool) -> bool {
-        if !(self.finite(&format!("{key}[0]"), v[0]) & self.finite(&format!("{key}[1]"), v[1])) {
+        if !(self.coordinate(&format!("{key}[0]"), v[0]) & self.coordinate(&format!("{key}[1]"), v[1])) {
             return false;
         }
         let ok = if allow_empty { v[0] <= v[1] } else { v[0] < v[1] };
         if !ok {
             let need = if allow_empty { "must not exceed" } else { "must be less than" };
             self.err(key, format!("start {} {need} end {}", v[0], v[1]));
+            return false;
         }
-        ok
+        let width = v[1] - v[0];
+        if width > 0.0 && width < limits::MIN_SIZE_MM {
+            self.err(
+                key,
+                format!(
+                    "spans {} mm, below {} mm (0.1 µm); make it 0 (a foil) or at least that; lengths are in mm",
+                    num(width),
+                    num(limits::MIN_SIZE_MM)
+                ),
+            );
+            return false;
+        }
+        if width > 0.0 && width < limits::PLAUSIBLE_MIN_SIZE_MM {
+            self.implausible(key, Magnitude::Length, units::mm(width), units::mm(limits::PLAUSIBLE_MIN_SIZE_MM), false);
+        }
+        true
     }
+}
+
+/// A number for a message: plain, or with an exponent when very large or
+/// very small (1e300 rather than 301 digits).
+fn num(v: f64) -> String {
+    let a = v.abs();
+    if a != 0.0 && !(1e-4..1e7).contains(&a) { format!("{v:e}") } else { format!("{v}") }
 }
 
 /// Materials in use, resolved on first use so the list stays small and ordered.
@@ -118,8 +294,22 @@ fn suggestion<'a>(name: &str, known: impl Iterator<Item = &'a str>) -> String {
         .unwrap_or_else(|| " (`hvstack materials` lists the built-in ones)".to_string())
 }
 
+/// A material's `source:` on one line: runs of white space (a folded or
+/// literal block) become one space; other control characters and overlong
+/// text are refused.
+fn source_text(s: &str) -> Result<String, String> {
+    let joined = s.split_whitespace().collect::<Vec<_>>().join(" ");
+    match text::name_problem(&joined, limits::MAX_SOURCE_CHARS) {
+        None => Ok(joined),
+        Some(problem) => Err(format!("the source {problem}")),
+    }
+}
+
 fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material> {
     let key = format!("materials.{name}");
+    if !ctx.name(&key, name, limits::MAX_NAME_CHARS) {
+        return None;
+    }
     let base_name = f.base.as_deref().unwrap_or(name);
     let base = materials::library_entry(base_name);
     if f.base.is_some() && base.is_none() {
@@ -135,6 +325,11 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
             if e.is_finite() && e < 1.0 {
                 ctx.err(&k, format!("relative permittivity must be at least 1, found {e}"));
                 ok = false;
+            } else if e > limits::MAX_PERMITTIVITY {
+                ctx.err(&k, format!("relative permittivity {} is beyond {}", num(e), num(limits::MAX_PERMITTIVITY)));
+                ok = false;
+            } else if e > limits::PLAUSIBLE_MAX_PERMITTIVITY {
+                ctx.implausible(&k, Magnitude::Permittivity, e, limits::PLAUSIBLE_MAX_PERMITTIVITY, true);
             }
             e
         }
@@ -146,7 +341,26 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
     };
     let strength = match f.strength_kv_per_mm {
         Some(s) => {
-            ok &= ctx.positive(&format!("{key}.strength_kv_per_mm"), s, "breakdown strength");
+            let k = format!("{key}.strength_kv_per_mm");
+            if ctx.positive(&k, s, "breakdown strength") {
+                if !(limits::MIN_STRENGTH_KV_PER_MM..=limits::MAX_STRENGTH_KV_PER_MM).contains(&s) {
+                    ctx.err(
+                        &k,
+                        format!(
+                            "breakdown strength {} kV/mm is outside {} to {} kV/mm; strengths are in kV/mm",
+                            num(s),
+                            num(limits::MIN_STRENGTH_KV_PER_MM),
+                            num(limits::MAX_STRENGTH_KV_PER_MM)
+                        ),
+                    );
+                    ok = false;
+                } else if s > limits::PLAUSIBLE_MAX_STRENGTH_KV_PER_MM {
+                    let bound = units::kv_per_mm(limits::PLAUSIBLE_MAX_STRENGTH_KV_PER_MM);
+                    ctx.implausible(&k, Magnitude::Strength, units::kv_per_mm(s), bound, true);
+                }
+            } else {
+                ok = false;
+            }
             Some(s)
         }
         None => base.and_then(|b| b.strength_kv_per_mm),
@@ -158,6 +372,9 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
             if t < 0.0 {
                 ctx.err(&k, format!("loss tangent must not be negative, found {t}"));
                 ok = false;
+            } else if t > limits::MAX_LOSS_TANGENT {
+                ctx.err(&k, format!("loss tangent {} is beyond {}", num(t), num(limits::MAX_LOSS_TANGENT)));
+                ok = false;
             }
             Some(t)
         }
@@ -166,7 +383,13 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
     let own_values =
         f.permittivity.is_some() || f.strength_kv_per_mm.is_some() || f.loss_tangent.is_some() || f.class.is_some();
     let source = match (&f.source, own_values, base) {
-        (Some(s), _, _) if !s.trim().is_empty() => s.clone(),
+        (Some(s), _, _) if !s.trim().is_empty() => match source_text(s) {
+            Ok(s) => s,
+            Err(problem) => {
+                ctx.err(&format!("{key}.source"), problem);
+                return None;
+            }
+        },
         (_, true, _) => {
             ctx.err(&key, "user values need a `source:` (datasheet, standard or test report)");
             return None;
@@ -233,7 +456,7 @@ fn shape(ctx: &mut Ctx, key: &str, s: &ShapeFile) -> Option<Shape> {
                 None => ok.then_some(Shape::Rect(rect)),
                 Some(rad) => {
                     let rk = format!("{k}.radius");
-                    if !ctx.positive(&rk, rad, "corner radius") || !ok {
+                    if !ctx.size(&rk, rad, "corner radius") || !ok {
                         return None;
                     }
                     let half = 0.5 * (r.x[1] - r.x[0]).min(r.y[1] - r.y[0]);
@@ -247,79 +470,135 @@ fn shape(ctx: &mut Ctx, key: &str, s: &ShapeFile) -> Option<Shape> {
         }
         (None, Some(c), None) => {
             let k = format!("{key}.circle");
-            let ok = ctx.finite(&format!("{k}.center[0]"), c.center[0])
-                & ctx.finite(&format!("{k}.center[1]"), c.center[1])
-                & ctx.positive(&format!("{k}.radius"), c.radius, "radius");
+            let ok = ctx.coordinate(&format!("{k}.center[0]"), c.center[0])
+                & ctx.coordinate(&format!("{k}.center[1]"), c.center[1])
+                & ctx.size(&format!("{k}.radius"), c.radius, "radius");
             ok.then(|| Shape::Circle { center: c.center.map(units::mm), radius: units::mm(c.radius) })
         }
-        (None, None, Some(v)) => {
-            let k = format!("{key}.polygon");
-            let mut ok = true;
-            for (i, p) in v.iter().enumerate() {
-                ok &= ctx.finite(&format!("{k}[{i}][0]"), p[0]) & ctx.finite(&format!("{k}[{i}][1]"), p[1]);
-            }
-            if v.len() < 3 {
-                ctx.err(&k, format!("a polygon needs at least 3 vertices, found {}", v.len()));
-                return None;
-            }
-            let pts: Vec<[f64; 2]> = v.iter().map(|p| p.map(units::mm)).collect();
-            let poly = Shape::Polygon(pts.clone());
-            if ok && poly.area() <= 0.0 {
-                ctx.err(&k, "polygon encloses no area");
-                return None;
-            }
-            if let Some(arcs) = &s.arcs {
-                let ak = format!("{key}.arcs");
-                let mut list = Vec::new();
-                for (i, a) in arcs.iter().enumerate() {
-                    let k = format!("{ak}[{i}]");
-                    if a.edge >= v.len() {
-                        ctx.err(&format!("{k}.edge"), format!("the polygon has edges 0 to {}", v.len() - 1));
-                        ok = false;
-                    } else if list.iter().any(|(e, _)| *e == a.edge) {
-                        ctx.err(&format!("{k}.edge"), format!("edge {} has two arcs", a.edge));
-                        ok = false;
-                    }
-                    if !ctx.finite(&format!("{k}.radius"), a.radius) || a.radius == 0.0 {
-                        if a.radius == 0.0 {
-                            ctx.err(&format!("{k}.radius"), "an arc radius cannot be 0 (leave the edge straight)");
-                        }
-                        ok = false;
-                    }
-                    list.push((a.edge, units::mm(a.radius)));
-                }
-                if !ok {
-                    return None;
-                }
-                return match crate::shape::arced(&pts, &list) {
-                    Ok(shape) => Some(shape),
-                    Err(e) => {
-                        ctx.err(&ak, e);
-                        None
-                    }
-                };
-            }
-            match s.fillet {
-                None => ok.then_some(poly),
-                Some(r) => {
-                    let fk = format!("{key}.fillet");
-                    if !ctx.positive(&fk, r, "fillet radius") || !ok {
-                        return None;
-                    }
-                    match crate::shape::fillet(&pts, units::mm(r)) {
-                        Ok(shape) => Some(shape),
-                        Err(e) => {
-                            ctx.err(&fk, e);
-                            None
-                        }
-                    }
-                }
-            }
-        }
+        (None, None, Some(v)) => polygon(ctx, key, s, v),
         _ => {
             ctx.err(key, "give exactly one of `rect`, `circle` or `polygon`");
             None
         }
+    }
+}
+
+/// A polygon, optionally filleted or with arced edges: at most
+/// `MAX_POLYGON_VERTICES` vertices, no repeated neighbours, an area, and an
+/// outline that does not cross itself (before and after rounding).
+fn polygon(ctx: &mut Ctx, key: &str, s: &ShapeFile, v: &[[f64; 2]]) -> Option<Shape> {
+    let k = format!("{key}.polygon");
+    if !ctx.count(&k, v.len(), limits::MAX_POLYGON_VERTICES, "vertices") {
+        return None;
+    }
+    let mut ok = true;
+    for (i, p) in v.iter().enumerate() {
+        ok &= ctx.coordinate(&format!("{k}[{i}][0]"), p[0]) & ctx.coordinate(&format!("{k}[{i}][1]"), p[1]);
+    }
+    if v.len() < 3 {
+        ctx.err(&k, format!("a polygon needs at least 3 vertices, found {}", v.len()));
+        return None;
+    }
+    if !ok {
+        return None;
+    }
+    if let Some(i) = (0..v.len()).find(|&i| v[i] == v[(i + 1) % v.len()]) {
+        let j = (i + 1) % v.len();
+        ctx.err(&format!("{k}[{j}]"), format!("vertex {j} repeats vertex {i} ({}, {}); remove one", v[i][0], v[i][1]));
+        return None;
+    }
+    let pts: Vec<[f64; 2]> = v.iter().map(|p| p.map(units::mm)).collect();
+    let poly = Shape::Polygon(pts.clone());
+    if poly.area() <= 0.0 {
+        ctx.err(&k, "polygon encloses no area");
+        return None;
+    }
+    if let Some(c) = crate::shape::self_crossing(&pts) {
+        let n = v.len();
+        let (a, b) = c.edges;
+        ctx.err(
+            &k,
+            format!(
+                "the outline crosses itself: edge {a} (vertex {a} → {}) meets edge {b} (vertex {b} → {}) at ({}, {}) \
+                 mm; order the vertices around the outline",
+                (a + 1) % n,
+                (b + 1) % n,
+                mm_text(c.at[0]),
+                mm_text(c.at[1])
+            ),
+        );
+        return None;
+    }
+    let rounded = if let Some(arcs) = &s.arcs {
+        let ak = format!("{key}.arcs");
+        let mut list = Vec::new();
+        for (i, a) in arcs.iter().enumerate() {
+            let k = format!("{ak}[{i}]");
+            if a.edge >= v.len() {
+                ctx.err(&format!("{k}.edge"), format!("the polygon has edges 0 to {}", v.len() - 1));
+                ok = false;
+            } else if list.iter().any(|(e, _)| *e == a.edge) {
+                ctx.err(&format!("{k}.edge"), format!("edge {} has two arcs", a.edge));
+                ok = false;
+            }
+            if a.radius == 0.0 {
+                ctx.err(&format!("{k}.radius"), "an arc radius cannot be 0 (leave the edge straight)");
+                ok = false;
+            } else if !ctx.size(&format!("{k}.radius"), a.radius.abs(), "arc radius") {
+                ok = false;
+            }
+            list.push((a.edge, units::mm(a.radius)));
+        }
+        if !ok {
+            return None;
+        }
+        crate::shape::arced(&pts, &list).map_err(|e| (ak, e))
+    } else if let Some(r) = s.fillet {
+        let fk = format!("{key}.fillet");
+        if !ctx.size(&fk, r, "fillet radius") {
+            return None;
+        }
+        crate::shape::fillet(&pts, units::mm(r)).map_err(|e| (fk, e))
+    } else {
+        return Some(poly);
+    };
+    match rounded {
+        Ok(shape) => {
+            if let Shape::Filleted { points, .. } = &shape
+                && let Some(c) = crate::shape::self_crossing(points)
+            {
+                let at = format!("({}, {}) mm", mm_text(c.at[0]), mm_text(c.at[1]));
+                let what = if s.arcs.is_some() { "arcs" } else { "fillet" };
+                ctx.err(
+                    &format!("{key}.{what}"),
+                    format!(
+                        "the rounded outline crosses itself near {at}; use smaller radii or move the vertices apart"
+                    ),
+                );
+                return None;
+            }
+            Some(shape)
+        }
+        Err((k, e)) => {
+            ctx.err(&k, e);
+            None
+        }
+    }
+}
+
+/// A length in m written in mm, rounded to the nanometre.
+fn mm_text(m: f64) -> String {
+    let v = m * 1e3;
+    let s = format!("{v:.6}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    if s == "-0" { "0".into() } else { s.to_string() }
+}
+
+/// Names of a stack's energised and earthed electrodes.
+fn stack_electrode_names(form: StackForm) -> [&'static str; 2] {
+    match form {
+        StackForm::Planar => ["energised face", "earthed face"],
+        StackForm::Coaxial => ["conductor", "screen"],
     }
 }
 
@@ -335,31 +614,68 @@ struct Stack {
 /// coaxial layers span the `length` (else the given domain's y range, else
 /// the total insulation thickness).
 fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut MaterialTable) -> Option<Stack> {
-    let mut ok = ctx.finite("stack.voltage_kv", s.voltage_kv);
+    let mut ok = ctx.potential("stack.voltage_kv", s.voltage_kv);
     if s.layers.is_empty() {
         ctx.err("stack.layers", "a stack needs at least one layer");
         return None;
     }
+    if !ctx.count("stack.layers", s.layers.len(), limits::MAX_LAYERS, "layers") {
+        return None;
+    }
+    let faces = stack_electrode_names(s.form);
+    let mut names: BTreeSet<String> = BTreeSet::new();
     let mut layers = Vec::new();
     for (i, l) in s.layers.iter().enumerate() {
         let key = format!("stack.layers[{i}]");
-        let m = table.resolve(ctx, &format!("{key}.material"), &l.material);
-        let t = ctx.positive(&format!("{key}.thickness"), l.thickness, "thickness");
+        let start = ctx.diags.len();
         let name = l.name.clone().unwrap_or_else(|| format!("layer {}", i + 1));
-        match (m, t) {
-            (Some(m), true) => layers.push((name, m, units::mm(l.thickness), key)),
+        ctx.owner = Some(name.clone());
+        let mut good = true;
+        if l.name.is_some() {
+            let nk = format!("{key}.name");
+            good &= ctx.name(&nk, &name, limits::MAX_NAME_CHARS);
+            if good && (faces.contains(&name.as_str()) || name == "background") {
+                ctx.err(&nk, format!("'{name}' is the name of a stack electrode or the background; rename the layer"));
+                good = false;
+            }
+        }
+        if good && !names.insert(name.clone()) {
+            ctx.err(&format!("{key}.name"), format!("layer name '{name}' is used twice; layer names must be unique"));
+            good = false;
+        }
+        let m = table.resolve(ctx, &format!("{key}.material"), &l.material);
+        let tk = format!("{key}.thickness");
+        let t = ctx.size(&tk, l.thickness, "thickness");
+        if t && l.thickness > limits::PLAUSIBLE_MAX_LAYER_MM {
+            let bound = units::mm(limits::PLAUSIBLE_MAX_LAYER_MM);
+            ctx.implausible(&tk, Magnitude::Length, units::mm(l.thickness), bound, true);
+        }
+        ctx.name_owner(start, "layer", &name);
+        ctx.owner = None;
+        match (m, t, good) {
+            (Some(m), true, true) => layers.push((name, m, units::mm(l.thickness), key)),
             _ => ok = false,
         }
     }
     let v = units::kv(s.voltage_kv);
     let total: f64 = layers.iter().map(|l| l.2).sum();
+    if total > units::mm(limits::MAX_COORDINATE_MM) {
+        ctx.err(
+            "stack.layers",
+            format!("the layers add up to {} mm, beyond {} mm", mm_text(total), limits::MAX_COORDINATE_MM),
+        );
+        return None;
+    }
+    let loc = ctx.loc;
+    let position = |key: &str| loc.find(key).map_or((None, None), |(l, c)| (Some(l), Some(c)));
+    let (line, column) = position("stack");
     let electrode = |name: &str, r: Rect, potential_v: f64| Part {
         name: name.to_string(),
         role: Role::Electrode(ElectrodeKind::Fixed { potential_v }),
         shape: Shape::Rect(r),
         key: "stack".to_string(),
-        line: None,
-        column: None,
+        line,
+        column,
     };
     match s.form {
         StackForm::Planar => {
@@ -373,7 +689,7 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
             }
             let (x0, w) = match (s.width, domain) {
                 (Some(w), _) => {
-                    ok &= ctx.positive("stack.width", w, "width");
+                    ok &= ctx.size("stack.width", w, "width");
                     (0.0, units::mm(w))
                 }
                 (None, Some(d)) => (d.x0, d.x1),
@@ -382,18 +698,19 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
             let mut y = 0.0;
             let mut parts = Vec::new();
             for (name, m, t, key) in layers {
+                let (line, column) = position(&key);
                 parts.push(Part {
                     name,
                     role: Role::Dielectric(m),
                     shape: Shape::Rect(Rect { x0, x1: w, y0: y, y1: y + t }),
-                    line: None,
-                    column: None,
+                    line,
+                    column,
                     key,
                 });
                 y += t;
             }
-            parts.push(electrode("energised face", Rect { x0, x1: w, y0: 0.0, y1: 0.0 }, v));
-            parts.push(electrode("earthed face", Rect { x0, x1: w, y0: total, y1: total }, 0.0));
+            parts.push(electrode(faces[0], Rect { x0, x1: w, y0: 0.0, y1: 0.0 }, v));
+            parts.push(electrode(faces[1], Rect { x0, x1: w, y0: total, y1: total }, 0.0));
             let domain = Rect { x0, x1: w, y0: 0.0, y1: total };
             ok.then_some(Stack { parts, domain, coaxial: false })
         }
@@ -406,11 +723,11 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
                 ctx.err("stack", "a coaxial stack needs `inner_radius` (mm)");
                 return None;
             };
-            ok &= ctx.positive("stack.inner_radius", ri, "inner radius");
+            ok &= ctx.size("stack.inner_radius", ri, "inner radius");
             let ri = units::mm(ri);
             let (z0, len) = match (s.length, domain) {
                 (Some(l), _) => {
-                    ok &= ctx.positive("stack.length", l, "length");
+                    ok &= ctx.size("stack.length", l, "length");
                     (0.0, units::mm(l))
                 }
                 (None, Some(d)) => (d.y0, d.y1),
@@ -419,18 +736,19 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
             let mut r = ri;
             let mut parts = Vec::new();
             for (name, m, t, key) in layers {
+                let (line, column) = position(&key);
                 parts.push(Part {
                     name,
                     role: Role::Dielectric(m),
                     shape: Shape::Rect(Rect { x0: r, x1: r + t, y0: z0, y1: len }),
-                    line: None,
-                    column: None,
+                    line,
+                    column,
                     key,
                 });
                 r += t;
             }
-            parts.push(electrode("conductor", Rect { x0: 0.0, x1: ri, y0: z0, y1: len }, v));
-            parts.push(electrode("screen", Rect { x0: r, x1: r, y0: z0, y1: len }, 0.0));
+            parts.push(electrode(faces[0], Rect { x0: 0.0, x1: ri, y0: z0, y1: len }, v));
+            parts.push(electrode(faces[1], Rect { x0: r, x1: r, y0: z0, y1: len }, 0.0));
             let domain = Rect { x0: ri, x1: r, y0: z0, y1: len };
             ok.then_some(Stack { parts, domain, coaxial: true })
         }
@@ -484,32 +802,26 @@ fn curved_boxes(parts: &[Part], grid: &GridSpec) -> Vec<RefineBox> {
 
 /// Default number of sample points along a line (ends included).
 const DEFAULT_LINE_POINTS: usize = 401;
-/// Most sample points a line may ask for.
-const MAX_LINE_POINTS: usize = 100_000;
 
-/// Checks `lines:`: names usable as file names and unique, finite end
-/// points inside the domain, distinct ends, a sane number of points.
+/// Checks `lines:`: printable unique names, finite end points inside the
+/// domain, distinct ends, a bounded number of points.
 fn sampling_lines(ctx: &mut Ctx, lines: &Option<Vec<LineFile>>, domain: Option<&Rect>) -> Option<Vec<Line>> {
     let mut ok = true;
     let mut out = Vec::new();
     let mut names = BTreeSet::new();
-    for (i, l) in lines.iter().flatten().enumerate() {
+    let list = lines.as_deref().unwrap_or_default();
+    if !ctx.count("lines", list.len(), limits::MAX_LINES, "lines") {
+        return None;
+    }
+    let mut total = 0usize;
+    for (i, l) in list.iter().enumerate() {
         let key = format!("lines[{i}]");
-        let file_safe = |c: char| c.is_ascii_alphanumeric() || matches!(c, '-' | '_' | '.');
-        if l.name.is_empty() || l.name.starts_with('.') || !l.name.chars().all(file_safe) {
-            ctx.err(
-                &format!("{key}.name"),
-                format!("line name '{}' becomes a file name: use letters, digits, '-', '_' or '.' (not first)", l.name),
-            );
-            ok = false;
-        } else if !names.insert(l.name.clone()) {
-            ctx.err(&format!("{key}.name"), format!("line name '{}' is used twice", l.name));
-            ok = false;
-        }
+        let start = ctx.diags.len();
+        ok &= ctx.unique_name(&format!("{key}.name"), &l.name, &mut names, "line");
         let mut ends = Vec::new();
         for (end, p) in [("from", l.from), ("to", l.to)] {
             let k = format!("{key}.{end}");
-            if !(ctx.finite(&format!("{k}[0]"), p[0]) & ctx.finite(&format!("{k}[1]"), p[1])) {
+            if !(ctx.coordinate(&format!("{k}[0]"), p[0]) & ctx.coordinate(&format!("{k}[1]"), p[1])) {
                 ok = false;
                 continue;
             }
@@ -523,9 +835,22 @@ fn sampling_lines(ctx: &mut Ctx, lines: &Option<Vec<LineFile>>, domain: Option<&
             ends.push(at);
         }
         let points = l.points.unwrap_or(DEFAULT_LINE_POINTS);
-        if !(2..=MAX_LINE_POINTS).contains(&points) {
-            ctx.err(&format!("{key}.points"), format!("must be from 2 to {MAX_LINE_POINTS}, found {points}"));
+        if !(2..=limits::MAX_LINE_POINTS).contains(&points) {
+            ctx.err(&format!("{key}.points"), format!("must be from 2 to {}, found {points}", limits::MAX_LINE_POINTS));
             ok = false;
+        } else {
+            total += points;
+            if total > limits::MAX_TOTAL_LINE_POINTS {
+                ctx.err(
+                    &format!("{key}.points"),
+                    format!(
+                        "the lines up to this one ask for {total} points; all lines together may have at most {}",
+                        limits::MAX_TOTAL_LINE_POINTS
+                    ),
+                );
+                ok = false;
+                total = 0;
+            }
         }
         if let [from, to] = ends[..] {
             if from == to {
@@ -534,6 +859,7 @@ fn sampling_lines(ctx: &mut Ctx, lines: &Option<Vec<LineFile>>, domain: Option<&
             }
             out.push(Line { name: l.name.clone(), from, to, points });
         }
+        ctx.name_owner(start, "line", &l.name);
     }
     ok.then_some(out)
 }
@@ -541,11 +867,15 @@ fn sampling_lines(ctx: &mut Ctx, lines: &Option<Vec<LineFile>>, domain: Option<&
 fn refine_boxes(ctx: &mut Ctx, g: Option<&GridFile>) -> Option<Vec<RefineBox>> {
     let mut ok = true;
     let mut out = Vec::new();
-    for (i, b) in g.and_then(|g| g.boxes.as_ref()).into_iter().flatten().enumerate() {
+    let list = g.and_then(|g| g.boxes.as_deref()).unwrap_or_default();
+    if !ctx.count("grid.boxes", list.len(), limits::MAX_REFINE_BOXES, "refinement boxes") {
+        return None;
+    }
+    for (i, b) in list.iter().enumerate() {
         let key = format!("grid.boxes[{i}]");
         let good = ctx.interval(&format!("{key}.x"), b.x, false)
             & ctx.interval(&format!("{key}.y"), b.y, false)
-            & ctx.positive(&format!("{key}.max_step"), b.max_step, "max_step");
+            & ctx.size(&format!("{key}.max_step"), b.max_step, "max_step");
         ok &= good;
         if good {
             out.push(RefineBox {
@@ -573,7 +903,7 @@ fn grid_spec(ctx: &mut Ctx, g: Option<&GridFile>, domain: &Rect) -> Option<GridS
     let Some(g) = g else { return Some(spec) };
     let mut ok = true;
     if let Some(s) = g.max_step {
-        ok &= ctx.positive("grid.max_step", s, "max_step");
+        ok &= ctx.size("grid.max_step", s, "max_step");
         spec.max_step = units::mm(s);
     }
     if let Some(s) = g.min_step {
@@ -619,9 +949,12 @@ fn grid_spec(ctx: &mut Ctx, g: Option<&GridFile>, domain: &Rect) -> Option<GridS
 
 /// Validates a parsed case file. Returns the case when there were no problems.
 pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagnostic>) {
-    let mut ctx = Ctx { loc, diags: Vec::new() };
+    let mut ctx = Ctx { loc, diags: Vec::new(), implausible: Vec::new(), owner: None };
     let mut ok = true;
 
+    if let Some(t) = &f.title {
+        ok &= ctx.name("title", t, limits::MAX_TITLE_CHARS);
+    }
     if let Some(u) = &f.units
         && u != "mm"
     {
@@ -631,7 +964,10 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
 
     let mut table =
         MaterialTable { user: BTreeMap::new(), invalid: BTreeSet::new(), used: Vec::new(), ids: BTreeMap::new() };
-    for (name, m) in f.materials.iter().flatten() {
+    let user_materials = f.materials.as_ref().map_or(0, BTreeMap::len);
+    ok &= ctx.count("materials", user_materials, limits::MAX_MATERIALS, "materials");
+    for (name, m) in f.materials.iter().flatten().take(limits::MAX_MATERIALS) {
+        ctx.owner = Some(name.clone());
         match user_material(&mut ctx, name, m) {
             Some(m) => {
                 table.user.insert(name.clone(), m);
@@ -641,6 +977,7 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
                 ok = false;
             }
         }
+        ctx.owner = None;
     }
 
     let form = f.stack.as_ref().map(|s| s.form);
@@ -694,6 +1031,14 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
             None
         }
     };
+    if let Some(d) = domain {
+        let extent = d.width().max(d.height());
+        let bound = units::mm(limits::PLAUSIBLE_MAX_EXTENT_MM);
+        if extent > bound {
+            let key = if f.domain.is_some() { "domain" } else { "stack" };
+            ctx.implausible(key, Magnitude::Length, extent, bound, true);
+        }
+    }
 
     let normalisation = match (geometry, &stack, domain) {
         (Geometry::Planar, ..) => Normalisation::PerMetreDepth,
@@ -713,66 +1058,21 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
     let mut parts: Vec<Part> = stack.map(|s| s.parts).unwrap_or_default();
     let mut names: BTreeSet<String> = parts.iter().map(|p| p.name.clone()).collect();
     names.insert("background".into());
-    for (i, p) in f.parts.iter().flatten().enumerate() {
+    let part_files = f.parts.as_deref().unwrap_or_default();
+    if !ctx.count("parts", part_files.len(), limits::MAX_PARTS, "parts") {
+        return (None, ctx.diags);
+    }
+    for (i, p) in part_files.iter().enumerate() {
         let key = format!("parts[{i}]");
-        if p.name.trim().is_empty() {
-            ctx.err(&format!("{key}.name"), "part name must not be empty");
-            ok = false;
-        } else if !names.insert(p.name.clone()) {
-            ctx.err(
-                &format!("{key}.name"),
-                format!(
-                    "part name '{}' is used twice (or clashes with a stack layer, a stack electrode or 'background')",
-                    p.name
-                ),
-            );
-            ok = false;
+        let start = ctx.diags.len();
+        ctx.owner = Some(p.name.clone());
+        let part = one_part(&mut ctx, &key, p, &mut names, &mut table, geometry, domain);
+        ctx.name_owner(start, "part", &p.name);
+        ctx.owner = None;
+        match part {
+            Some(part) => parts.push(part),
+            None => ok = false,
         }
-        let role = match (&p.material, p.electrode) {
-            (Some(_), Some(_)) => {
-                ctx.err(&key, "a part is either insulation (`material:`) or a conductor (`electrode:`), not both");
-                None
-            }
-            (None, None) => {
-                ctx.err(&key, "give the part a `material:` or make it an `electrode:`");
-                None
-            }
-            (Some(m), None) => table.resolve(&mut ctx, &format!("{key}.material"), m).map(Role::Dielectric),
-            (None, Some(ElectrodeFile::Floating)) => Some(Role::Electrode(ElectrodeKind::Floating)),
-            (None, Some(ElectrodeFile::PotentialKv(v))) => ctx
-                .finite(&format!("{key}.electrode.potential_kv"), v)
-                .then(|| Role::Electrode(ElectrodeKind::Fixed { potential_v: units::kv(v) })),
-        };
-        let sh = shape(&mut ctx, &format!("{key}.shape"), &p.shape);
-        let (Some(role), Some(sh)) = (role, sh) else {
-            ok = false;
-            continue;
-        };
-        let b = sh.bounds();
-        if matches!(role, Role::Dielectric(_)) && sh.area() <= 0.0 {
-            ctx.err(&format!("{key}.shape"), "an insulating part needs an area; only electrodes may be lines (foils)");
-            ok = false;
-            continue;
-        }
-        // a circle centred on the axis is a sphere; anything else must stay at r ≥ 0
-        let sphere = matches!(sh, Shape::Circle { center, .. } if center[0] == 0.0);
-        if geometry == Geometry::Axisymmetric && b.x0 < 0.0 && !sphere {
-            ctx.err(&format!("{key}.shape"), "axisymmetric parts cannot reach negative radius (x < 0); only a circle centred on the axis (a sphere) may cross it");
-            ok = false;
-            continue;
-        }
-        if let Some(d) = domain
-            && !b.intersects(&d)
-        {
-            ctx.err(&format!("{key}.shape"), "the part lies entirely outside the domain");
-            ok = false;
-            continue;
-        }
-        let (line, column) = match ctx.loc.find(&key) {
-            Some((l, c)) => (Some(l), Some(c)),
-            None => (None, None),
-        };
-        parts.push(Part { name: p.name.clone(), role, shape: sh, key, line, column });
     }
 
     let electrodes: Vec<ElectrodeKind> = parts
@@ -799,40 +1099,25 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
         ctx.err(where_parts, "every electrode is floating; at least one needs `potential_kv`");
         ok = false;
     }
-
-    let mut probes = Vec::new();
-    let mut probe_names = BTreeSet::new();
-    for (i, p) in f.probes.iter().flatten().enumerate() {
-        let key = format!("probes[{i}]");
-        if !probe_names.insert(p.name.clone()) {
-            ctx.err(&format!("{key}.name"), format!("probe name '{}' is used twice", p.name));
-            ok = false;
-        }
-        if !(ctx.finite(&format!("{key}.at[0]"), p.at[0]) & ctx.finite(&format!("{key}.at[1]"), p.at[1])) {
-            ok = false;
-            continue;
-        }
-        let at = p.at.map(units::mm);
-        if let Some(d) = domain
-            && !d.contains_closed(at, 0.0)
-        {
-            ctx.err(&format!("{key}.at"), "the probe lies outside the domain");
-            ok = false;
-        }
-        probes.push(Probe { name: p.name.clone(), at });
+    if ok {
+        note_small_difference(&mut ctx, &parts);
     }
 
+    let probes = probes(&mut ctx, &f.probes, domain.as_ref());
     let lines = sampling_lines(&mut ctx, &f.lines, domain.as_ref());
     let safety_factor = f.limits.as_ref().and_then(|l| l.safety_factor).unwrap_or(DEFAULT_SAFETY_FACTOR);
-    if !(safety_factor.is_finite() && safety_factor >= 1.0) {
-        ctx.err("limits.safety_factor", format!("must be a number of at least 1, found {safety_factor}"));
+    if !(safety_factor.is_finite() && (1.0..=limits::MAX_SAFETY_FACTOR).contains(&safety_factor)) {
+        ctx.err(
+            "limits.safety_factor",
+            format!("must be a number from 1 to {}, found {safety_factor}", limits::MAX_SAFETY_FACTOR),
+        );
         ok = false;
     }
 
     let grid = domain.and_then(|d| grid_spec(&mut ctx, f.grid.as_ref(), &d));
     let refine_boxes = refine_boxes(&mut ctx, f.grid.as_ref());
-    let (Some(domain), Some(grid), Some(refine_boxes), Some(background), Some(lines), true) =
-        (domain, grid, refine_boxes, background, lines, ok && ctx.diags.is_empty())
+    let (Some(domain), Some(grid), Some(refine_boxes), Some(background), Some(probes), Some(lines), true) =
+        (domain, grid, refine_boxes, background, probes, lines, ok && ctx.diags.is_empty())
     else {
         return (None, ctx.diags);
     };
@@ -852,6 +1137,136 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
         lines,
         safety_factor,
         source_sha256: String::new(),
+        implausible: ctx.implausible,
     };
     (Some(case), ctx.diags)
+}
+
+/// One entry of `parts:`: a unique printable name, one role, a valid shape
+/// that reaches into the domain; electrodes need an extent (a foil is a
+/// line, not a point).
+fn one_part(
+    ctx: &mut Ctx,
+    key: &str,
+    p: &PartFile,
+    names: &mut BTreeSet<String>,
+    table: &mut MaterialTable,
+    geometry: Geometry,
+    domain: Option<Rect>,
+) -> Option<Part> {
+    let mut ok = ctx.name(&format!("{key}.name"), &p.name, limits::MAX_NAME_CHARS);
+    if ok && !names.insert(p.name.clone()) {
+        ctx.err(
+            &format!("{key}.name"),
+            format!(
+                "part name '{}' is used twice (or clashes with a stack layer, a stack electrode or 'background')",
+                p.name
+            ),
+        );
+        ok = false;
+    }
+    let role = match (&p.material, p.electrode) {
+        (Some(_), Some(_)) => {
+            ctx.err(key, "a part is either insulation (`material:`) or a conductor (`electrode:`), not both");
+            None
+        }
+        (None, None) => {
+            ctx.err(key, "give the part a `material:` or make it an `electrode:`");
+            None
+        }
+        (Some(m), None) => table.resolve(ctx, &format!("{key}.material"), m).map(Role::Dielectric),
+        (None, Some(ElectrodeFile::Floating)) => Some(Role::Electrode(ElectrodeKind::Floating)),
+        (None, Some(ElectrodeFile::PotentialKv(v))) => ctx
+            .potential(&format!("{key}.electrode.potential_kv"), v)
+            .then(|| Role::Electrode(ElectrodeKind::Fixed { potential_v: units::kv(v) })),
+    };
+    let sh = shape(ctx, &format!("{key}.shape"), &p.shape);
+    let (Some(role), Some(sh), true) = (role, sh, ok) else { return None };
+    let b = sh.bounds();
+    let shape_key = format!("{key}.shape");
+    match role {
+        Role::Dielectric(_) if sh.area() <= 0.0 => {
+            ctx.err(&shape_key, "an insulating part needs an area; only electrodes may be lines (foils)");
+            return None;
+        }
+        Role::Electrode(_) if b.width() == 0.0 && b.height() == 0.0 => {
+            ctx.err(&shape_key, "an electrode needs an extent: this one is a single point (give a foil a length)");
+            return None;
+        }
+        _ => {}
+    }
+    // a circle centred on the axis is a sphere; anything else must stay at r ≥ 0
+    let sphere = matches!(sh, Shape::Circle { center, .. } if center[0] == 0.0);
+    if geometry == Geometry::Axisymmetric && b.x0 < 0.0 && !sphere {
+        ctx.err(&shape_key, "axisymmetric parts cannot reach negative radius (x < 0); only a circle centred on the axis (a sphere) may cross it");
+        return None;
+    }
+    if let Some(d) = domain
+        && !b.intersects(&d)
+    {
+        ctx.err(&shape_key, "the part lies entirely outside the domain");
+        return None;
+    }
+    let (line, column) = match ctx.loc.find(key) {
+        Some((l, c)) => (Some(l), Some(c)),
+        None => (None, None),
+    };
+    Some(Part { name: p.name.clone(), role, shape: sh, key: key.to_string(), line, column })
+}
+
+/// Notes a largest difference between fixed potentials below
+/// `PLAUSIBLE_MIN_DIFFERENCE_KV` (but not zero: that has its own finding).
+fn note_small_difference(ctx: &mut Ctx, parts: &[Part]) {
+    let fixed: Vec<(&Part, f64)> = parts
+        .iter()
+        .filter_map(|p| match p.role {
+            Role::Electrode(ElectrodeKind::Fixed { potential_v }) => Some((p, potential_v)),
+            _ => None,
+        })
+        .collect();
+    let lo = fixed.iter().map(|f| f.1).fold(f64::INFINITY, f64::min);
+    let hi = fixed.iter().map(|f| f.1).fold(f64::NEG_INFINITY, f64::max);
+    let bound = units::kv(limits::PLAUSIBLE_MIN_DIFFERENCE_KV);
+    let difference = hi - lo;
+    if difference > 0.0 && difference < bound {
+        let largest = fixed.iter().max_by(|a, b| a.1.abs().total_cmp(&b.1.abs())).map(|f| f.0);
+        let key = match largest {
+            Some(p) if p.key.starts_with("parts[") => format!("{}.electrode.potential_kv", p.key),
+            _ => "stack.voltage_kv".to_string(),
+        };
+        ctx.owner = largest.map(|p| p.name.clone());
+        ctx.implausible(&key, Magnitude::PotentialDifference, difference, bound, false);
+        ctx.owner = None;
+    }
+}
+
+/// Checks `probes:`: at most `MAX_PROBES`, printable unique names,
+/// positions inside the domain.
+fn probes(ctx: &mut Ctx, list: &Option<Vec<ProbeFile>>, domain: Option<&Rect>) -> Option<Vec<Probe>> {
+    let list = list.as_deref().unwrap_or_default();
+    if !ctx.count("probes", list.len(), limits::MAX_PROBES, "probes") {
+        return None;
+    }
+    let mut ok = true;
+    let mut out = Vec::new();
+    let mut names = BTreeSet::new();
+    for (i, p) in list.iter().enumerate() {
+        let key = format!("probes[{i}]");
+        let start = ctx.diags.len();
+        ok &= ctx.unique_name(&format!("{key}.name"), &p.name, &mut names, "probe");
+        if ctx.coordinate(&format!("{key}.at[0]"), p.at[0]) & ctx.coordinate(&format!("{key}.at[1]"), p.at[1]) {
+            let at = p.at.map(units::mm);
+            if let Some(d) = domain
+                && !d.contains_closed(at, 0.0)
+            {
+                ctx.err(&format!("{key}.at"), "the probe lies outside the domain");
+                ok = false;
+            }
+            out.push(Probe { name: p.name.clone(), at });
+        } else {
+            ok = false;
+        }
+        ctx.name_owner(start, "probe", &p.name);
+    }
+    ok.then_some(out)
 }

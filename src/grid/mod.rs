@@ -42,8 +42,8 @@ pub struct GridLimits {
 pub enum GridError {
     /// The grid would exceed the node limit.
     #[error(
-        "the grid would need {nodes} nodes ({nx} × {ny}, about {} GB of memory), above the limit of {limit}; raise grid.max_step or grid.min_step, lower grid.cells_across, or raise --max-nodes",
-        memory_estimate_gb(*.nodes)
+        "the grid would need {} nodes ({} × {}, about {} GB of memory), above the limit of {limit}; raise grid.max_step or grid.min_step, lower grid.cells_across, or raise --max-nodes",
+        count_text(*.nodes), count_text(*.nx), count_text(*.ny), memory_estimate_gb(*.nodes)
     )]
     TooLarge {
         /// Nodes needed.
@@ -92,6 +92,12 @@ pub const BYTES_PER_NODE: usize = 400;
 /// Largest node count the solver's 32-bit indices allow, with room for
 /// the extra unknowns of floating electrodes.
 pub const MAX_SUPPORTED_NODES: usize = 1 << 31;
+
+/// A count that may have saturated at `usize::MAX` (grid plans count with
+/// saturating arithmetic): "more than 1.8e19" then, the number otherwise.
+pub fn count_text(n: usize) -> String {
+    if n == usize::MAX { format!("more than {:.1e}", usize::MAX as f64) } else { n.to_string() }
+}
 
 /// Estimated peak memory in GB of a check with this many nodes.
 pub fn memory_estimate_gb(nodes: usize) -> String {
@@ -209,6 +215,30 @@ impl Grid {
         self.cell(find(&self.x, p[0]), find(&self.y, p[1]))
     }
 
+    /// Every cell whose closed extent holds `p` (one inside a cell, two on a
+    /// grid line, four at a node), the one [`Grid::locate`] gives first,
+    /// then the others in grid order.
+    pub fn cells_touching(&self, p: [f64; 2]) -> impl Iterator<Item = CellIx> + '_ {
+        let first = self.locate(p);
+        let (i, j) = self.cell_ij(first);
+        let columns = Self::beside(&self.x, i, p[0]);
+        let rows = Self::beside(&self.y, j, p[1]);
+        std::iter::once(first).chain(
+            rows.flat_map(move |jj| columns.clone().map(move |ii| (ii, jj)))
+                .map(|(ii, jj)| self.cell(ii, jj))
+                .filter(move |&c| c != first),
+        )
+    }
+
+    /// Cell columns (or rows) beside coordinate `t` on axis `v`, given the
+    /// one `k` that holds it: `k`, and its neighbour too when `t` lies on
+    /// the grid line between them.
+    fn beside(v: &[f64], k: usize, t: f64) -> std::ops::RangeInclusive<usize> {
+        let lo = if t == v[k] && k > 0 { k - 1 } else { k };
+        let hi = if t == v[k + 1] && k + 2 < v.len() { k + 1 } else { k };
+        lo..=hi
+    }
+
     /// Smallest and largest step over both axes.
     pub fn step_range(&self) -> (f64, f64) {
         self.x
@@ -244,5 +274,10 @@ mod tests {
         assert_eq!(g.locate([2.5, 0.25]), g.cell(2, 0));
         assert_eq!(g.locate([3.0, 0.5]), g.cell(2, 0));
         assert_eq!(g.cell_nodes(g.cell(1, 0)), [NodeIx(1), NodeIx(2), NodeIx(5), NodeIx(6)]);
+        let touching = |g: &Grid, p| g.cells_touching(p).collect::<Vec<_>>();
+        assert_eq!(touching(&g, [2.5, 0.25]), vec![g.cell(2, 0)]);
+        assert_eq!(touching(&g, [2.0, 0.25]), vec![g.cell(2, 0), g.cell(1, 0)]);
+        let g2 = Grid { x: vec![0.0, 1.0, 2.0], y: vec![0.0, 1.0, 2.0] };
+        assert_eq!(touching(&g2, [1.0, 1.0]), vec![g2.cell(1, 1), g2.cell(0, 0), g2.cell(1, 0), g2.cell(0, 1)]);
     }
 }

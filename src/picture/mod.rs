@@ -216,6 +216,21 @@ fn thin(path: Vec<[f64; 2]>, tol: f64) -> Vec<[f64; 2]> {
     out
 }
 
+/// Most characters of the title drawn on a map (about its width at 15 px).
+const MAP_TITLE_CHARS: usize = 110;
+/// Most characters of a name drawn on a map (labels, legend).
+const MAP_NAME_CHARS: usize = 40;
+
+/// `s` cut to at most `max` characters, the cut marked with "…". The map
+/// has a fixed width, so longer text would only be clipped (and the SVG
+/// text layout's cost grows faster than the text's length).
+fn elide(s: &str, max: usize) -> String {
+    match s.char_indices().nth(max.saturating_sub(1)) {
+        Some((i, _)) if s.chars().count() > max => format!("{}…", &s[..i]),
+        _ => s.to_string(),
+    }
+}
+
 /// Computes a field map.
 pub fn build(inp: &MapInputs, config: &MapConfig) -> FieldMap {
     let MapInputs { case, grid, layout, phi, report } = *inp;
@@ -280,7 +295,7 @@ pub fn build(inp: &MapInputs, config: &MapConfig) -> FieldMap {
             let b = p.shape.bounds();
             let cx = 0.5 * (b.x0.max(d.x0) + b.x1.min(d.x1));
             let cy = 0.5 * (b.y0.max(d.y0) + b.y1.min(d.y1));
-            Label { text: p.name.clone(), at_mm: [to_mm(cx), to_mm(cy)] }
+            Label { text: elide(&p.name, MAP_NAME_CHARS), at_mm: [to_mm(cx), to_mm(cy)] }
         })
         .collect();
     let peaks = report
@@ -290,14 +305,14 @@ pub fn build(inp: &MapInputs, config: &MapConfig) -> FieldMap {
         .filter(|(_, p)| p.e_max_kv_per_mm > 0.0)
         .map(|(k, p)| Peak {
             number: k + 1,
-            part: p.name.clone(),
+            part: elide(&p.name, MAP_NAME_CHARS),
             at_mm: p.e_max_at_mm,
             e_kv_per_mm: p.e_max_kv_per_mm,
         })
         .collect();
 
     FieldMap {
-        title: report.title.clone(),
+        title: elide(&report.title, MAP_TITLE_CHARS),
         axisymmetric: case.geometry == Geometry::Axisymmetric,
         extent_mm,
         plot_px,
@@ -324,6 +339,14 @@ pub fn build(inp: &MapInputs, config: &MapConfig) -> FieldMap {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn long_text_is_elided_to_a_fixed_budget() {
+        assert_eq!(elide("short", 10), "short");
+        assert_eq!(elide("exactly10!", 10), "exactly10!");
+        assert_eq!(elide("eleven char", 10), "eleven ch…");
+        assert_eq!(elide(&"é".repeat(500), 40).chars().count(), 40);
+    }
 
     #[test]
     fn nice_numbers_and_ticks() {

@@ -38,6 +38,40 @@ pub struct Diff {
     pub parts: Vec<PartChange>,
 }
 
+/// Why `v` is not an hvstack result JSON, if it is not: an object with
+/// `hvstack_version`, `format_version`, a `verdict` of pass, review or
+/// fail, and `parts`, a list of objects each with a string `name`.
+pub fn not_a_result(v: &Value) -> Option<String> {
+    let Some(map) = v.as_object() else {
+        return Some(format!("is {}, not an object", kind(v)));
+    };
+    for key in ["hvstack_version", "format_version"] {
+        if !map.contains_key(key) {
+            return Some(format!("has no `{key}`"));
+        }
+    }
+    match v["verdict"].as_str() {
+        Some("pass" | "review" | "fail") => {}
+        _ => return Some(format!("`verdict` is {}, not \"pass\", \"review\" or \"fail\"", kind(&v["verdict"]))),
+    }
+    let Some(parts) = v["parts"].as_array() else {
+        return Some(format!("`parts` is {}, not a list", kind(&v["parts"])));
+    };
+    parts.iter().position(|p| !p["name"].is_string()).map(|k| format!("`parts[{k}]` has no `name` string"))
+}
+
+/// A JSON value's kind in words.
+fn kind(v: &Value) -> &'static str {
+    match v {
+        Value::Null => "missing or null",
+        Value::Bool(_) => "a boolean",
+        Value::Number(_) => "a number",
+        Value::String(_) => "a string",
+        Value::Array(_) => "a list",
+        Value::Object(_) => "an object",
+    }
+}
+
 fn figures(p: &Value) -> PartFigures {
     PartFigures {
         e_max_kv_per_mm: p["e_max_kv_per_mm"].as_f64(),
@@ -121,4 +155,25 @@ pub fn render_diff(d: &Diff) -> String {
         arrow(d.verdict[0].clone(), d.verdict[1].clone()),
         table(&["part", "", "E max kV/mm", "margin", "verdict"], rows, &[])
     )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use serde_json::json;
+
+    #[test]
+    fn only_hvstack_results_are_compared() {
+        let good =
+            json!({ "hvstack_version": "0.1.0", "format_version": 1, "verdict": "pass", "parts": [ { "name": "a" } ] });
+        assert_eq!(not_a_result(&good), None);
+        assert!(not_a_result(&json!([1, 2, 3])).unwrap().contains("a list, not an object"));
+        assert!(not_a_result(&json!({ "verdict": 5 })).unwrap().contains("hvstack_version"));
+        let mut bad = good.clone();
+        bad["verdict"] = json!(5);
+        assert!(not_a_result(&bad).unwrap().contains("`verdict` is a number"));
+        bad["verdict"] = json!("pass");
+        bad["parts"] = json!([ { "nom": "a" } ]);
+        assert!(not_a_result(&bad).unwrap().contains("parts[0]"));
+    }
 }

@@ -17,6 +17,8 @@ pub struct PageInputs<'a> {
     pub map_svg: &'a str,
     /// Other files of the review folder, linked from the page: (file name, what it holds).
     pub files: &'a [(String, String)],
+    /// The CSV file of each sampling line, in line order.
+    pub line_files: &'a [String],
 }
 
 const STYLE: &str = r#"
@@ -181,12 +183,12 @@ pub fn render_page(inp: &PageInputs) -> String {
                     table {
                         thead { tr { th { "line" } th.num { "from (mm)" } th.num { "to (mm)" }
                             th.num { "peak |E| (kV/mm)" } th.num { "at (mm)" } th { "samples" } } }
-                        tbody { @for l in &r.lines { tr {
+                        tbody { @for (l, file) in r.lines.iter().zip(inp.line_files) { tr {
                             td { (l.name) } td.num { (sig4(l.from_mm[0])) ", " (sig4(l.from_mm[1])) }
                             td.num { (sig4(l.to_mm[0])) ", " (sig4(l.to_mm[1])) }
                             td.num { (sig4(l.e_max_kv_per_mm)) }
                             td.num { (sig4(l.e_max_at_mm[0])) ", " (sig4(l.e_max_at_mm[1])) }
-                            td { a href={ "line-" (l.name) ".csv" } { "line-" (l.name) ".csv" } " (" (l.points) ")" }
+                            td { a href=(file) { (file) } " (" (l.points) ")" }
                         } } }
                     }
                 }

@@ -168,6 +168,26 @@ pub fn message(kind: &FindingKind) -> String {
                 g3(hi)
             )
         }
+        FindingKind::ImplausibleInput(note) => {
+            use crate::case::Magnitude;
+            let (what, unit, scale) = match note.quantity {
+                Magnitude::Length => ("length", "mm", 1e3),
+                Magnitude::Potential => ("potential", "kV", 1e-3),
+                Magnitude::PotentialDifference => ("largest potential difference", "kV", 1e-3),
+                Magnitude::Strength => ("breakdown strength", "kV/mm", 1e-6),
+                Magnitude::Permittivity => ("relative permittivity", "", 1.0),
+            };
+            let side = if note.above { "above" } else { "below" };
+            let line = note.line.map(|l| format!(" (line {l})")).unwrap_or_default();
+            let with_unit = |v: f64| if unit.is_empty() { g3(v * scale) } else { format!("{} {unit}", g3(v * scale)) };
+            format!(
+                "{}{line}: {what} {} is {side} {}, unusual for insulation work; check the value and its unit (lengths \
+                 in mm, potentials in kV, strengths in kV/mm).",
+                note.key,
+                with_unit(note.value),
+                with_unit(note.bound)
+            )
+        }
         FindingKind::MeshCheckFailed => {
             "the coarser grids of the mesh self-check could not be solved, so no peak field was checked for grid \
              dependence; review the grid settings."

@@ -113,8 +113,12 @@ pub fn render_summary(rows: &[SummaryRow]) -> String {
 }
 
 /// A JUnit-style XML report, one test per case: review and fail are
-/// failures, cases that could not be evaluated are errors.
+/// failures, cases that could not be evaluated are errors. Always
+/// well-formed: markup characters are escaped by the writer, and control
+/// characters (not allowed in XML 1.0 even as references) are written as
+/// `\u{…}` text.
 pub fn junit_xml(rows: &[SummaryRow]) -> String {
+    use crate::case::text::printable;
     let mut w = Writer::new_with_indent(Vec::new(), b' ', 2);
     let failures = rows.iter().filter(|r| r.exit_status == 1).count();
     let errors = rows.iter().filter(|r| r.exit_status == 2).count();
@@ -132,7 +136,7 @@ pub fn junit_xml(rows: &[SummaryRow]) -> String {
     let _ = w.write_event(Event::Start(suite));
     for r in rows {
         let mut case = BytesStart::new("testcase");
-        case.push_attribute(("name", r.file.as_str()));
+        case.push_attribute(("name", printable(&r.file).as_ref()));
         case.push_attribute(("classname", "hvstack.check"));
         if r.exit_status == 0 {
             let _ = w.write_event(Event::Empty(case));
@@ -153,6 +157,7 @@ pub fn junit_xml(rows: &[SummaryRow]) -> String {
                 ),
             ),
         };
+        let message = message.lines().map(|l| printable(l).into_owned()).collect::<Vec<_>>().join("\n");
         let mut el = BytesStart::new(tag);
         el.push_attribute(("message", message.lines().next().unwrap_or_default()));
         el.push_attribute(("type", r.verdict));

@@ -1,0 +1,7 @@
+//! The command's file and terminal side: what the library leaves to its
+//! caller. `input` reads what the user names, `output` writes without
+//! losing anything of the user's, `signals` makes interrupts truthful.
+
+pub mod input;
+pub mod output;
+pub mod signals;
