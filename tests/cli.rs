@@ -24,7 +24,8 @@ fn bad_inputs_exit_2_with_a_located_message() {
         if path.extension().and_then(|e| e.to_str()) != Some("yaml") {
             continue;
         }
-        let text = std::fs::read_to_string(&path).unwrap();
+        // lossy: the catalogue holds a file that is not UTF-8 on purpose
+        let text = String::from_utf8_lossy(&std::fs::read(&path).unwrap()).into_owned();
         let header = |key: &str| text.lines().find_map(|l| l.strip_prefix(&format!("# {key}: ")).map(str::to_string));
         let expect = header("expect").unwrap_or_else(|| panic!("{}: no `# expect:` line", path.display()));
         let file = path.to_str().unwrap();
@@ -38,9 +39,10 @@ fn bad_inputs_exit_2_with_a_located_message() {
             assert!(err.contains(&format!("{file}:{line}")), "{file}: expected line {line} in «{err}»");
         }
         assert!(!err.contains("panicked"), "{file}");
+        assert!(!err.chars().any(|c| c.is_control() && c != '\n'), "{file}: control characters reach the terminal");
         count += 1;
     }
-    assert!(count >= 30, "catalogue has {count} files");
+    assert!(count >= 50, "catalogue has {count} files");
 }
 
 #[test]
@@ -269,4 +271,56 @@ fn shards_are_disjoint_and_cover_the_batch() {
     parts.sort();
     assert_eq!(parts, all);
     assert_eq!(hvstack(&["check", "cases", "--shard", "0/3"]).status.code(), Some(2));
+}
+
+/// README's table of limits states the numbers the code enforces
+/// (`hvstack::case::limits`); a change to one must change the other.
+#[test]
+fn readme_states_the_limits_the_code_enforces() {
+    use hvstack::case::limits as l;
+    let readme = std::fs::read_to_string("README.md").unwrap();
+    let section = readme.split("## Limits").nth(1).expect("README has a Limits section");
+    let section = section.split("\n## ").next().unwrap();
+    let mib = (l::MAX_CASE_BYTES / (1024 * 1024)).to_string();
+    let counts = [
+        l::MAX_TITLE_CHARS,
+        l::MAX_NAME_CHARS,
+        l::MAX_SOURCE_CHARS,
+        l::MAX_PARTS,
+        l::MAX_LAYERS,
+        l::MAX_MATERIALS,
+        l::MAX_POLYGON_VERTICES,
+        l::MAX_PROBES,
+        l::MAX_LINES,
+        l::MAX_LINE_POINTS,
+        l::MAX_TOTAL_LINE_POINTS,
+        l::MAX_REFINE_BOXES,
+        hvstack::DEFAULT_MAX_NODES,
+        hvstack::grid::MAX_SUPPORTED_NODES,
+    ];
+    let values = [
+        l::MAX_COORDINATE_MM,
+        l::MIN_SIZE_MM,
+        l::MAX_POTENTIAL_KV,
+        l::MAX_PERMITTIVITY,
+        l::MIN_STRENGTH_KV_PER_MM,
+        l::MAX_STRENGTH_KV_PER_MM,
+        l::MAX_LOSS_TANGENT,
+        l::MAX_SAFETY_FACTOR,
+        l::PLAUSIBLE_MAX_POTENTIAL_KV,
+        l::PLAUSIBLE_MIN_DIFFERENCE_KV,
+        l::PLAUSIBLE_MAX_EXTENT_MM,
+        l::PLAUSIBLE_MAX_LAYER_MM,
+        l::PLAUSIBLE_MIN_SIZE_MM,
+        l::PLAUSIBLE_MAX_STRENGTH_KV_PER_MM,
+        l::PLAUSIBLE_MAX_PERMITTIVITY,
+    ];
+    assert!(section.contains(&format!("{mib} MiB")), "case size");
+    for n in counts {
+        assert!(section.contains(&n.to_string()), "README Limits lacks {n}");
+    }
+    for v in values {
+        assert!(section.contains(&v.to_string()), "README Limits lacks {v}");
+    }
+    assert!(section.contains(&format!("{:e} kV", l::MIN_POTENTIAL_KV)), "smallest potential");
 }

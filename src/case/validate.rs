@@ -509,10 +509,6 @@ fn polygon(ctx: &mut Ctx, key: &str, s: &ShapeFile, v: &[[f64; 2]]) -> Option<Sh
     }
     let pts: Vec<[f64; 2]> = v.iter().map(|p| p.map(units::mm)).collect();
     let poly = Shape::Polygon(pts.clone());
-    if poly.area() <= 0.0 {
-        ctx.err(&k, "polygon encloses no area");
-        return None;
-    }
     if let Some(c) = crate::shape::self_crossing(&pts) {
         let n = v.len();
         let (a, b) = c.edges;
@@ -527,6 +523,10 @@ fn polygon(ctx: &mut Ctx, key: &str, s: &ShapeFile, v: &[[f64; 2]]) -> Option<Sh
                 mm_text(c.at[1])
             ),
         );
+        return None;
+    }
+    if poly.area() <= 0.0 {
+        ctx.err(&k, "polygon encloses no area");
         return None;
     }
     let rounded = if let Some(arcs) = &s.arcs {
@@ -1204,7 +1204,7 @@ fn one_part(
     if let Some(d) = domain
         && !b.intersects(&d)
     {
-        ctx.err(&shape_key, "the part lies entirely outside the domain");
+        ctx.err(&shape_key, "lies entirely outside the domain");
         return None;
     }
     let (line, column) = match ctx.loc.find(key) {

@@ -42,7 +42,7 @@ pub struct GridLimits {
 pub enum GridError {
     /// The grid would exceed the node limit.
     #[error(
-        "the grid would need {} nodes ({} × {}, about {} GB of memory), above the limit of {limit}; raise grid.max_step or grid.min_step, lower grid.cells_across, or raise --max-nodes",
+        "the grid would need {} nodes ({} × {}, {} GB of memory), above the limit of {limit}; raise grid.max_step or grid.min_step, lower grid.cells_across, or raise --max-nodes",
         count_text(*.nodes), count_text(*.nx), count_text(*.ny), memory_estimate_gb(*.nodes)
     )]
     TooLarge {
@@ -101,13 +101,16 @@ pub fn count_text(n: usize) -> String {
 
 /// Estimated peak memory in GB of a check with this many nodes.
 pub fn memory_estimate_gb(nodes: usize) -> String {
+    if nodes == usize::MAX {
+        return format!("more than {:.0e}", usize::MAX as f64 * BYTES_PER_NODE as f64 / 1e9);
+    }
     let gb = nodes as f64 * BYTES_PER_NODE as f64 / 1e9;
     if gb < 0.1 {
-        "0.1".to_string()
+        "about 0.1".to_string()
     } else if gb < 1e6 {
-        format!("{gb:.1}")
+        format!("about {gb:.1}")
     } else {
-        format!("{gb:.0e}")
+        format!("about {gb:.0e}")
     }
 }
 
