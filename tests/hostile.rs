@@ -234,14 +234,7 @@ fn a_file_written_into_the_review_folder_during_the_run_is_kept() {
     write(&d.join("slow.yaml"), &slow_case());
     assert_eq!(review(d, "case.yaml", "rv").status.code(), Some(0));
     let page = std::fs::read(d.join("rv/index.html")).unwrap();
-    let child = Command::new(env!("CARGO_BIN_EXE_hvstack"))
-        .current_dir(d)
-        .args(["check", "slow.yaml", "--report", "rv"])
-        .stdout(Stdio::piped())
-        .stderr(Stdio::piped())
-        .spawn()
-        .unwrap();
-    wait_for_staging(d);
+    let child = slow_review_run(d);
     write(&d.join("rv/notes.txt"), "written while hvstack ran");
     let out = child.wait_with_output().unwrap();
     assert_eq!(out.status.code(), Some(2), "{}", stderr(&out));
@@ -250,6 +243,20 @@ fn a_file_written_into_the_review_folder_during_the_run_is_kept() {
     assert_eq!(std::fs::read_to_string(d.join("rv/notes.txt")).unwrap(), "written while hvstack ran");
     assert_eq!(std::fs::read(d.join("rv/index.html")).unwrap(), page, "the earlier review is in place");
     assert!(leftovers(d).is_empty(), "{:?}", leftovers(d));
+}
+
+/// Starts `check slow.yaml --report rv` in `dir` and returns once its
+/// staging folder exists (the run is then between staging and swap).
+fn slow_review_run(dir: &Path) -> std::process::Child {
+    let child = Command::new(env!("CARGO_BIN_EXE_hvstack"))
+        .current_dir(dir)
+        .args(["check", "slow.yaml", "--report", "rv"])
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    wait_for_staging(dir);
+    child
 }
 
 fn wait_for_staging(dir: &Path) {
@@ -275,14 +282,7 @@ fn interrupts_leave_the_earlier_review_and_say_so() {
     let page = std::fs::read(d.join("rv/index.html")).unwrap();
     // exit status 128 + signal number (common practice for shells)
     for (signal, code) in [("INT", 130), ("TERM", 143), ("HUP", 129)] {
-        let child = Command::new(env!("CARGO_BIN_EXE_hvstack"))
-            .current_dir(d)
-            .args(["check", "slow.yaml", "--report", "rv"])
-            .stdout(Stdio::piped())
-            .stderr(Stdio::piped())
-            .spawn()
-            .unwrap();
-        wait_for_staging(d);
+        let child = slow_review_run(d);
         let killed = Command::new("kill").args([&format!("-{signal}"), &child.id().to_string()]).status().unwrap();
         assert!(killed.success());
         let out = child.wait_with_output().unwrap();
