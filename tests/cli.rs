@@ -283,6 +283,9 @@ fn readme_states_the_limits_the_code_enforces() {
     let section = section.split("\n## ").next().unwrap();
     let mib = (l::MAX_CASE_BYTES / (1024 * 1024)).to_string();
     let counts = [
+        l::MAX_COLLECTION_ENTRIES,
+        l::MAX_VALUES,
+        l::MAX_DIAGNOSTICS,
         l::MAX_TITLE_CHARS,
         l::MAX_NAME_CHARS,
         l::MAX_SOURCE_CHARS,

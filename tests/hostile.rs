@@ -156,11 +156,13 @@ fn links_in_a_batch_are_followed_and_loops_listed() {
     std::os::unix::fs::symlink("../real.yaml", batch.join("linked.yaml")).unwrap();
     std::os::unix::fs::symlink("..", batch.join("up")).unwrap();
     std::os::unix::fs::symlink("gone.yaml", batch.join("dangling.yaml")).unwrap();
+    write(&batch.join("SHOUTED.YAML"), SMALL);
     let out = hvstack_in(tmp.path(), &["check", "batch", "--quiet", "--format", "json"]);
     let rows: serde_json::Value = serde_json::from_slice(&out.stdout).expect("rows");
     let by_file =
         |suffix: &str| rows.as_array().unwrap().iter().find(|r| r["file"].as_str().unwrap().ends_with(suffix)).cloned();
     assert_eq!(by_file("linked.yaml").expect("link followed")["verdict"], "pass");
+    assert_eq!(by_file("SHOUTED.YAML").expect("an upper-case extension is a case too")["verdict"], "pass");
     assert!(by_file("up").expect("loop listed")["error"].as_str().unwrap().contains("a loop"));
     assert!(
         by_file("dangling.yaml").expect("dangling link listed")["error"].as_str().unwrap().contains("cannot be read")
@@ -189,7 +191,7 @@ fn a_review_folder_is_replaced_only_while_it_holds_only_what_hvstack_wrote() {
     std::fs::copy(d.join("case.yaml"), d.join("rv/inside.yaml")).unwrap();
     let out = review(d, "rv/inside.yaml", "rv");
     assert_eq!(out.status.code(), Some(2));
-    assert!(stderr(&out).contains("the input rv/inside.yaml lies inside it"), "{}", stderr(&out));
+    assert!(stderr(&out).contains("holds inside.yaml, an input of this run"), "{}", stderr(&out));
     assert!(d.join("rv/inside.yaml").is_file(), "the case survives");
     // the same file found by a batch over its folder
     let out = hvstack_in(d, &["check", "rv", "--report", "rv", "--quiet"]);
@@ -450,4 +452,24 @@ fn line_names_may_be_any_printable_text() {
     let page = std::fs::read_to_string(tmp.path().join("rv/index.html")).unwrap();
     assert!(page.contains("href=\"line-etc-x.csv\""));
     assert!(!PathBuf::from("etc/x.csv").exists());
+}
+
+/// A document far beyond any case's size is refused where it crosses the
+/// limit, quickly, and a flood of problems is listed only up to 200.
+#[test]
+fn oversized_documents_are_refused_early_and_problems_are_capped() {
+    let tmp = tempfile::tempdir().unwrap();
+    let probes = vec!["[0, 0]"; 20_000].join(", ");
+    write(&tmp.path().join("flood.yaml"), &format!("title: t\nprobes: [{probes}]\n"));
+    let out = within(&["check", "flood.yaml"], tmp.path(), Duration::from_secs(20));
+    assert_eq!(out.status.code(), Some(2));
+    assert!(stderr(&out).contains("flood.yaml:2:80010: `probes` has more than 10000 entries"), "{}", stderr(&out));
+
+    let keys: String = (0..300).map(|k| format!("key{k}: 1\n")).collect();
+    write(&tmp.path().join("keys.yaml"), &keys);
+    let out = hvstack_in(tmp.path(), &["check", "keys.yaml"]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = stderr(&out);
+    assert_eq!(err.lines().count(), 201, "200 problems and one line saying there are more");
+    assert!(err.lines().last().unwrap().contains("and more problems (only the first 200 are listed)"), "{err}");
 }

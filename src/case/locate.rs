@@ -34,13 +34,26 @@ pub struct KeySite {
 }
 
 impl Locations {
-    /// Builds the index; a syntax error comes back as (line, column, message).
+    /// Builds the index; a syntax error or a document beyond the size limits
+    /// comes back as (line, column, message).
     pub fn index(text: &str) -> Result<Locations, (usize, usize, String)> {
         let mut builder = Builder::default();
         let mut parser = Parser::new_from_str(text);
-        parser
-            .load(&mut builder, false)
-            .map_err(|e| (e.marker().line(), e.marker().col() + 1, e.info().to_string()))?;
+        // Event by event (not `Parser::load`), so that a document beyond the
+        // size limits is refused where it crosses them, unread beyond.
+        loop {
+            let (event, mark) = parser
+                .next_token()
+                .map_err(|e| (e.marker().line(), e.marker().col() + 1, format!("YAML syntax error: {}", e.info())))?;
+            let end = matches!(event, Event::StreamEnd | Event::DocumentEnd);
+            builder.on_event(event, mark);
+            if let Some(refused) = builder.too_big {
+                return Err(refused);
+            }
+            if end {
+                break;
+            }
+        }
         let mut map = builder.map;
         // top-level problems (a missing key) point at the start of the file
         map.insert(String::new(), (1, 1));
@@ -63,15 +76,21 @@ impl Locations {
 }
 
 enum Frame {
-    Map { path: String, pattern: String, key: Option<String> },
+    Map { path: String, pattern: String, key: Option<String>, keys: usize },
     Seq { path: String, pattern: String, index: usize },
 }
+
+use super::limits::{MAX_COLLECTION_ENTRIES, MAX_VALUES};
 
 #[derive(Default)]
 struct Builder {
     stack: Vec<Frame>,
     map: HashMap<String, (usize, usize)>,
     keys: Vec<KeySite>,
+    values: usize,
+    /// The first size limit crossed: (line, column, message). Events after it
+    /// are ignored.
+    too_big: Option<(usize, usize, String)>,
 }
 
 /// Pattern of a mapping's child: names under `materials` become `*`.
@@ -84,19 +103,38 @@ fn join(parent: &str, key: &str) -> String {
 }
 
 impl Builder {
-    /// Path and pattern of the value about to start, recording sequence items.
-    fn value_path(&mut self, mark: Marker) -> (String, String) {
+    /// Path and pattern of the value about to start, recording sequence
+    /// items that are collections (a scalar item, such as a coordinate,
+    /// is found through its parent: same line, far less memory).
+    fn value_path(&mut self, mark: Marker, collection: bool) -> (String, String) {
+        self.values += 1;
+        if self.values > MAX_VALUES {
+            self.refuse(mark, format!("the document holds more than {MAX_VALUES} values; no case needs so many"));
+        }
         match self.stack.last_mut() {
             None => (String::new(), String::new()),
-            Some(Frame::Map { path, pattern, key }) => {
+            Some(Frame::Map { path, pattern, key, .. }) => {
                 let k = key.as_deref().unwrap_or("?");
                 (join(path, k), child_pattern(pattern, k))
             }
             Some(Frame::Seq { path, pattern, index }) => {
                 let p = format!("{path}[{index}]");
-                self.map.entry(p.clone()).or_insert((mark.line(), mark.col() + 1));
-                (p, format!("{pattern}[]"))
+                let out = (p.clone(), format!("{pattern}[]"));
+                if *index >= MAX_COLLECTION_ENTRIES {
+                    let message =
+                        format!("`{path}` has more than {MAX_COLLECTION_ENTRIES} entries; no case needs so many");
+                    self.refuse(mark, message);
+                } else if collection {
+                    self.map.entry(p).or_insert((mark.line(), mark.col() + 1));
+                }
+                out
             }
+        }
+    }
+
+    fn refuse(&mut self, mark: Marker, message: String) {
+        if self.too_big.is_none() {
+            self.too_big = Some((mark.line(), mark.col() + 1, message));
         }
     }
 
@@ -116,9 +154,23 @@ impl Builder {
 
 impl MarkedEventReceiver for Builder {
     fn on_event(&mut self, ev: Event, mark: Marker) {
+        if self.too_big.is_some() {
+            return;
+        }
         match ev {
             Event::Scalar(value, ..) if self.expecting_key() => {
-                if let Some(Frame::Map { path, pattern, key }) = self.stack.last_mut() {
+                if let Some(Frame::Map { path, keys, .. }) = self.stack.last_mut() {
+                    *keys += 1;
+                    if *keys > MAX_COLLECTION_ENTRIES {
+                        let at = if path.is_empty() { "the top level".to_string() } else { format!("`{path}`") };
+                        self.refuse(
+                            mark,
+                            format!("{at} has more than {MAX_COLLECTION_ENTRIES} keys; no case needs so many"),
+                        );
+                        return;
+                    }
+                }
+                if let Some(Frame::Map { path, pattern, key, .. }) = self.stack.last_mut() {
                     let p = join(path, &value);
                     self.map.entry(p).or_insert((mark.line(), mark.col() + 1));
                     self.keys.push(KeySite {
@@ -132,7 +184,7 @@ impl MarkedEventReceiver for Builder {
                 }
             }
             Event::Scalar(..) | Event::Alias(..) => {
-                self.value_path(mark);
+                self.value_path(mark, false);
                 self.value_done();
             }
             Event::MappingStart(..) | Event::SequenceStart(..) => {
@@ -142,9 +194,9 @@ impl MarkedEventReceiver for Builder {
                 {
                     *key = Some("?".into());
                 }
-                let (path, pattern) = self.value_path(mark);
+                let (path, pattern) = self.value_path(mark, true);
                 self.stack.push(if matches!(ev, Event::MappingStart(..)) {
-                    Frame::Map { path, pattern, key: None }
+                    Frame::Map { path, pattern, key: None, keys: 0 }
                 } else {
                     Frame::Seq { path, pattern, index: 0 }
                 });
@@ -171,6 +223,19 @@ mod tests {
         assert_eq!(loc.find("parts[0].shape.circle.radius").map(|p| p.0), Some(4));
         assert_eq!(loc.find("parts[1].name"), Some((5, 5)));
         assert_eq!(loc.find("parts[1].material").map(|p| p.0), Some(5));
+    }
+
+    #[test]
+    fn oversized_collections_are_refused_where_they_cross_the_limit() {
+        let list = format!("probes: [{}]\n", vec!["[0, 0]"; MAX_COLLECTION_ENTRIES + 1].join(", "));
+        let err = Locations::index(&list).unwrap_err();
+        assert_eq!(err.0, 1);
+        assert!(err.2.contains("`probes` has more than 10000 entries"), "{}", err.2);
+        let map: String = (0..=MAX_COLLECTION_ENTRIES).map(|k| format!("k{k}: 1\n")).collect();
+        let err = Locations::index(&map).unwrap_err();
+        assert_eq!(err.0, MAX_COLLECTION_ENTRIES + 1);
+        assert!(err.2.contains("the top level has more than 10000 keys"), "{}", err.2);
+        assert!(Locations::index(&format!("probes: [{}]\n", vec!["[0, 0]"; 1000].join(", "))).is_ok());
     }
 
     #[test]

@@ -13,6 +13,7 @@ mod validate;
 
 pub use model::*;
 
+use limits::MAX_DIAGNOSTICS;
 use locate::Locations;
 use std::fmt;
 
@@ -106,14 +107,20 @@ pub fn decode(bytes: &[u8], file: &str) -> Result<String, CaseError> {
 pub fn parse(text: &str, file: &str) -> Result<Case, CaseError> {
     let whole = text;
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
-    let fail = |diagnostics: Vec<Diagnostic>| CaseError { file: file.to_string(), diagnostics };
+    let fail = |mut diagnostics: Vec<Diagnostic>| {
+        if diagnostics.len() > MAX_DIAGNOSTICS {
+            diagnostics.truncate(MAX_DIAGNOSTICS);
+            diagnostics.push(Diagnostic {
+                key: String::new(),
+                line: None,
+                column: None,
+                message: format!("… and more problems (only the first {MAX_DIAGNOSTICS} are listed); fix these first"),
+            });
+        }
+        CaseError { file: file.to_string(), diagnostics }
+    };
     let locations = Locations::index(text).map_err(|(line, column, message)| {
-        fail(vec![Diagnostic {
-            key: String::new(),
-            line: Some(line),
-            column: Some(column),
-            message: format!("YAML syntax error: {message}"),
-        }])
+        fail(vec![Diagnostic { key: String::new(), line: Some(line), column: Some(column), message }])
     })?;
     let unknown = unknown_keys(&locations);
     if !unknown.is_empty() {
@@ -169,6 +176,7 @@ fn schema_errors(text: &str, locations: &Locations) -> Vec<Diagnostic> {
     let Ok(validator) = jsonschema::validator_for(&schema) else { return Vec::new() };
     validator
         .iter_errors(&instance)
+        .take(MAX_DIAGNOSTICS + 1)
         .map(|e| {
             let key = key_of_pointer(e.instance_path().as_str());
             let pos = locations.find(&key);

@@ -117,7 +117,7 @@ pub enum Entry {
 }
 
 /// The cases of a batch: files as given, folders searched recursively for
-/// *.yaml and *.yml (following links to files and folders, loops
+/// *.yaml and *.yml in any letter case (following links to files and folders, loops
 /// reported), sorted. Each case gets the name of its review subfolder: its
 /// path below the folder given (or its stem) without the extension, made
 /// safe and unique. A folder without any case is an error.
@@ -134,7 +134,11 @@ pub fn collect(paths: &[PathBuf]) -> Result<Vec<Entry>, String> {
         }
         out.push(Entry::Case(f, unique));
     };
-    let is_case_name = |p: &Path| matches!(p.extension().and_then(|e| e.to_str()), Some("yaml" | "yml"));
+    let is_case_name = |p: &Path| {
+        p.extension()
+            .and_then(|e| e.to_str())
+            .is_some_and(|e| e.eq_ignore_ascii_case("yaml") || e.eq_ignore_ascii_case("yml"))
+    };
     for p in paths {
         if !p.is_dir() {
             let key = p.file_stem().map_or_else(|| "case".to_string(), |s| s.to_string_lossy().into_owned());

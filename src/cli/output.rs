@@ -198,7 +198,14 @@ impl Staging {
         if abs.parent().is_none() {
             return Err(format!("{name}: cannot be a review folder (it has no parent folder to build it in)"));
         }
+        refusal(&abs, &ids).map_err(|why| format!("{name}: {why}"))?;
         let real = resolved(&abs);
+        if std::env::current_dir().is_ok_and(|cwd| resolved(&cwd).starts_with(&real)) {
+            return Err(format!(
+                "{name}: is the working folder or holds it, and a review folder is replaced whole; name a folder \
+                 beside it"
+            ));
+        }
         for input in inputs {
             if resolved(input).starts_with(&real) {
                 return Err(format!(
@@ -208,7 +215,6 @@ impl Staging {
                 ));
             }
         }
-        refusal(&abs, &ids).map_err(|why| format!("{name}: {why}"))?;
         let parent = abs.parent().unwrap_or(Path::new("/"));
         std::fs::create_dir_all(parent).map_err(|e| format!("{}: cannot create: {e}", shown(parent)))?;
         let mut o = outputs();
