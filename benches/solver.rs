@@ -20,8 +20,8 @@ geometry: planar
 domain: { x: [0, 100], y: [0, 100] }
 background: upper
 materials:
-  upper: { permittivity: 1.0, strength_kv_per_mm: 3, source: benchmark value }
-  lower: { permittivity: 4.0, strength_kv_per_mm: 20, source: benchmark value }
+  upper: { permittivity: 1.0, strength_kv_per_mm: 3, strength_basis: rms, source: benchmark value }
+  lower: { permittivity: 4.0, strength_kv_per_mm: 20, strength_basis: rms, source: benchmark value }
   disc: { permittivity: 80.0, source: benchmark value }
 parts:
   - { name: lower half, material: lower, shape: { rect: { x: [0, 100], y: [0, 50] } } }
@@ -50,8 +50,8 @@ fn run(n: usize, with_jacobi: bool) {
     let t = Instant::now();
     let prepared = hvstack::prepare_on_grid(case, "bench.yaml", Grid { x: axis.clone(), y: axis }).unwrap();
     let assembly = t.elapsed().as_secs_f64();
-    let a = &prepared.system.matrix;
-    let b = &prepared.system.rhs;
+    let a = &prepared.service.system.matrix;
+    let b = &prepared.service.system.rhs;
     let x: Vec<f64> = (0..a.rows()).map(|i| (i % 7) as f64).collect();
     let mut y = vec![0.0; a.rows()];
     let reps = (2e7 / a.nnz() as f64).clamp(3.0, 200.0) as usize;

@@ -25,10 +25,18 @@
 //! floating electrode share one unknown whose row is the sum of theirs,
 //! which states zero net charge. The matrix is symmetric positive definite
 //! whenever at least one node has a fixed potential.
+//!
+//! Structure apart from values: [`Factors`] (per-unit-permittivity
+//! conductances of every cell quarter) and [`Pattern`] (the numbering of the
+//! unknowns and the sparsity of the matrix) depend on the geometry only and
+//! are built once; a [`Stencil`] (edge conductances) is built from each
+//! evaluation's coefficients, and the matrix values and the right-hand side
+//! (from any set of electrode potentials) from a stencil.
 
-use crate::case::{Case, ElectrodeKind, Geometry};
+use crate::case::{ElectrodeKind, Geometry};
+use crate::coefficients::{Coefficient, Coefficients};
 use crate::grid::{CONDUCTOR, CellIx, Grid, Layout, NO_ELECTRODE, NodeIx};
-use crate::solve::{Matrix, RowBlock, from_row_blocks, sort_and_merge};
+use crate::solve::Matrix;
 use crate::units::EPSILON_0;
 use rayon::prelude::*;
 use std::f64::consts::PI;
@@ -58,104 +66,140 @@ pub fn is_log_form(r1: f64) -> bool {
     r1 > 0.0
 }
 
-/// Edge conductances of the discretised operator (F, or F/m when planar).
+/// Per-unit-permittivity conductances of every cell quarter, computed once
+/// per grid. They separate into a column and a row factor: planar
+/// `g_h = (1/hx)·(hy/2)`, `g_v = (hx/2)·(1/hy)`; axisymmetric
+/// `g_h = 2π·w_r·(hz/2)` with the radial weight w_r of [`radial_weight`],
+/// `g_v = π·(r_f² − r²)·(1/hz)` on each side of the face radius r_f, and the
+/// cross-term weight 2π·r_centre.
 #[derive(Debug, Clone, PartialEq)]
-pub struct Stencil {
-    /// Edge (i, j)–(i+1, j) at index `j·(nx−1) + i`.
-    pub gx: Vec<f64>,
-    /// Edge (i, j)–(i, j+1) at index `j·nx + i`.
-    pub gy: Vec<f64>,
-    /// Diagonal couplings of cells cut by an oblique interface (the ε_xy
-    /// term of their laminate tensor): (node, other node, conductance),
-    /// both directions, sorted. Conductances may be negative.
-    pub cross: Vec<(u32, u32, f64)>,
+pub struct Factors {
+    /// Per cell column i: [g_h, g_left, g_right, w] column factors.
+    column: Vec<[f64; 4]>,
+    /// Per cell row j: the row factors.
+    row: Vec<[f64; 4]>,
 }
 
-/// Per-unit-permittivity conductances of cell (i, j)'s quarters: (bottom or
-/// top edge, left edge, right edge), and the weight of the cross term
-/// (1 planar, 2π·r_centre axisymmetric).
-fn cell_factors(grid: &Grid, geometry: Geometry, i: usize, j: usize) -> (f64, f64, f64, f64) {
-    let (x0, x1) = (grid.x[i], grid.x[i + 1]);
-    let (hx, hy) = (x1 - x0, grid.y[j + 1] - grid.y[j]);
-    match geometry {
-        Geometry::Planar => (0.5 * hy / hx, 0.5 * hx / hy, 0.5 * hx / hy, 1.0),
-        Geometry::Axisymmetric => {
-            let radial = radial_weight(x0, x1);
-            let xm = face_radius(x0, x1);
-            (
-                2.0 * PI * 0.5 * hy * radial,
-                2.0 * PI * 0.5 * (xm * xm - x0 * x0) / hy,
-                2.0 * PI * 0.5 * (x1 * x1 - xm * xm) / hy,
-                2.0 * PI * 0.5 * (x0 + x1),
-            )
-        }
+impl Factors {
+    /// The factors of a grid.
+    pub fn new(grid: &Grid, geometry: Geometry) -> Factors {
+        let column = grid
+            .x
+            .windows(2)
+            .map(|w| {
+                let (x0, x1) = (w[0], w[1]);
+                match geometry {
+                    Geometry::Planar => {
+                        let hx = x1 - x0;
+                        [1.0 / hx, 0.5 * hx, 0.5 * hx, 1.0]
+                    }
+                    Geometry::Axisymmetric => {
+                        let xm = face_radius(x0, x1);
+                        [
+                            2.0 * PI * radial_weight(x0, x1),
+                            PI * (xm * xm - x0 * x0),
+                            PI * (x1 * x1 - xm * xm),
+                            PI * (x0 + x1),
+                        ]
+                    }
+                }
+            })
+            .collect();
+        let row = grid
+            .y
+            .windows(2)
+            .map(|w| {
+                let hy = w[1] - w[0];
+                [0.5 * hy, 1.0 / hy, 1.0 / hy, 1.0]
+            })
+            .collect();
+        Factors { column, row }
+    }
+
+    /// (bottom or top edge, left edge, right edge) quarter conductances per
+    /// unit permittivity of cell (i, j), and the weight of its cross term.
+    fn cell(&self, i: usize, j: usize) -> (f64, f64, f64, f64) {
+        let (c, r) = (self.column[i], self.row[j]);
+        (c[0] * r[0], c[1] * r[1], c[2] * r[2], c[3] * r[3])
     }
 }
 
-impl Stencil {
-    /// Conductances from the painted layout. `eps(c)` is the absolute
-    /// permittivity of cell c; conductor cells contribute nothing.
-    /// `eps(c)` gives the permittivity of cell c's quarter beside its bottom,
-    /// top, left and right edge (`None` for conductor cells).
-    pub fn build(grid: &Grid, geometry: Geometry, eps: impl Fn(CellIx) -> Option<[f64; 4]>) -> Stencil {
+/// Edge conductances of the discretised operator (F, or F/m when planar),
+/// for coefficients of type `T`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Stencil<T = f64> {
+    /// Edge (i, j)–(i+1, j) at index `j·(nx−1) + i`.
+    pub gx: Vec<T>,
+    /// Edge (i, j)–(i, j+1) at index `j·nx + i`.
+    pub gy: Vec<T>,
+    /// Diagonal couplings of cells cut by an oblique interface (the ε_xy
+    /// term of their laminate tensor): (node, other node, conductance),
+    /// both directions, sorted. Every cell where two regions meet has them,
+    /// zero or not, so that the matrix pattern does not depend on values.
+    pub cross: Vec<(u32, u32, T)>,
+}
+
+impl<T: Coefficient> Stencil<T> {
+    /// Conductances from per-cell coefficients: `coefficient(c)` gives the
+    /// relative coefficient of cell c's quarter beside its bottom, top, left
+    /// and right edge (`None` for conductor cells). No boundary edges, no
+    /// cross terms (for tests of the scheme itself).
+    pub fn build(grid: &Grid, factors: &Factors, coefficient: impl Fn(CellIx) -> Option<[T; 4]>) -> Stencil<T> {
         let (nx, ny) = (grid.nx(), grid.ny());
-        let mut gx = vec![0.0; (nx - 1) * ny];
-        let mut gy = vec![0.0; nx * (ny - 1)];
+        let zero = T::real(0.0);
+        let mut gx = vec![zero; (nx - 1) * ny];
+        let mut gy = vec![zero; nx * (ny - 1)];
         for j in 0..ny - 1 {
             for i in 0..nx - 1 {
-                let Some([e_bottom, e_top, e_left, e_right]) = eps(grid.cell(i, j)) else { continue };
-                let (g_h, g_left, g_right, _) = cell_factors(grid, geometry, i, j);
-                gx[j * (nx - 1) + i] += e_bottom * g_h;
-                gx[(j + 1) * (nx - 1) + i] += e_top * g_h;
-                gy[j * nx + i] += e_left * g_left;
-                gy[j * nx + i + 1] += e_right * g_right;
+                let Some([e_bottom, e_top, e_left, e_right]) = coefficient(grid.cell(i, j)) else { continue };
+                let (g_h, g_left, g_right, _) = factors.cell(i, j);
+                let (b, t, l, r) = (j * (nx - 1) + i, (j + 1) * (nx - 1) + i, j * nx + i, j * nx + i + 1);
+                gx[b] = gx[b] + e_bottom * (EPSILON_0 * g_h);
+                gx[t] = gx[t] + e_top * (EPSILON_0 * g_h);
+                gy[l] = gy[l] + e_left * (EPSILON_0 * g_left);
+                gy[r] = gy[r] + e_right * (EPSILON_0 * g_right);
             }
         }
         Stencil { gx, gy, cross: Vec::new() }
     }
 
-    /// The stencil of a case's painted layout. An edge that a curved
-    /// electrode outline crosses at fraction θ from its free node carries the
-    /// flux between that node and the outline: its conductance is divided by
-    /// θ (the symmetric Shortley–Weller form, which keeps the matrix SPD).
-    pub fn for_case(case: &Case, grid: &Grid, layout: &Layout) -> Stencil {
-        let mut s = Stencil::bulk(case, grid, layout);
-        for b in &layout.boundary_edges {
-            let g = if b.horizontal { &mut s.gx[b.edge as usize] } else { &mut s.gy[b.edge as usize] };
-            *g /= b.theta;
-        }
-        s
-    }
-
-    fn bulk(case: &Case, grid: &Grid, layout: &Layout) -> Stencil {
-        let eps: Vec<f64> = layout.regions.iter().map(|r| case.materials[r.material].epsilon()).collect();
-        let mut s = Stencil::build(grid, case.geometry, |c| {
+    /// The stencil of a painted layout at one evaluation's coefficients.
+    /// An edge that a curved electrode outline crosses at fraction θ from
+    /// its free node carries the flux between that node and the outline: its
+    /// conductance is divided by θ (the symmetric Shortley–Weller form, which
+    /// keeps the matrix SPD).
+    pub fn new(grid: &Grid, layout: &Layout, factors: &Factors, coefficients: &Coefficients<T>) -> Stencil<T> {
+        let mut s = Stencil::build(grid, factors, |c| {
             let r = layout.cell_region[c.0];
             if r == CONDUCTOR {
                 return None;
             }
             match layout.cut_cells.binary_search_by_key(&(c.0 as u32), |k| k.cell) {
-                Ok(k) => Some(layout.cut_cells[k].eps.map(|e| EPSILON_0 * e)),
-                Err(_) => Some([eps[r as usize]; 4]),
+                Ok(k) => Some(coefficients.cut[k].0),
+                Err(_) => Some([coefficients.region[r as usize]; 4]),
             }
         });
-        s.cross = cross_couplings(grid, case.geometry, layout);
+        for b in &layout.boundary_edges {
+            let g = if b.horizontal { &mut s.gx[b.edge as usize] } else { &mut s.gy[b.edge as usize] };
+            *g = *g * (1.0 / b.theta);
+        }
+        s.cross = cross_couplings(grid, layout, factors, coefficients);
         s
     }
 
     /// The neighbours of node n with their conductances: up to four along
     /// the grid lines, then any diagonal couplings.
-    pub fn neighbours(&self, grid: &Grid, n: NodeIx) -> impl Iterator<Item = (NodeIx, f64)> {
+    pub fn neighbours(&self, grid: &Grid, n: NodeIx) -> impl Iterator<Item = (NodeIx, T)> {
         let start = self.cross.partition_point(|c| (c.0 as usize) < n.0);
         let diagonal =
             self.cross[start..].iter().take_while(move |c| c.0 as usize == n.0).map(|c| (NodeIx(c.1 as usize), c.2));
         self.axis_neighbours(grid, n).chain(diagonal)
     }
 
-    fn axis_neighbours(&self, grid: &Grid, n: NodeIx) -> impl Iterator<Item = (NodeIx, f64)> {
+    fn axis_neighbours(&self, grid: &Grid, n: NodeIx) -> impl Iterator<Item = (NodeIx, T)> {
         let (nx, ny) = (grid.nx(), grid.ny());
         let (i, j) = grid.node_ij(n);
-        let mut out = [(NodeIx(0), 0.0); 4];
+        let mut out = [(NodeIx(0), T::real(0.0)); 4];
         let mut k = 0;
         if i > 0 {
             out[k] = (grid.node(i - 1, j), self.gx[j * (nx - 1) + i - 1]);
@@ -175,7 +219,9 @@ impl Stencil {
         }
         out.into_iter().take(k)
     }
+}
 
+impl Stencil<f64> {
     /// Discrete energy `½·Σ_edges G·(Δφ)²` of a nodal potential (J, or J/m).
     pub fn energy(&self, grid: &Grid, phi: &[f64]) -> f64 {
         let (nx, ny) = (grid.nx(), grid.ny());
@@ -211,7 +257,7 @@ impl Stencil {
 /// `cross_couplings`).
 const CROSS_LIMIT: f64 = 0.95;
 
-/// The ε_xy term of each cut cell's laminate tensor as diagonal couplings.
+/// The ε_xy term of each laminate cut cell as diagonal couplings.
 ///
 /// With bilinear φ in the cell, ∫ε_xy·∂xφ·∂yφ dA = κ·(s·φ)(t·φ), where
 /// s·φ = φ2 − φ1 + φ4 − φ3 and t·φ = φ3 − φ1 + φ4 − φ2 (nodes 1–4 at the
@@ -221,18 +267,25 @@ const CROSS_LIMIT: f64 = 0.95;
 /// conductances bound its energy below by Hx·(s·φ)² + Hy·(t·φ)² (Hx, Hy the
 /// series values of its two x and two y quarters), so |κ| ≤ 2·√(Hx·Hy)
 /// keeps its whole contribution positive semi-definite and the matrix SPD.
-fn cross_couplings(grid: &Grid, geometry: Geometry, layout: &Layout) -> Vec<(u32, u32, f64)> {
+fn cross_couplings<T: Coefficient>(
+    grid: &Grid,
+    layout: &Layout,
+    factors: &Factors,
+    coefficients: &Coefficients<T>,
+) -> Vec<(u32, u32, T)> {
     let mut out = Vec::new();
-    for c in layout.cut_cells.iter().filter(|c| c.eps_xy != 0.0) {
+    for (c, (q, xy)) in layout.cut_cells.iter().zip(&coefficients.cut) {
+        if c.normal.is_none() {
+            continue;
+        }
         let (i, j) = grid.cell_ij(CellIx(c.cell as usize));
-        let (g_h, g_left, g_right, w) = cell_factors(grid, geometry, i, j);
-        let series = |a: f64, b: f64| a * b / (a + b);
-        let hx = series(c.eps[0] * g_h, c.eps[1] * g_h);
-        let hy = series(c.eps[2] * g_left, c.eps[3] * g_right);
-        let limit = CROSS_LIMIT * 2.0 * (hx * hy).sqrt();
-        let kappa = EPSILON_0 * (0.25 * w * c.eps_xy).clamp(-limit, limit);
+        let (g_h, g_left, g_right, w) = factors.cell(i, j);
+        let series = |a: T, b: T| a * b / (a + b);
+        let hx = series(q[0] * g_h, q[1] * g_h);
+        let hy = series(q[2] * g_left, q[3] * g_right);
+        let kappa = T::limit_cross(*xy * (0.25 * w), hx, hy, CROSS_LIMIT) * EPSILON_0;
         let [n1, n2, n3, n4] = grid.cell_nodes(CellIx(c.cell as usize)).map(|n| n.0 as u32);
-        for (a, b, g) in [(n1, n4, 2.0 * kappa), (n2, n3, -2.0 * kappa)] {
+        for (a, b, g) in [(n1, n4, kappa * 2.0), (n2, n3, kappa * -2.0)] {
             out.push((a, b, g));
             out.push((b, a, g));
         }
@@ -241,7 +294,7 @@ fn cross_couplings(grid: &Grid, geometry: Geometry, layout: &Layout) -> Vec<(u32
     // Neighbouring cut cells share no diagonal, but merge defensively.
     out.dedup_by(|next, kept| {
         if (next.0, next.1) == (kept.0, kept.1) {
-            kept.2 += next.2;
+            kept.2 = kept.2 + next.2;
             true
         } else {
             false
@@ -258,13 +311,14 @@ const NODE_CHUNK: usize = 8192;
 pub enum Constraint {
     /// An unknown of its own.
     Free,
-    /// Fixed potential in V.
-    Fixed(f64),
+    /// A fixed potential: index into the potentials given to
+    /// [`Pattern::rhs`] (the electrode index for a painted case).
+    Fixed(u32),
     /// Shares one unknown with every node of the same group (a floating electrode).
     Group(u32),
 }
 
-/// The constraints of a painted case.
+/// The constraints of a painted case: fixed electrodes by their index.
 pub fn constraints(layout: &Layout) -> Vec<Constraint> {
     layout
         .node_electrode
@@ -274,9 +328,22 @@ pub fn constraints(layout: &Layout) -> Vec<Constraint> {
                 return Constraint::Free;
             }
             match layout.electrodes[e as usize].kind {
-                ElectrodeKind::Fixed { potential_v } => Constraint::Fixed(potential_v),
+                ElectrodeKind::Fixed { .. } => Constraint::Fixed(e),
                 ElectrodeKind::Floating => Constraint::Group(e),
             }
+        })
+        .collect()
+}
+
+/// The electrode potentials of a painted case in V, by electrode index (0
+/// for floating ones, which are unknowns).
+pub fn potentials(layout: &Layout) -> Vec<f64> {
+    layout
+        .electrodes
+        .iter()
+        .map(|e| match e.kind {
+            ElectrodeKind::Fixed { potential_v } => potential_v,
+            ElectrodeKind::Floating => 0.0,
         })
         .collect()
 }
@@ -284,7 +351,21 @@ pub fn constraints(layout: &Layout) -> Vec<Constraint> {
 #[derive(Debug, Clone, Copy, PartialEq)]
 enum Dof {
     Unknown(usize),
-    Fixed(f64),
+    Fixed(u32),
+}
+
+/// The numbering of the unknowns and the sparsity pattern of the matrix:
+/// built once from the geometry, then filled with the values of any
+/// stencil of the same layout.
+#[derive(Debug, Clone)]
+pub struct Pattern {
+    dofs: Vec<Dof>,
+    /// Free nodes, in node order (row r is the node `free[r]`).
+    free: Vec<NodeIx>,
+    /// The nodes of each group row (after the free rows).
+    groups: Vec<Vec<NodeIx>>,
+    indptr: Vec<usize>,
+    indices: Vec<u32>,
 }
 
 /// The linear system `A·u = b` for the unknown potentials.
@@ -294,7 +375,6 @@ pub struct System {
     pub matrix: Matrix,
     /// Right-hand side (from the fixed potentials).
     pub rhs: Vec<f64>,
-    dofs: Vec<Dof>,
 }
 
 /// Why a system could not be assembled.
@@ -306,103 +386,192 @@ pub enum AssembleError {
     NoFixedPotential,
 }
 
-impl System {
+/// True when an edge of this conductance belongs to the pattern: grid
+/// edges with no conductance (between conductor cells) do not; diagonal
+/// couplings always do.
+fn in_pattern<T: Coefficient>(g: T, diagonal: bool) -> bool {
+    diagonal || g != T::real(0.0)
+}
+
+impl Pattern {
     /// Numbers the unknowns (free nodes in node order, then one per group)
-    /// and assembles the matrix row by row straight into CSR, free rows in
-    /// parallel chunks (each row summed in a fixed order: deterministic).
-    pub fn assemble(grid: &Grid, stencil: &Stencil, constraints: &[Constraint]) -> Result<System, AssembleError> {
+    /// and finds every row's columns from the edges of `stencil` (any
+    /// evaluation of the layout: the pattern does not depend on values).
+    pub fn new<T: Coefficient>(
+        grid: &Grid,
+        stencil: &Stencil<T>,
+        constraints: &[Constraint],
+    ) -> Result<Pattern, AssembleError> {
         if !constraints.iter().any(|c| matches!(c, Constraint::Fixed(_))) {
             return Err(AssembleError::NoFixedPotential);
         }
-        let mut dofs = vec![Dof::Fixed(0.0); constraints.len()];
-        let mut rows: Vec<Vec<NodeIx>> = Vec::new();
-        let mut group_row: std::collections::BTreeMap<u32, usize> = Default::default();
-        let mut free = 0usize;
+        let mut dofs = vec![Dof::Fixed(0); constraints.len()];
+        let mut free = Vec::new();
         for (n, c) in constraints.iter().enumerate() {
             if let Constraint::Free = c {
-                dofs[n] = Dof::Unknown(free);
-                free += 1;
+                dofs[n] = Dof::Unknown(free.len());
+                free.push(NodeIx(n));
             }
         }
+        let mut groups: Vec<Vec<NodeIx>> = Vec::new();
+        let mut group_row: std::collections::BTreeMap<u32, usize> = Default::default();
         for (n, c) in constraints.iter().enumerate() {
             match *c {
                 Constraint::Free => {}
-                Constraint::Fixed(v) => dofs[n] = Dof::Fixed(v),
+                Constraint::Fixed(k) => dofs[n] = Dof::Fixed(k),
                 Constraint::Group(g) => {
-                    let next = free + group_row.len();
+                    let next = free.len() + group_row.len();
                     let r = *group_row.entry(g).or_insert(next);
                     dofs[n] = Dof::Unknown(r);
-                    if r - free == rows.len() {
-                        rows.push(Vec::new());
+                    if r - free.len() == groups.len() {
+                        groups.push(Vec::new());
                     }
-                    rows[r - free].push(NodeIx(n));
+                    groups[r - free.len()].push(NodeIx(n));
                 }
             }
         }
-        let size = free + rows.len();
-        // One row: the flux balance of a node (or of all nodes of a group),
-        // merged by column. Returns the right-hand side.
-        let emit = |row: usize, nodes: &mut dyn Iterator<Item = NodeIx>, entries: &mut Vec<(u32, f64)>| {
-            entries.clear();
-            let mut b = 0.0;
-            for n in nodes {
-                for (m, g) in stencil.neighbours(grid, n) {
-                    if g == 0.0 {
-                        continue;
-                    }
-                    entries.push((row as u32, g));
-                    match dofs[m.0] {
-                        Dof::Unknown(q) => entries.push((q as u32, -g)),
-                        Dof::Fixed(v) => b += g * v,
+        let mut p = Pattern { dofs, free, groups, indptr: Vec::new(), indices: Vec::new() };
+        // The columns of each row: itself and every unknown it couples to.
+        let row_columns = |row: usize, nodes: &[NodeIx], out: &mut Vec<u32>| {
+            out.clear();
+            out.push(row as u32);
+            for &n in nodes {
+                let axis = 4.min(stencil.axis_neighbours(grid, n).count());
+                for (k, (m, g)) in stencil.neighbours(grid, n).enumerate() {
+                    if let (true, Dof::Unknown(q)) = (in_pattern(g, k >= axis), p.dofs[m.0]) {
+                        out.push(q as u32);
                     }
                 }
             }
-            sort_and_merge(entries);
-            b
+            out.sort_unstable();
+            out.dedup();
         };
-        // Free rows in parallel over chunks of nodes (rows come in node order).
-        let parts: Vec<(RowBlock, Vec<f64>)> = (0..constraints.len().div_ceil(NODE_CHUNK))
-            .into_par_iter()
-            .map(|c| {
-                let (mut block, mut b) = (RowBlock::default(), Vec::new());
-                let mut entries = Vec::new();
-                for n in c * NODE_CHUNK..((c + 1) * NODE_CHUNK).min(constraints.len()) {
-                    if let (Dof::Unknown(r), Constraint::Free) = (dofs[n], constraints[n]) {
-                        b.push(emit(r, &mut std::iter::once(NodeIx(n)), &mut entries));
-                        block.push_row(entries.iter().copied());
-                    }
+        let chunks: Vec<(Vec<usize>, Vec<u32>)> = p
+            .free
+            .par_chunks(NODE_CHUNK)
+            .enumerate()
+            .map(|(c, nodes)| {
+                let (mut counts, mut cols, mut row) = (Vec::new(), Vec::new(), Vec::new());
+                for (k, &n) in nodes.iter().enumerate() {
+                    row_columns(c * NODE_CHUNK + k, &[n], &mut row);
+                    counts.push(row.len());
+                    cols.extend_from_slice(&row);
                 }
-                (block, b)
+                (counts, cols)
             })
             .collect();
-        let mut rhs = Vec::with_capacity(size);
-        let mut blocks = Vec::with_capacity(parts.len() + 1);
-        for (block, b) in parts {
-            rhs.extend_from_slice(&b);
-            blocks.push(block);
+        let mut indptr = vec![0usize];
+        let mut indices = Vec::new();
+        for (counts, cols) in chunks {
+            for c in counts {
+                indptr.push(indptr[indptr.len() - 1] + c);
+            }
+            indices.extend_from_slice(&cols);
         }
-        let (mut groups, mut entries) = (RowBlock::default(), Vec::new());
-        for (k, nodes) in rows.iter().enumerate() {
-            rhs.push(emit(free + k, &mut nodes.iter().copied(), &mut entries));
-            groups.push_row(entries.iter().copied());
+        let mut row = Vec::new();
+        for (k, nodes) in p.groups.iter().enumerate() {
+            row_columns(p.free.len() + k, nodes, &mut row);
+            indptr.push(indptr[indptr.len() - 1] + row.len());
+            indices.extend_from_slice(&row);
         }
-        blocks.push(groups);
-        let matrix = from_row_blocks(size, size, blocks);
-        Ok(System { matrix, rhs, dofs })
+        p.indptr = indptr;
+        p.indices = indices;
+        Ok(p)
     }
 
     /// Number of unknowns.
     pub fn unknowns(&self) -> usize {
-        self.rhs.len()
+        self.indptr.len() - 1
     }
 
-    /// Nodal potentials from the solved unknowns.
-    pub fn expand(&self, u: &[f64]) -> Vec<f64> {
+    /// The nodes whose balance row `r` states.
+    fn row_nodes(&self, r: usize) -> &[NodeIx] {
+        if r < self.free.len() { std::slice::from_ref(&self.free[r]) } else { &self.groups[r - self.free.len()] }
+    }
+
+    /// The matrix values (CSR order) of `stencil`: each row the flux balance
+    /// of its node (or of all nodes of a group), rows in parallel, each
+    /// entry summed in a fixed order (deterministic).
+    pub fn values<T: Coefficient>(&self, grid: &Grid, stencil: &Stencil<T>) -> Vec<T> {
+        let zero = T::real(0.0);
+        let mut data = vec![zero; self.indices.len()];
+        let fill = |r: usize, out: &mut [T]| {
+            let cols = &self.indices[self.indptr[r]..self.indptr[r + 1]];
+            let diag = cols.binary_search(&(r as u32)).unwrap_or(0);
+            for &n in self.row_nodes(r) {
+                let axis = 4.min(stencil.axis_neighbours(grid, n).count());
+                for (k, (m, g)) in stencil.neighbours(grid, n).enumerate() {
+                    if !in_pattern(g, k >= axis) {
+                        continue;
+                    }
+                    out[diag] = out[diag] + g;
+                    if let Dof::Unknown(q) = self.dofs[m.0]
+                        && let Ok(at) = cols.binary_search(&(q as u32))
+                    {
+                        out[at] = out[at] - g;
+                    }
+                }
+            }
+        };
+        // Rows are contiguous in `data`: split it into chunks of rows, filled
+        // in parallel.
+        let rows = self.unknowns();
+        let mut rest: &mut [T] = &mut data;
+        let mut chunks = Vec::with_capacity(rows.div_ceil(NODE_CHUNK));
+        for first in (0..rows).step_by(NODE_CHUNK) {
+            let last = (first + NODE_CHUNK).min(rows);
+            let (head, tail) = rest.split_at_mut(self.indptr[last] - self.indptr[first]);
+            chunks.push((first, last, head));
+            rest = tail;
+        }
+        chunks.into_par_iter().for_each(|(first, last, out)| {
+            let base = self.indptr[first];
+            for r in first..last {
+                fill(r, &mut out[self.indptr[r] - base..self.indptr[r + 1] - base]);
+            }
+        });
+        data
+    }
+
+    /// The matrix of a real stencil.
+    pub fn matrix(&self, grid: &Grid, stencil: &Stencil<f64>) -> Matrix {
+        let n = self.unknowns();
+        Matrix::new((n, n), self.indptr.clone(), self.indices.clone(), self.values(grid, stencil))
+    }
+
+    /// The right-hand side for the fixed potentials `potentials` (V, by
+    /// the index in `Constraint::Fixed`): Σ G·V over each row's couplings to
+    /// fixed nodes.
+    pub fn rhs<T: Coefficient>(&self, grid: &Grid, stencil: &Stencil<T>, potentials: &[f64]) -> Vec<T> {
+        (0..self.unknowns())
+            .into_par_iter()
+            .with_min_len(NODE_CHUNK)
+            .map(|r| {
+                let mut b = T::real(0.0);
+                for &n in self.row_nodes(r) {
+                    for (m, g) in stencil.neighbours(grid, n) {
+                        if let Dof::Fixed(k) = self.dofs[m.0] {
+                            b = b + g * potentials[k as usize];
+                        }
+                    }
+                }
+                b
+            })
+            .collect()
+    }
+
+    /// The system of a real stencil for the given fixed potentials.
+    pub fn system(&self, grid: &Grid, stencil: &Stencil<f64>, potentials: &[f64]) -> System {
+        System { matrix: self.matrix(grid, stencil), rhs: self.rhs(grid, stencil, potentials) }
+    }
+
+    /// Nodal potentials from the solved unknowns and the fixed potentials.
+    pub fn expand(&self, u: &[f64], potentials: &[f64]) -> Vec<f64> {
         self.dofs
             .iter()
             .map(|d| match *d {
                 Dof::Unknown(k) => u[k],
-                Dof::Fixed(v) => v,
+                Dof::Fixed(k) => potentials[k as usize],
             })
             .collect()
     }

@@ -116,6 +116,52 @@ pub enum FindingKind {
     /// A legal input value lies outside the range usual in insulation work
     /// (a probable unit slip).
     ImplausibleInput(crate::case::Implausible),
+    /// The case states no `operation:`, so its potentials were read as
+    /// instantaneous (peak) values of a static field.
+    OperationNotStated,
+    /// Water or temperature elsewhere moved stress onto this part enough to
+    /// worsen its verdict against the dry case at the reference temperature.
+    StressShift {
+        /// Peak field at service conditions, V/m (case convention).
+        e_max: f64,
+        /// Peak field dry at the reference temperature, V/m.
+        e_max_reference: f64,
+        /// Verdict dry at the reference temperature.
+        from: Verdict,
+        /// Verdict at service conditions.
+        to: Verdict,
+        /// The wet or hot parts that moved it.
+        causes: Vec<String>,
+    },
+    /// The part is wetter or hotter than its strength value holds for.
+    DryStrengthUsed {
+        /// The part's temperature, °C.
+        temperature_c: f64,
+        /// Its water volume fraction.
+        water_volume_fraction: f64,
+        /// What the strength holds for.
+        holds_for: crate::materials::StrengthConditions,
+    },
+    /// A water content outside what its mixing rule (or any) describes.
+    MixingRuleRange {
+        /// The rule.
+        rule: crate::materials::MixingRule,
+        /// Water volume fraction.
+        fraction: f64,
+        /// The fraction the rule holds up to.
+        limit: f64,
+    },
+    /// A temperature outside the range a permittivity model holds over.
+    OutsideModelRange {
+        /// What the model is of ("water", or a material name).
+        model: String,
+        /// The temperature, °C.
+        temperature_c: f64,
+        /// The model's range, °C.
+        range: (f64, f64),
+    },
+    /// Water dipoles are aligned far enough for linear response to fail.
+    DipoleSaturation(Dipole),
     /// A user value lies outside the range published for its base material.
     ValueOutOfRange {
         /// Material name.
@@ -144,6 +190,12 @@ impl FindingKind {
             FindingKind::MeshCheckFailed => "mesh-check-failed",
             FindingKind::ValueOutOfRange { .. } => "value-out-of-range",
             FindingKind::ImplausibleInput(_) => "implausible-input",
+            FindingKind::OperationNotStated => "operation-not-stated",
+            FindingKind::StressShift { .. } => "stress-shifted",
+            FindingKind::DryStrengthUsed { .. } => "dry-strength-used",
+            FindingKind::MixingRuleRange { .. } => "mixing-rule-range",
+            FindingKind::OutsideModelRange { .. } => "outside-model-range",
+            FindingKind::DipoleSaturation(_) => "dipole-saturation",
         }
     }
 
@@ -151,7 +203,9 @@ impl FindingKind {
     pub fn severity(&self) -> Severity {
         match self {
             FindingKind::AboveBreakdown { .. } | FindingKind::GasAboveBreakdown { .. } => Severity::Fail,
-            FindingKind::GenericMaterial { .. } => Severity::Info,
+            FindingKind::GenericMaterial { .. }
+            | FindingKind::OperationNotStated
+            | FindingKind::DipoleSaturation(_) => Severity::Info,
             _ => Severity::Warning,
         }
     }
@@ -179,7 +233,50 @@ pub struct PartAssessment {
     pub w_max: f64,
     /// Largest polarisation energy density ½·ε0·(εr − 1)·E² in J/m³.
     pub w_pol_max: f64,
+    /// Relative permittivity at service conditions.
+    pub permittivity: f64,
+    /// Relative permittivity dry at the reference temperature.
+    pub permittivity_reference: f64,
+    /// Temperature, °C.
+    pub temperature_c: f64,
+    /// Absorbed water volume fraction, if any.
+    pub water_volume_fraction: Option<f64>,
+    /// Breakdown strength in the case's convention (rms or peak), V/m.
+    pub strength: Option<f64>,
+    /// Peak field dry at the reference temperature, V/m (when the case
+    /// differs from it).
+    pub e_max_reference: Option<f64>,
+    /// Relative change of the peak field against that reference.
+    pub e_max_change: Option<f64>,
 }
+
+/// How far the field turns the water dipoles of a part toward it: x =
+/// p·E/(k·T) with E the instantaneous peak field, and the mean ⟨cos θ⟩ =
+/// L(x) = coth x − 1/x (Langevin function; Debye, *Polar Molecules*, 1929).
+/// For x ≪ 1, L(x) ≈ x/3 and the polarisation is linear in E.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Dipole {
+    /// Region of the part with the largest x.
+    pub region: usize,
+    /// The largest x.
+    pub x: f64,
+    /// ⟨cos θ⟩ at that x.
+    pub cos_theta: f64,
+}
+
+/// Above this x = p·E/(k·T) linear response no longer holds well enough:
+/// L(x) falls 1 % below x/3 near x = 0.39 (from the series x/3 − x³/45).
+pub const DIPOLE_LINEAR_LIMIT: f64 = 0.3;
+
+/// The Langevin function L(x) = coth x − 1/x (its series below 1e-3, where
+/// the difference cancels).
+pub fn langevin(x: f64) -> f64 {
+    if x.abs() < 1e-3 { x / 3.0 - x * x * x / 45.0 } else { 1.0 / x.tanh() - 1.0 / x }
+}
+
+/// Two temperatures this close count as the same for a strength value, K
+/// (datasheet strengths are quoted at "room temperature", 20–25 °C).
+pub const STRENGTH_TEMPERATURE_SLACK_K: f64 = 10.0;
 
 /// Field concentration over the whole case.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -216,6 +313,34 @@ pub struct Assessment {
     pub capacitance: Option<Capacitance>,
     /// When electrodes at different potentials exist.
     pub concentration: Option<Concentration>,
+    /// Water dipole alignment, when a part holds water.
+    pub dipole: Option<Dipole>,
+}
+
+/// The dry-reference evaluation of a case.
+#[derive(Debug, Clone, Copy)]
+pub struct Reference<'a> {
+    /// Relative permittivity of each region, dry at the reference temperature.
+    pub permittivity: &'a [f64],
+    /// The fields of that evaluation.
+    pub fields: &'a Fields,
+}
+
+/// What the assessment judges.
+#[derive(Debug, Clone, Copy)]
+pub struct Inputs<'a> {
+    /// The case.
+    pub case: &'a Case,
+    /// Its layout.
+    pub layout: &'a Layout,
+    /// Relative permittivity of each region at service conditions.
+    pub permittivity: &'a [f64],
+    /// The fields at service conditions.
+    pub fields: &'a Fields,
+    /// The mesh self-check (`None` when it could not be run).
+    pub check: Option<&'a MeshCheck>,
+    /// The dry reference, when the case differs from it.
+    pub reference: Option<Reference<'a>>,
 }
 
 /// Part verdict from its margin.
@@ -229,9 +354,11 @@ pub fn part_verdict(margin: Option<f64>, has_strength: bool, safety_factor: f64)
     }
 }
 
-/// Judges the solved case; `check` is the mesh self-check (`None` when it
-/// could not be run, which is itself a finding).
-pub fn assess(case: &Case, layout: &Layout, fields: &Fields, check: Option<&MeshCheck>) -> Assessment {
+/// Judges the solved case (see [`Inputs`]).
+pub fn assess(inp: &Inputs) -> Assessment {
+    let Inputs { case, layout, permittivity, fields, check, reference } = *inp;
+    let values = case.operation.values;
+    let states = crate::coefficients::states(case, layout, crate::coefficients::Conditions::Service);
     let mut parts = Vec::new();
     let mut findings = Vec::new();
     for (r, region) in layout.regions.iter().enumerate() {
@@ -243,10 +370,11 @@ pub fn assess(case: &Case, layout: &Layout, fields: &Fields, check: Option<&Mesh
             continue;
         }
         let m = &case.materials[region.material];
-        let margin = m.strength_v_per_m.filter(|_| f.e_max > 0.0).map(|s| s / f.e_max);
-        let verdict = part_verdict(margin, m.strength_v_per_m.is_some(), case.safety_factor);
+        let strength = m.strength_in(values);
+        let margin = strength.filter(|_| f.e_max > 0.0).map(|s| s / f.e_max);
+        let verdict = part_verdict(margin, strength.is_some(), case.safety_factor);
         let part = Some(region.name.clone());
-        match (m.strength_v_per_m, margin) {
+        match (strength, margin) {
             (None, _) => findings
                 .push(Finding { kind: FindingKind::NoStrength { material: m.name.clone() }, part: part.clone() }),
             (Some(strength), Some(mg)) if mg < 1.0 => {
@@ -277,16 +405,47 @@ pub fn assess(case: &Case, layout: &Layout, fields: &Fields, check: Option<&Mesh
             }
         }
         if region.cells_across < MIN_CELLS_ACROSS {
-            findings.push(Finding { kind: FindingKind::CoarseGrid { cells_across: region.cells_across }, part });
+            findings.push(Finding {
+                kind: FindingKind::CoarseGrid { cells_across: region.cells_across },
+                part: part.clone(),
+            });
         }
+        let state = states[r];
+        findings.extend(
+            state_findings(m, &state, strength.is_some()).into_iter().map(|kind| Finding { kind, part: part.clone() }),
+        );
+        let eps = permittivity[r];
         let e2 = f.e_max * f.e_max;
         parts.push(PartAssessment {
             region: r,
             margin,
             verdict,
-            w_max: 0.5 * m.epsilon() * e2,
-            w_pol_max: 0.5 * crate::units::EPSILON_0 * (m.permittivity - 1.0) * e2,
+            w_max: 0.5 * crate::units::EPSILON_0 * eps * e2,
+            w_pol_max: 0.5 * crate::units::EPSILON_0 * (eps - 1.0) * e2,
+            permittivity: eps,
+            permittivity_reference: reference.map_or(eps, |rf| rf.permittivity[r]),
+            temperature_c: state.temperature_c,
+            water_volume_fraction: state.water.map(|w| w.volume_fraction),
+            strength,
+            e_max_reference: reference.map(|rf| rf.fields.regions[r].e_max),
+            e_max_change: reference
+                .map(|rf| rf.fields.regions[r].e_max)
+                .filter(|&e| e > 0.0)
+                .map(|e| (f.e_max - e) / e),
         });
+    }
+    if let Some(rf) = reference {
+        findings.extend(stress_shifts(case, layout, &parts, fields, rf));
+    }
+    let dipole = dipole_alignment(case, &parts, fields);
+    if let Some(d) = dipole.filter(|d| d.x > DIPOLE_LINEAR_LIMIT) {
+        findings.push(Finding {
+            kind: FindingKind::DipoleSaturation(d),
+            part: Some(layout.regions[d.region].name.clone()),
+        });
+    }
+    if !case.operation.stated {
+        findings.push(Finding { kind: FindingKind::OperationNotStated, part: None });
     }
 
     for (id, m) in case.materials.iter().enumerate() {
@@ -374,7 +533,110 @@ pub fn assess(case: &Case, layout: &Layout, fields: &Fields, check: Option<&Mesh
         Severity::Fail => Verdict::Fail,
     });
     let verdict = parts.iter().map(|p| p.verdict).chain(worst_finding).max().unwrap_or(Verdict::Pass);
-    Assessment { verdict, parts, findings, capacitance, concentration }
+    Assessment { verdict, parts, findings, capacitance, concentration, dipole }
+}
+
+/// Findings about a part's state: a strength used beyond the conditions it
+/// holds for, a water content outside its mixing rule, a temperature
+/// outside a permittivity model.
+fn state_findings(
+    m: &crate::materials::Material,
+    state: &crate::coefficients::State,
+    has_strength: bool,
+) -> Vec<FindingKind> {
+    use crate::materials::{ABSORBED_WATER_LIMIT, MAXWELL_GARNETT_LIMIT, MixingRule, WATER_FIT_RANGE_C};
+    let mut out = Vec::new();
+    let water = state.water.map_or(0.0, |w| w.volume_fraction);
+    let holds = m.strength_conditions;
+    if has_strength
+        && (state.temperature_c > holds.temperature_c + STRENGTH_TEMPERATURE_SLACK_K
+            || water > holds.water_volume_fraction)
+    {
+        out.push(FindingKind::DryStrengthUsed {
+            temperature_c: state.temperature_c,
+            water_volume_fraction: water,
+            holds_for: holds,
+        });
+    }
+    if let Some(w) = state.water {
+        let limit = if w.rule == MixingRule::MaxwellGarnett {
+            MAXWELL_GARNETT_LIMIT.min(ABSORBED_WATER_LIMIT)
+        } else {
+            ABSORBED_WATER_LIMIT
+        };
+        if w.volume_fraction > limit {
+            out.push(FindingKind::MixingRuleRange { rule: w.rule, fraction: w.volume_fraction, limit });
+        }
+        let (lo, hi) = WATER_FIT_RANGE_C;
+        if !(lo..=hi).contains(&state.temperature_c) {
+            out.push(FindingKind::OutsideModelRange {
+                model: "water".into(),
+                temperature_c: state.temperature_c,
+                range: WATER_FIT_RANGE_C,
+            });
+        }
+    }
+    if let Some((lo, hi)) = m.temperature_range()
+        && !(lo..=hi).contains(&state.temperature_c)
+    {
+        out.push(FindingKind::OutsideModelRange {
+            model: m.name.clone(),
+            temperature_c: state.temperature_c,
+            range: (lo, hi),
+        });
+    }
+    out
+}
+
+/// Parts whose verdict is worse at service conditions than dry at the
+/// reference temperature: the stress that wet or hot parts shed onto them.
+fn stress_shifts(
+    case: &Case,
+    layout: &Layout,
+    parts: &[PartAssessment],
+    fields: &Fields,
+    rf: Reference,
+) -> Vec<Finding> {
+    let changed: Vec<String> = parts
+        .iter()
+        .filter(|p| p.water_volume_fraction.is_some() || p.permittivity != p.permittivity_reference)
+        .map(|p| layout.regions[p.region].name.clone())
+        .collect();
+    parts
+        .iter()
+        .filter_map(|p| {
+            let e_ref = rf.fields.regions[p.region].e_max;
+            let margin_ref = p.strength.filter(|_| e_ref > 0.0).map(|s| s / e_ref);
+            let from = part_verdict(margin_ref, p.strength.is_some(), case.safety_factor);
+            let name = &layout.regions[p.region].name;
+            let causes: Vec<String> = changed.iter().filter(|c| *c != name).cloned().collect();
+            (p.verdict > from && !causes.is_empty()).then(|| Finding {
+                kind: FindingKind::StressShift {
+                    e_max: fields.regions[p.region].e_max,
+                    e_max_reference: e_ref,
+                    from,
+                    to: p.verdict,
+                    causes,
+                },
+                part: Some(name.clone()),
+            })
+        })
+        .collect()
+}
+
+/// The largest water dipole alignment over the parts that hold water.
+fn dipole_alignment(case: &Case, parts: &[PartAssessment], fields: &Fields) -> Option<Dipole> {
+    let peak = crate::units::Values::Peak.factor_from(case.operation.values);
+    parts
+        .iter()
+        .filter(|p| p.water_volume_fraction.is_some())
+        .map(|p| {
+            let e = fields.regions[p.region].e_max * peak;
+            let x = crate::materials::WATER_DIPOLE_MOMENT * e
+                / (crate::units::BOLTZMANN * crate::units::kelvin(p.temperature_c));
+            Dipole { region: p.region, x, cos_theta: langevin(x) }
+        })
+        .max_by(|a, b| a.x.total_cmp(&b.x))
 }
 
 #[cfg(test)]

@@ -261,7 +261,16 @@ fn extensive_scale(n: Normalisation) -> f64 {
 }
 
 /// Computes every field result from the nodal potential `phi`.
-pub fn compute(case: &Case, grid: &Grid, layout: &Layout, stencil: &Stencil, phi: &[f64]) -> Fields {
+/// `permittivity` is the relative permittivity of each region at the
+/// evaluation's state (from the coefficient stage).
+pub fn compute(
+    case: &Case,
+    grid: &Grid,
+    layout: &Layout,
+    stencil: &Stencil,
+    permittivity: &[f64],
+    phi: &[f64],
+) -> Fields {
     let geo = case.geometry;
     let ev = boundary_corrected_edges(grid, layout, geo, phi);
     let (nx, ny) = (grid.nx(), grid.ny());
@@ -274,7 +283,7 @@ pub fn compute(case: &Case, grid: &Grid, layout: &Layout, stencil: &Stencil, phi
     }
     // Fitted inclusions replace their own nodal peaks, and those of the
     // cells around them, by fit and interface values (see `inclusion`).
-    let (fitted, fitted_peaks) = inclusion::fitted(case, grid, layout, phi);
+    let (fitted, fitted_peaks) = inclusion::fitted(case, grid, layout, permittivity, phi);
     let mut near_inclusion = vec![false; grid.cells()];
     let band = inclusion::BAND_CELLS as isize;
     for (c, &r) in layout.cell_region.iter().enumerate() {
@@ -305,7 +314,7 @@ pub fn compute(case: &Case, grid: &Grid, layout: &Layout, stencil: &Stencil, phi
         }
         if r != CONDUCTOR && cut[c] && whole[r as usize] >= MIN_WHOLE_CELLS { CUT } else { r }
     };
-    let eps: Vec<f64> = layout.regions.iter().map(|r| case.materials[r.material].epsilon()).collect();
+    let eps: Vec<f64> = permittivity.iter().map(|e| crate::units::EPSILON_0 * e).collect();
 
     let nreg = layout.regions.len();
     let mut cells = vec![0usize; nreg];

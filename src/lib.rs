@@ -34,6 +34,7 @@
 pub mod assemble;
 pub mod assess;
 pub mod case;
+pub mod coefficients;
 pub mod export;
 pub mod fields;
 pub mod grid;
@@ -46,8 +47,9 @@ pub mod shape;
 pub mod solve;
 pub mod units;
 
-use assemble::{AssembleError, Stencil, System};
+use assemble::{AssembleError, Factors, Pattern, Stencil, System};
 use case::{Case, CaseError};
+use coefficients::{Coefficients, Conditions};
 use grid::{Grid, GridError, GridLimits, Layout};
 use solve::{SolveError, SolveReport, SolverConfig};
 
@@ -122,7 +124,22 @@ pub enum Error {
     },
 }
 
-/// A case made ready to solve: grid, layout, stencil and system.
+/// One evaluation of a prepared case: the coefficients of every region at
+/// one state, and the stencil and system they give.
+#[derive(Debug, Clone)]
+pub struct Evaluation {
+    /// Which state.
+    pub conditions: Conditions,
+    /// Relative permittivity of every region and cut cell.
+    pub coefficients: Coefficients<f64>,
+    /// Edge conductances.
+    pub stencil: Stencil,
+    /// The linear system.
+    pub system: System,
+}
+
+/// A case made ready to solve: geometry (grid, layout, factors, pattern)
+/// built once, and the evaluations that reuse it.
 #[derive(Debug, Clone)]
 pub struct Prepared {
     /// The validated case.
@@ -133,10 +150,17 @@ pub struct Prepared {
     pub grid: Grid,
     /// Parts painted onto the grid.
     pub layout: Layout,
-    /// Edge conductances.
-    pub stencil: Stencil,
-    /// The linear system.
-    pub system: System,
+    /// Geometric factors of the stencil.
+    pub factors: Factors,
+    /// Numbering of the unknowns and the matrix pattern.
+    pub pattern: Pattern,
+    /// The fixed electrode potentials, V, by electrode index.
+    pub potentials: Vec<f64>,
+    /// The case at its service conditions.
+    pub service: Evaluation,
+    /// The case dry at the reference temperature, when the case differs
+    /// from that (for the stress-shift comparison).
+    pub reference: Option<Evaluation>,
 }
 
 /// The solved potential.
@@ -146,6 +170,8 @@ pub struct Solution {
     pub phi: Vec<f64>,
     /// What the solver did.
     pub report: SolveReport,
+    /// The dry-reference potential and its solve, when the case has one.
+    pub reference: Option<(Vec<f64>, SolveReport)>,
 }
 
 /// Grids, paints and assembles a validated case.
@@ -158,24 +184,51 @@ pub fn prepare(case: Case, file: &str, options: &Options) -> Result<Prepared, Er
 /// Paints and assembles a validated case on a grid given by the caller
 /// (benchmarks and convergence studies use this to control the grid).
 pub fn prepare_on_grid(case: Case, file: &str, grid: Grid) -> Result<Prepared, Error> {
+    let reference = coefficients::differs_from_reference(&case);
+    prepare_evaluations(case, file, grid, reference)
+}
+
+/// Paints, numbers and assembles; the dry reference too when asked.
+fn prepare_evaluations(case: Case, file: &str, grid: Grid, with_reference: bool) -> Result<Prepared, Error> {
     let layout = Layout::paint(&case, &grid).map_err(|e| Error::Grid { file: file.into(), source: Box::new(e) })?;
-    let stencil = Stencil::for_case(&case, &grid, &layout);
-    let system = System::assemble(&grid, &stencil, &assemble::constraints(&layout))
-        .map_err(|source| Error::Assemble { file: file.into(), source })?;
-    Ok(Prepared { case, file: file.into(), grid, layout, stencil, system })
+    let factors = Factors::new(&grid, case.geometry);
+    let potentials = assemble::potentials(&layout);
+    let evaluate = |conditions: Conditions, pattern: Option<&Pattern>| {
+        let coefficients = coefficients::permittivities(&case, &grid, &layout, conditions);
+        let stencil = Stencil::new(&grid, &layout, &factors, &coefficients);
+        let pattern = match pattern {
+            Some(p) => p.clone(),
+            None => Pattern::new(&grid, &stencil, &assemble::constraints(&layout))
+                .map_err(|source| Error::Assemble { file: file.into(), source })?,
+        };
+        let system = pattern.system(&grid, &stencil, &potentials);
+        Ok::<_, Error>((Evaluation { conditions, coefficients, stencil, system }, pattern))
+    };
+    let (service, pattern) = evaluate(Conditions::Service, None)?;
+    let reference = if with_reference { Some(evaluate(Conditions::DryReference, Some(&pattern))?.0) } else { None };
+    Ok(Prepared { case, file: file.into(), grid, layout, factors, pattern, potentials, service, reference })
 }
 
 impl Prepared {
-    /// Solves for the potential.
+    /// Solves for the potential (and the dry reference, when the case has
+    /// one, with the multigrid hierarchy of the first solve).
     pub fn solve(&self, config: &SolverConfig) -> Result<Solution, Error> {
-        let (u, report) = solve::solve(&self.system.matrix, &self.system.rhs, config)
-            .map_err(|source| Error::Solve { file: self.file.clone(), source })?;
-        Ok(Solution { phi: self.system.expand(&u), report })
+        let fail = |source| Error::Solve { file: self.file.clone(), source };
+        let mut solver = solve::Solver::new(&self.service.system.matrix, config);
+        let (u, report) = solver.solve(&self.service.system.rhs).map_err(fail)?;
+        let reference = match &self.reference {
+            Some(r) => {
+                let (u, report) = solver.solve_with(&r.system.matrix, &r.system.rhs).map_err(fail)?;
+                Some((self.pattern.expand(&u, &self.potentials), report))
+            }
+            None => None,
+        };
+        Ok(Solution { phi: self.pattern.expand(&u, &self.potentials), report, reference })
     }
 
-    /// Fields of a solution.
-    pub fn fields(&self, solution: &Solution) -> fields::Fields {
-        fields::compute(&self.case, &self.grid, &self.layout, &self.stencil, &solution.phi)
+    /// Fields of a potential solved at an evaluation.
+    pub fn fields(&self, evaluation: &Evaluation, phi: &[f64]) -> fields::Fields {
+        fields::compute(&self.case, &self.grid, &self.layout, &evaluation.stencil, &evaluation.coefficients.region, phi)
     }
 
     /// The mesh self-check: the case solved again on grids √2 and 2 times
@@ -194,13 +247,14 @@ impl Prepared {
             for b in &mut case.refine_boxes {
                 b.max_step *= factor;
             }
-            let p = prepare(case, &self.file, options).ok()?;
+            let grid = Grid::for_case(&case, &options.limits).ok()?;
+            let p = prepare_evaluations(case, &self.file, grid, false).ok()?;
             // Peaks need far less than the reported solve's tolerance: a
             // relative residual of 1e-8 moves them by well under 1e-6.
             let mut config = options.solve;
             config.options.rel_tol = config.options.rel_tol.max(SELF_CHECK_TOLERANCE);
             let s = p.solve(&config).ok()?;
-            coarser.push((p.grid.nodes(), p.fields(&s).regions));
+            coarser.push((p.grid.nodes(), p.fields(&p.service, &s.phi).regions));
         }
         let nodes = [self.grid.nodes(), coarser[0].0, coarser[1].0];
         Some(meshcheck::compare([&fine.regions, &coarser[0].1, &coarser[1].1], nodes))
@@ -213,12 +267,31 @@ impl Prepared {
         solution: &Solution,
         options: &Options,
     ) -> Result<(fields::Fields, Option<meshcheck::MeshCheck>, assess::Assessment), Error> {
-        let f = self.fields(solution);
-        if let Some(what) = f.first_non_finite() {
-            return Err(Error::NonFinite { file: self.file.clone(), what });
-        }
+        let non_finite = |f: &fields::Fields| match f.first_non_finite() {
+            Some(what) => Err(Error::NonFinite { file: self.file.clone(), what }),
+            None => Ok(()),
+        };
+        let f = self.fields(&self.service, &solution.phi);
+        non_finite(&f)?;
+        let reference = match (&self.reference, &solution.reference) {
+            (Some(ev), Some((phi, _))) => {
+                let rf = self.fields(ev, phi);
+                non_finite(&rf)?;
+                Some((ev, rf))
+            }
+            _ => None,
+        };
         let check = self.self_check(&f, options);
-        let a = assess::assess(&self.case, &self.layout, &f, check.as_ref());
+        let a = assess::assess(&assess::Inputs {
+            case: &self.case,
+            layout: &self.layout,
+            permittivity: &self.service.coefficients.region,
+            fields: &f,
+            check: check.as_ref(),
+            reference: reference
+                .as_ref()
+                .map(|(ev, rf)| assess::Reference { permittivity: &ev.coefficients.region, fields: rf }),
+        });
         Ok((f, check, a))
     }
 
@@ -234,6 +307,7 @@ impl Prepared {
                 fields: &f,
                 mesh_check: check.as_ref(),
                 assessment: &a,
+                reference_solve: solution.reference.as_ref().map(|r| &r.1),
             },
             seconds,
         ))

@@ -163,11 +163,17 @@ units: mm
 domain: { x: [0, 20], y: [0, 20] }
 background: air
 grid: { max_step: 1, min_step: 0.01, cells_across: 4, growth: 1.3, refine: 1, boxes: [ { x: [1, 2], y: [1, 2], max_step: 0.5 } ] }
+environment: { temperature_c: 25, pressure_kpa: 100 }
+operation: { mode: ac, frequency_hz: 60, values: rms }
 materials:
-  m: { base: epoxy, class: solid, permittivity: 4, strength_kv_per_mm: 20, loss_tangent: 0.01, source: test }
-stack: { form: coaxial, voltage_kv: 1, inner_radius: 1, length: 20, layers: [ { name: l, material: m, thickness: 19 } ] }
+  m: { base: epoxy, class: solid, permittivity: 4, strength_kv_per_mm: 20, strength_basis: rms, strength_at: { temperature_c: 90, water_volume_pct: 1 }, density_kg_per_m3: 1200, loss_tangent: 0.01, source: test }
+  t: { permittivity_vs_temperature_c: [[20, 3.6], [90, 4.1]], source: test }
+  d: { debye: { eps_inf: 3.2, delta_eps: 0.6, tau_s: 1e-3, activation_ev: 0.9 }, source: test }
+stack: { form: coaxial, voltage_kv: 1, inner_radius: 1, length: 20, layers: [ { name: l, material: m, thickness: 19, temperature_c: 70, water: { mass_pct: 1, rule: lichtenecker } } ] }
 parts:
-  - { name: a, material: m, shape: { rect: { x: [2, 3], y: [2, 3], radius: 0.1 } } }
+  - { name: a, material: m, shape: { rect: { x: [2, 3], y: [2, 3], radius: 0.1 } }, temperature_c: 40, water: { volume_pct: 2, rule: maxwell-garnett } }
+  - { name: a2, material: t, shape: { rect: { x: [3, 4], y: [2, 3] } } }
+  - { name: a3, material: d, shape: { rect: { x: [4, 5], y: [2, 3] } } }
   - { name: b, electrode: { potential_kv: 1 }, shape: { circle: { center: [0, 10], radius: 0.5 } } }
   - { name: c, material: air, shape: { polygon: [[5, 5], [6, 5], [6, 6]] } }
 probes: [ { name: p, at: [5, 5] } ]

@@ -56,7 +56,7 @@ fn a_gas_layer_above_breakdown_fails() {
     let r = run("
 title: gas gap
 materials:
-  solid4: { permittivity: 4.0, strength_kv_per_mm: 20, source: test value }
+  solid4: { permittivity: 4.0, strength_kv_per_mm: 20, strength_basis: rms, source: test value }
   air1: { base: air, permittivity: 1.0, source: test value (vacuum-like air) }
 stack:
   form: planar

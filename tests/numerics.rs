@@ -4,7 +4,7 @@
 
 mod common;
 
-use hvstack::assemble::{Constraint, Stencil, System};
+use hvstack::assemble::{Constraint, Factors, Pattern, Stencil};
 use hvstack::case::{Geometry, GridSpec};
 use hvstack::grid::{Grid, graded_axis};
 use hvstack::solve::{Jacobi, SolveOptions, pcg, relative_residual};
@@ -16,20 +16,24 @@ const TIGHT: SolveOptions = SolveOptions { rel_tol: 1e-13, max_iterations: 100_0
 /// axis in axisymmetric cases, which is a natural zero-flux boundary) and
 /// returns the largest nodal error.
 fn max_error(grid: &Grid, geometry: Geometry, exact: impl Fn(f64, f64) -> f64) -> f64 {
-    let stencil = Stencil::build(grid, geometry, |_| Some([1.0; 4]));
+    let stencil = Stencil::build(grid, &Factors::new(grid, geometry), |_| Some([1.0; 4]));
     let (nx, ny) = (grid.nx(), grid.ny());
     let mut cons = vec![Constraint::Free; grid.nodes()];
+    // each boundary node is a fixed potential of its own
+    let mut potentials = Vec::new();
     for j in 0..ny {
         for i in 0..nx {
             let on_axis = geometry == Geometry::Axisymmetric && i == 0;
             if (i == nx - 1 || j == 0 || j == ny - 1 || i == 0) && !(on_axis && j > 0 && j < ny - 1) {
-                cons[grid.node(i, j).0] = Constraint::Fixed(exact(grid.x[i], grid.y[j]));
+                cons[grid.node(i, j).0] = Constraint::Fixed(potentials.len() as u32);
+                potentials.push(exact(grid.x[i], grid.y[j]));
             }
         }
     }
-    let sys = System::assemble(grid, &stencil, &cons).unwrap();
+    let pattern = Pattern::new(grid, &stencil, &cons).unwrap();
+    let sys = pattern.system(grid, &stencil, &potentials);
     let (u, _) = pcg(&sys.matrix, &sys.rhs, &mut Jacobi::new(&sys.matrix), &TIGHT, None).unwrap();
-    let phi = sys.expand(&u);
+    let phi = pattern.expand(&u, &potentials);
     (0..grid.nodes())
         .map(|n| {
             let [x, y] = grid.node_pos(hvstack::grid::NodeIx(n));
@@ -115,14 +119,14 @@ fn pcg_agrees_with_a_dense_direct_solve() {
     for yaml in small_cases() {
         let case = hvstack::case::parse(yaml, "dense.yaml").unwrap();
         let prepared = hvstack::prepare(case, "dense.yaml", &hvstack::Options::default()).unwrap();
-        let a = &prepared.system.matrix;
+        let a = &prepared.service.system.matrix;
         let n = a.rows();
         assert!(n < 700, "keep the dense test small: {n}");
         let dense = DMatrix::from_fn(n, n, |i, j| a.get(i, j).copied().unwrap_or(0.0));
         assert_eq!(dense, dense.transpose(), "the assembled matrix is symmetric");
-        let b = DVector::from_vec(prepared.system.rhs.clone());
+        let b = DVector::from_vec(prepared.service.system.rhs.clone());
         let direct = dense.clone().cholesky().expect("symmetric positive definite").solve(&b);
-        let (u, rep) = pcg(a, &prepared.system.rhs, &mut Jacobi::new(a), &TIGHT, None).unwrap();
+        let (u, rep) = pcg(a, &prepared.service.system.rhs, &mut Jacobi::new(a), &TIGHT, None).unwrap();
         let scale = b.amax().max(1.0);
         let direct_res = (&b - &dense * &direct).amax() / scale;
         // round-off of a dense factorisation: a few hundred ulps of the data (common practice)
@@ -131,7 +135,7 @@ fn pcg_agrees_with_a_dense_direct_solve() {
         let vmax = 12e3;
         assert!(diff < 1e-9 * vmax, "PCG vs dense: {diff} V");
         assert!(rep.relative_residual <= 10.0 * TIGHT.rel_tol);
-        assert!(relative_residual(a, &u, &prepared.system.rhs) <= 10.0 * TIGHT.rel_tol);
+        assert!(relative_residual(a, &u, &prepared.service.system.rhs) <= 10.0 * TIGHT.rel_tol);
     }
 }
 

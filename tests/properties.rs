@@ -6,7 +6,9 @@ use proptest::prelude::*;
 fn stack_yaml(voltage_kv: f64, layers: &[(f64, f64)]) -> String {
     let mut s = String::from("title: random stack\nmaterials:\n");
     for (i, (eps, _)) in layers.iter().enumerate() {
-        s += &format!("  m{i}: {{ permittivity: {eps}, strength_kv_per_mm: 20, source: test value }}\n");
+        s += &format!(
+            "  m{i}: {{ permittivity: {eps}, strength_kv_per_mm: 20, strength_basis: rms, source: test value }}\n"
+        );
     }
     s += &format!("stack:\n  form: planar\n  voltage_kv: {voltage_kv}\n  width: 5\n  layers:\n");
     for (i, (_, t)) in layers.iter().enumerate() {
@@ -68,7 +70,9 @@ proptest! {
 fn coax_yaml(voltage_kv: f64, inner: f64, layers: &[(f64, f64)], foil_at: Option<f64>) -> String {
     let mut s = String::from("title: random coax\nmaterials:\n");
     for (i, (eps, _)) in layers.iter().enumerate() {
-        s += &format!("  m{i}: {{ permittivity: {eps}, strength_kv_per_mm: 50, source: test value }}\n");
+        s += &format!(
+            "  m{i}: {{ permittivity: {eps}, strength_kv_per_mm: 50, strength_basis: rms, source: test value }}\n"
+        );
     }
     s += &format!("stack:\n  form: coaxial\n  voltage_kv: {voltage_kv}\n  inner_radius: {inner}\n  layers:\n");
     for (i, (_, t)) in layers.iter().enumerate() {

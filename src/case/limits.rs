@@ -61,6 +61,13 @@ pub const MAX_STRENGTH_KV_PER_MM: f64 = 1e4;
 pub const MIN_STRENGTH_KV_PER_MM: f64 = 1e-3;
 /// Largest loss tangent.
 pub const MAX_LOSS_TANGENT: f64 = 100.0;
+/// Temperatures accepted, °C (cryogenic gas insulation aside, insulation
+/// runs between these; the water fit holds over 0–100 °C only).
+pub const TEMPERATURE_RANGE_C: (f64, f64) = (-100.0, 400.0);
+/// Gas pressures accepted, kPa absolute.
+pub const PRESSURE_RANGE_KPA: (f64, f64) = (1.0, 10_000.0);
+/// AC frequencies accepted, Hz.
+pub const FREQUENCY_RANGE_HZ: (f64, f64) = (1e-3, 1e9);
 /// Largest safety factor.
 pub const MAX_SAFETY_FACTOR: f64 = 100.0;
 

@@ -1,7 +1,8 @@
 //! The validated case in SI units: what the rest of the pipeline reads.
 
-use crate::materials::Material;
+use crate::materials::{Material, MixingRule};
 use crate::shape::{Rect, Shape};
+pub use crate::units::Values;
 
 /// Planar or axisymmetric cross-section.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -87,6 +88,67 @@ pub enum ElectrodeKind {
     Floating,
 }
 
+/// Absorbed water in a dielectric part.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Water {
+    /// Volume fraction of water in the wet material (0 to 1).
+    pub volume_fraction: f64,
+    /// How the value was given (for reports).
+    pub given: WaterGiven,
+    /// The mixing rule.
+    pub rule: MixingRule,
+}
+
+/// How a water content was written in the case.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum WaterGiven {
+    /// `volume_pct`: volume of water per volume of wet material, %.
+    VolumePct(f64),
+    /// `mass_pct`: mass of water per mass of dry material, %.
+    MassPct(f64),
+}
+
+/// The service conditions of a dielectric part (both optional).
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Service {
+    /// Temperature in °C (else the environment's).
+    pub temperature_c: Option<f64>,
+    /// Absorbed water.
+    pub water: Option<Water>,
+}
+
+/// The surroundings of the whole case.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Environment {
+    /// Temperature in °C of every part that states none.
+    pub temperature_c: f64,
+    /// Gas pressure in Pa.
+    pub pressure_pa: f64,
+}
+
+/// How the applied potentials vary in time.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Mode {
+    /// A static field: the potentials are instantaneous values, and every
+    /// field is the instantaneous (peak) value for them.
+    Static,
+    /// Sinusoidal AC at `frequency_hz`.
+    Ac,
+}
+
+/// The `operation:` of a case.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Operation {
+    /// Static or AC.
+    pub mode: Mode,
+    /// Frequency in Hz (AC; 50 by default, unused when static).
+    pub frequency_hz: f64,
+    /// The convention of every voltage, field and strength of the case.
+    pub values: Values,
+    /// False when the case gave no `operation:` (then static, peak).
+    pub stated: bool,
+}
+
 /// A painted part.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Part {
@@ -102,6 +164,8 @@ pub struct Part {
     pub line: Option<usize>,
     /// Column in the case file, where known (for messages).
     pub column: Option<usize>,
+    /// Service conditions (dielectric parts; default for electrodes).
+    pub service: Service,
 }
 
 /// A probe point.
@@ -153,6 +217,10 @@ pub struct Case {
     pub lines: Vec<Line>,
     /// Required ratio of strength to peak field.
     pub safety_factor: f64,
+    /// Surroundings.
+    pub environment: Environment,
+    /// Time behaviour and the rms/peak convention.
+    pub operation: Operation,
     /// SHA-256 of the case text (hex), set by `parse`; empty for cases
     /// built in code.
     pub source_sha256: String,

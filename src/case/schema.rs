@@ -36,6 +36,101 @@ pub struct CaseFile {
     pub lines: Option<Vec<LineFile>>,
     /// Assessment limits.
     pub limits: Option<LimitsFile>,
+    /// Surroundings: temperature and gas pressure.
+    pub environment: Option<EnvironmentFile>,
+    /// Static or AC, the frequency, and whether values are rms or peak.
+    pub operation: Option<OperationFile>,
+}
+
+/// `environment:`
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct EnvironmentFile {
+    /// Temperature of every part that states none, °C (default 20).
+    pub temperature_c: Option<f64>,
+    /// Gas pressure, kPa absolute (default 101.325).
+    pub pressure_kpa: Option<f64>,
+}
+
+/// `operation:`
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct OperationFile {
+    /// `static` (instantaneous values, default) or `ac`.
+    pub mode: Option<ModeFile>,
+    /// AC frequency in Hz (default 50).
+    pub frequency_hz: Option<f64>,
+    /// `rms` or `peak`: how every voltage, field and strength of the case
+    /// is meant (static fields: `peak` only; AC: required).
+    pub values: Option<ValuesFile>,
+}
+
+/// `operation.mode:` values.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, JsonSchema)]
+#[serde(rename_all = "lowercase")]
+pub enum ModeFile {
+    /// A static field: potentials are instantaneous values.
+    Static,
+    /// Sinusoidal AC.
+    Ac,
+}
+
+/// `rms` or `peak`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, JsonSchema)]
+#[serde(rename_all = "lowercase")]
+pub enum ValuesFile {
+    /// Root-mean-square values.
+    Rms,
+    /// Peak values.
+    Peak,
+}
+
+/// `water:` of a part or layer: exactly one of `volume_pct` or `mass_pct`.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct WaterFile {
+    /// Water volume per volume of wet material, %.
+    pub volume_pct: Option<f64>,
+    /// Water mass per mass of dry material, % (needs the material's density).
+    pub mass_pct: Option<f64>,
+    /// `looyenga` (default), `maxwell-garnett` or `lichtenecker`.
+    pub rule: Option<RuleFile>,
+}
+
+/// Mixing rules.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, JsonSchema)]
+#[serde(rename_all = "kebab-case")]
+pub enum RuleFile {
+    /// Looyenga (1965).
+    Looyenga,
+    /// Maxwell Garnett (1904), dilute inclusions.
+    MaxwellGarnett,
+    /// Lichtenecker (1926), logarithmic.
+    Lichtenecker,
+}
+
+/// `debye:` of a material: a single Debye relaxation.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct DebyeFile {
+    /// High-frequency relative permittivity ε∞.
+    pub eps_inf: f64,
+    /// Relaxation strength Δε = ε_static − ε∞.
+    pub delta_eps: f64,
+    /// Relaxation time at 20 °C, s.
+    pub tau_s: f64,
+    /// Activation energy of the relaxation time, eV (default 0).
+    pub activation_ev: Option<f64>,
+}
+
+/// `strength_at:` of a material: conditions up to which its strength holds.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct StrengthAtFile {
+    /// Highest temperature, °C (default 20).
+    pub temperature_c: Option<f64>,
+    /// Highest absorbed water, volume % (default 0).
+    pub water_volume_pct: Option<f64>,
 }
 
 /// `geometry:` values.
@@ -105,6 +200,16 @@ pub struct MaterialFile {
     pub loss_tangent: Option<f64>,
     /// Where the values come from (required for user values).
     pub source: Option<String>,
+    /// `rms` or `peak`: how `strength_kv_per_mm` was measured (required with it).
+    pub strength_basis: Option<ValuesFile>,
+    /// Conditions up to which the strength holds (default: dry at 20 °C).
+    pub strength_at: Option<StrengthAtFile>,
+    /// Density in kg/m³ (to convert a water `mass_pct`).
+    pub density_kg_per_m3: Option<f64>,
+    /// Relative permittivity at temperatures: [[°C, εr], ...], rising.
+    pub permittivity_vs_temperature_c: Option<Vec<[f64; 2]>>,
+    /// A Debye relaxation (frequency and temperature dependence).
+    pub debye: Option<DebyeFile>,
 }
 
 /// `class:` values.
@@ -157,6 +262,10 @@ pub struct LayerFile {
     pub material: String,
     /// Thickness in mm.
     pub thickness: f64,
+    /// Temperature in °C (default: the environment's).
+    pub temperature_c: Option<f64>,
+    /// Absorbed water.
+    pub water: Option<WaterFile>,
 }
 
 /// One entry of `parts:`.
@@ -171,6 +280,10 @@ pub struct PartFile {
     pub electrode: Option<ElectrodeFile>,
     /// Outline.
     pub shape: ShapeFile,
+    /// Temperature in °C (dielectric parts; default: the environment's).
+    pub temperature_c: Option<f64>,
+    /// Absorbed water (dielectric parts).
+    pub water: Option<WaterFile>,
 }
 
 /// `electrode:` values: `floating` or `{ potential_kv: V }`.
@@ -335,15 +448,38 @@ pub const KNOWN_KEYS: &[(&str, &[&str])] = &[
             "probes",
             "lines",
             "limits",
+            "environment",
+            "operation",
         ],
     ),
+    ("environment", &["temperature_c", "pressure_kpa"]),
+    ("operation", &["mode", "frequency_hz", "values"]),
     ("domain", &["x", "y"]),
     ("grid", &["max_step", "min_step", "cells_across", "growth", "refine", "boxes"]),
     ("grid.boxes[]", &["x", "y", "max_step"]),
-    ("materials.*", &["base", "class", "permittivity", "strength_kv_per_mm", "loss_tangent", "source"]),
+    (
+        "materials.*",
+        &[
+            "base",
+            "class",
+            "permittivity",
+            "strength_kv_per_mm",
+            "loss_tangent",
+            "source",
+            "strength_basis",
+            "strength_at",
+            "density_kg_per_m3",
+            "permittivity_vs_temperature_c",
+            "debye",
+        ],
+    ),
+    ("materials.*.strength_at", &["temperature_c", "water_volume_pct"]),
+    ("materials.*.debye", &["eps_inf", "delta_eps", "tau_s", "activation_ev"]),
     ("stack", &["form", "voltage_kv", "width", "inner_radius", "length", "layers"]),
-    ("stack.layers[]", &["name", "material", "thickness"]),
-    ("parts[]", &["name", "material", "electrode", "shape"]),
+    ("stack.layers[]", &["name", "material", "thickness", "temperature_c", "water"]),
+    ("stack.layers[].water", &["volume_pct", "mass_pct", "rule"]),
+    ("parts[]", &["name", "material", "electrode", "shape", "temperature_c", "water"]),
+    ("parts[].water", &["volume_pct", "mass_pct", "rule"]),
     ("parts[].electrode", &["potential_kv"]),
     ("parts[].shape", &["rect", "circle", "polygon", "fillet", "arcs"]),
     ("parts[].shape.arcs[]", &["edge", "radius"]),

@@ -5,7 +5,7 @@ use super::locate::Locations;
 use super::model::*;
 use super::schema::*;
 use super::{Diagnostic, limits, text};
-use crate::materials::{self, Material, MaterialClass, OutOfRange, Quantity};
+use crate::materials::{self, Material, MaterialClass, MixingRule, OutOfRange, PermittivityModel, Quantity};
 use crate::shape::{Rect, Shape};
 use crate::units;
 use std::collections::{BTreeMap, BTreeSet};
@@ -181,6 +181,31 @@ impl Ctx<'_> {
         true
     }
 
+    /// A temperature in °C within `limits::TEMPERATURE_RANGE_C`.
+    fn temperature(&mut self, key: &str, t: f64) -> bool {
+        let (lo, hi) = limits::TEMPERATURE_RANGE_C;
+        if !self.finite(key, t) {
+            return false;
+        }
+        if !(lo..=hi).contains(&t) {
+            self.err(key, format!("{t} °C is outside {lo} to {hi} °C; temperatures are in °C"));
+            return false;
+        }
+        true
+    }
+
+    /// A percentage from 0 to 100.
+    fn percent(&mut self, key: &str, v: f64) -> bool {
+        if !self.finite(key, v) {
+            return false;
+        }
+        if !(0.0..=100.0).contains(&v) {
+            self.err(key, format!("{v} % is outside 0 to 100 %"));
+            return false;
+        }
+        true
+    }
+
     /// A name or title: not empty, at most `max` characters, no control
     /// characters.
     fn name(&mut self, key: &str, s: &str, max: usize) -> bool {
@@ -318,27 +343,7 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
         return None;
     }
     let mut ok = true;
-    let permittivity = match (f.permittivity, base) {
-        (Some(e), _) => {
-            let k = format!("{key}.permittivity");
-            ok &= ctx.finite(&k, e);
-            if e.is_finite() && e < 1.0 {
-                ctx.err(&k, format!("relative permittivity must be at least 1, found {e}"));
-                ok = false;
-            } else if e > limits::MAX_PERMITTIVITY {
-                ctx.err(&k, format!("relative permittivity {} is beyond {}", num(e), num(limits::MAX_PERMITTIVITY)));
-                ok = false;
-            } else if e > limits::PLAUSIBLE_MAX_PERMITTIVITY {
-                ctx.implausible(&k, Magnitude::Permittivity, e, limits::PLAUSIBLE_MAX_PERMITTIVITY, true);
-            }
-            e
-        }
-        (None, Some(b)) => b.permittivity,
-        (None, None) => {
-            ctx.err(&key, "a new material needs `permittivity` (or `base:` naming a built-in material)");
-            return None;
-        }
-    };
+    let (permittivity, model) = permittivity_model(ctx, &key, f, base)?;
     let strength = match f.strength_kv_per_mm {
         Some(s) => {
             let k = format!("{key}.strength_kv_per_mm");
@@ -380,8 +385,55 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
         }
         None => base.and_then(|b| b.loss_tangent),
     };
-    let own_values =
-        f.permittivity.is_some() || f.strength_kv_per_mm.is_some() || f.loss_tangent.is_some() || f.class.is_some();
+    let strength_basis = match (f.strength_kv_per_mm, f.strength_basis) {
+        (Some(_), Some(b)) => values_of(b),
+        (Some(_), None) => {
+            ctx.err(
+                &format!("{key}.strength_kv_per_mm"),
+                "say whether this strength is an rms or a peak value: add `strength_basis: rms` (power-frequency \
+                 tests such as IEC 60243-1 state rms voltages) or `strength_basis: peak`",
+            );
+            ok = false;
+            Values::Rms
+        }
+        (None, Some(_)) => {
+            ctx.err(&format!("{key}.strength_basis"), "applies to a `strength_kv_per_mm` given with it");
+            ok = false;
+            Values::Rms
+        }
+        (None, None) => base.map_or(Values::Rms, |b| b.strength_basis),
+    };
+    let strength_conditions = match &f.strength_at {
+        None => materials::DRY_AT_REFERENCE,
+        Some(at) => {
+            let k = format!("{key}.strength_at");
+            let t = at.temperature_c.unwrap_or(materials::REFERENCE_TEMPERATURE_C);
+            let w = at.water_volume_pct.unwrap_or(0.0);
+            ok &= ctx.temperature(&format!("{k}.temperature_c"), t);
+            ok &= ctx.percent(&format!("{k}.water_volume_pct"), w);
+            materials::StrengthConditions { temperature_c: t, water_volume_fraction: w / 100.0 }
+        }
+    };
+    let density_kg_per_m3 = match f.density_kg_per_m3 {
+        Some(d) => {
+            let k = format!("{key}.density_kg_per_m3");
+            if ctx.positive(&k, d, "density") && d > MAX_DENSITY_KG_PER_M3 {
+                ctx.err(&k, format!("density {} kg/m³ is beyond {MAX_DENSITY_KG_PER_M3} kg/m³", num(d)));
+                ok = false;
+            }
+            ok &= d > 0.0;
+            Some(d)
+        }
+        None => base.map(|b| b.density_kg_per_m3),
+    };
+    let own_values = f.permittivity.is_some()
+        || f.strength_kv_per_mm.is_some()
+        || f.loss_tangent.is_some()
+        || f.class.is_some()
+        || f.strength_at.is_some()
+        || f.density_kg_per_m3.is_some()
+        || f.permittivity_vs_temperature_c.is_some()
+        || f.debye.is_some();
     let source = match (&f.source, own_values, base) {
         (Some(s), _, _) if !s.trim().is_empty() => match source_text(s) {
             Ok(s) => s,
@@ -429,13 +481,131 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
         name: name.to_string(),
         class,
         permittivity,
+        model,
         strength_v_per_m: strength.map(units::kv_per_mm),
+        strength_basis,
+        strength_thickness_m: if f.strength_kv_per_mm.is_some() {
+            None
+        } else {
+            base.and_then(|b| b.strength_thickness_mm).map(units::mm)
+        },
+        strength_conditions,
+        density_kg_per_m3,
         loss_tangent,
         source,
         generic: !own_values,
         out_of_range,
     })
 }
+
+/// Densest material accepted, kg/m³ (osmium is about 22 600, from memory).
+const MAX_DENSITY_KG_PER_M3: f64 = 30_000.0;
+
+fn values_of(v: ValuesFile) -> Values {
+    match v {
+        ValuesFile::Rms => Values::Rms,
+        ValuesFile::Peak => Values::Peak,
+    }
+}
+
+/// The permittivity model of a user material and its reference value (dry,
+/// 20 °C, power frequency): one of `permittivity`, a temperature table or a
+/// Debye relaxation, else the base material's.
+fn permittivity_model(
+    ctx: &mut Ctx,
+    key: &str,
+    f: &MaterialFile,
+    base: Option<&materials::LibraryEntry>,
+) -> Option<(f64, PermittivityModel)> {
+    let given = [f.permittivity.is_some(), f.permittivity_vs_temperature_c.is_some(), f.debye.is_some()];
+    if given.iter().filter(|g| **g).count() > 1 {
+        ctx.err(key, "give one of `permittivity`, `permittivity_vs_temperature_c` or `debye`, not several");
+        return None;
+    }
+    let eps_ok = |ctx: &mut Ctx, k: &str, e: f64| {
+        if !ctx.finite(k, e) {
+            return false;
+        }
+        if e < 1.0 {
+            ctx.err(k, format!("relative permittivity must be at least 1, found {e}"));
+            return false;
+        }
+        if e > limits::MAX_PERMITTIVITY {
+            ctx.err(k, format!("relative permittivity {} is beyond {}", num(e), num(limits::MAX_PERMITTIVITY)));
+            return false;
+        }
+        if e > limits::PLAUSIBLE_MAX_PERMITTIVITY {
+            ctx.implausible(k, Magnitude::Permittivity, e, limits::PLAUSIBLE_MAX_PERMITTIVITY, true);
+        }
+        true
+    };
+    if let Some(table) = &f.permittivity_vs_temperature_c {
+        let k = format!("{key}.permittivity_vs_temperature_c");
+        if table.len() < 2 || table.len() > MAX_TABLE_POINTS {
+            ctx.err(&k, format!("give from 2 to {MAX_TABLE_POINTS} [°C, εr] points, found {}", table.len()));
+            return None;
+        }
+        let mut ok = true;
+        for (i, p) in table.iter().enumerate() {
+            ok &= ctx.temperature(&format!("{k}[{i}][0]"), p[0]);
+            ok &= eps_ok(ctx, &format!("{k}[{i}][1]"), p[1]);
+            if i > 0 && p[0] <= table[i - 1][0] {
+                ctx.err(&format!("{k}[{i}][0]"), "temperatures must rise from point to point");
+                ok = false;
+            }
+        }
+        if !ok {
+            return None;
+        }
+        let model = PermittivityModel::Table(table.clone());
+        let probe = Material { model: model.clone(), ..Material::from_library(&materials::LIBRARY[0]) };
+        return Some((probe.permittivity_at(materials::REFERENCE_TEMPERATURE_C, 0.0), model));
+    }
+    if let Some(d) = &f.debye {
+        let k = format!("{key}.debye");
+        let mut ok = eps_ok(ctx, &format!("{k}.eps_inf"), d.eps_inf);
+        if !(d.delta_eps.is_finite() && (0.0..=limits::MAX_PERMITTIVITY).contains(&d.delta_eps)) {
+            ctx.err(
+                &format!("{k}.delta_eps"),
+                format!("must be from 0 to {}, found {}", num(limits::MAX_PERMITTIVITY), d.delta_eps),
+            );
+            ok = false;
+        }
+        if !(d.tau_s.is_finite() && d.tau_s > 0.0 && d.tau_s <= 1e6) {
+            ctx.err(&format!("{k}.tau_s"), format!("must be above 0 s and at most 1e6 s, found {}", d.tau_s));
+            ok = false;
+        }
+        let ea = d.activation_ev.unwrap_or(0.0);
+        if !(ea.is_finite() && (0.0..=5.0).contains(&ea)) {
+            ctx.err(&format!("{k}.activation_ev"), format!("must be from 0 to 5 eV, found {ea}"));
+            ok = false;
+        }
+        if !ok {
+            return None;
+        }
+        let debye = materials::Debye { eps_inf: d.eps_inf, delta_eps: d.delta_eps, tau_s: d.tau_s, activation_ev: ea };
+        let reference = debye.at(materials::REFERENCE_FREQUENCY_HZ, materials::REFERENCE_TEMPERATURE_C).0;
+        return Some((reference, PermittivityModel::Debye(debye)));
+    }
+    match (f.permittivity, base) {
+        (Some(e), _) => eps_ok(ctx, &format!("{key}.permittivity"), e).then_some((e, PermittivityModel::Constant)),
+        (None, Some(b)) => {
+            let model = if b.name == "water" { PermittivityModel::Water } else { PermittivityModel::Constant };
+            Some((b.permittivity, model))
+        }
+        (None, None) => {
+            ctx.err(
+                key,
+                "a new material needs `permittivity`, `permittivity_vs_temperature_c` or `debye` (or `base:` naming a \
+                 built-in material)",
+            );
+            None
+        }
+    }
+}
+
+/// Most points of a permittivity table.
+const MAX_TABLE_POINTS: usize = 100;
 
 fn shape(ctx: &mut Ctx, key: &str, s: &ShapeFile) -> Option<Shape> {
     if s.fillet.is_some() && s.polygon.is_none() {
@@ -650,10 +820,11 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
             let bound = units::mm(limits::PLAUSIBLE_MAX_LAYER_MM);
             ctx.implausible(&tk, Magnitude::Length, units::mm(l.thickness), bound, true);
         }
+        let sv = service(ctx, &key, l.temperature_c, l.water.as_ref(), m.map(|m| &table.used[m]));
         ctx.name_owner(start, "layer", &name);
         ctx.owner = None;
-        match (m, t, good) {
-            (Some(m), true, true) => layers.push((name, m, units::mm(l.thickness), key)),
+        match (m, t, good, sv) {
+            (Some(m), true, true, Some(sv)) => layers.push((name, m, units::mm(l.thickness), key, sv)),
             _ => ok = false,
         }
     }
@@ -676,6 +847,7 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
         key: "stack".to_string(),
         line,
         column,
+        service: Service::default(),
     };
     match s.form {
         StackForm::Planar => {
@@ -697,7 +869,7 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
             };
             let mut y = 0.0;
             let mut parts = Vec::new();
-            for (name, m, t, key) in layers {
+            for (name, m, t, key, service) in layers {
                 let (line, column) = position(&key);
                 parts.push(Part {
                     name,
@@ -706,6 +878,7 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
                     line,
                     column,
                     key,
+                    service,
                 });
                 y += t;
             }
@@ -735,7 +908,7 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
             };
             let mut r = ri;
             let mut parts = Vec::new();
-            for (name, m, t, key) in layers {
+            for (name, m, t, key, service) in layers {
                 let (line, column) = position(&key);
                 parts.push(Part {
                     name,
@@ -744,6 +917,7 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
                     line,
                     column,
                     key,
+                    service,
                 });
                 r += t;
             }
@@ -1116,8 +1290,19 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
 
     let grid = domain.and_then(|d| grid_spec(&mut ctx, f.grid.as_ref(), &d));
     let refine_boxes = refine_boxes(&mut ctx, f.grid.as_ref());
-    let (Some(domain), Some(grid), Some(refine_boxes), Some(background), Some(probes), Some(lines), true) =
-        (domain, grid, refine_boxes, background, probes, lines, ok && ctx.diags.is_empty())
+    let environment = environment(&mut ctx, f.environment.as_ref());
+    let operation = operation(&mut ctx, f.operation.as_ref());
+    let (
+        Some(domain),
+        Some(grid),
+        Some(refine_boxes),
+        Some(background),
+        Some(probes),
+        Some(lines),
+        Some(environment),
+        Some(operation),
+        true,
+    ) = (domain, grid, refine_boxes, background, probes, lines, environment, operation, ok && ctx.diags.is_empty())
     else {
         return (None, ctx.diags);
     };
@@ -1138,6 +1323,8 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
         safety_factor,
         source_sha256: String::new(),
         implausible: ctx.implausible,
+        environment,
+        operation,
     };
     (Some(case), ctx.diags)
 }
@@ -1181,7 +1368,12 @@ fn one_part(
             .then(|| Role::Electrode(ElectrodeKind::Fixed { potential_v: units::kv(v) })),
     };
     let sh = shape(ctx, &format!("{key}.shape"), &p.shape);
-    let (Some(role), Some(sh), true) = (role, sh, ok) else { return None };
+    let material = match role {
+        Some(Role::Dielectric(m)) => Some(&table.used[m]),
+        _ => None,
+    };
+    let sv = if role.is_some() { service(ctx, key, p.temperature_c, p.water.as_ref(), material) } else { None };
+    let (Some(role), Some(sh), Some(service), true) = (role, sh, sv, ok) else { return None };
     let b = sh.bounds();
     let shape_key = format!("{key}.shape");
     match role {
@@ -1211,7 +1403,153 @@ fn one_part(
         Some((l, c)) => (Some(l), Some(c)),
         None => (None, None),
     };
-    Some(Part { name: p.name.clone(), role, shape: sh, key: key.to_string(), line, column })
+    Some(Part { name: p.name.clone(), role, shape: sh, key: key.to_string(), line, column, service })
+}
+
+/// The service conditions of a part or layer: its temperature and absorbed
+/// water. `material` is the part's material (`None` for an electrode).
+fn service(
+    ctx: &mut Ctx,
+    key: &str,
+    temperature: Option<f64>,
+    water: Option<&WaterFile>,
+    material: Option<&Material>,
+) -> Option<Service> {
+    let mut ok = true;
+    if let Some(t) = temperature {
+        if material.is_none() {
+            ctx.err(&format!("{key}.temperature_c"), "applies to insulating parts, not to electrodes");
+            return None;
+        }
+        ok &= ctx.temperature(&format!("{key}.temperature_c"), t);
+    }
+    let Some(w) = water else { return ok.then_some(Service { temperature_c: temperature, water: None }) };
+    let wk = format!("{key}.water");
+    let Some(m) = material else {
+        ctx.err(&wk, "only insulating parts absorb water, not electrodes");
+        return None;
+    };
+    if m.class == MaterialClass::Gas {
+        ctx.err(&wk, format!("{} is a gas; absorbed water applies to solids and liquids", m.name));
+        return None;
+    }
+    if matches!(m.model, PermittivityModel::Water) {
+        ctx.err(&wk, format!("{} is water already", m.name));
+        return None;
+    }
+    let rule = match w.rule {
+        None => materials::DEFAULT_MIXING_RULE,
+        Some(RuleFile::Looyenga) => MixingRule::Looyenga,
+        Some(RuleFile::MaxwellGarnett) => MixingRule::MaxwellGarnett,
+        Some(RuleFile::Lichtenecker) => MixingRule::Lichtenecker,
+    };
+    let (fraction, given) = match (w.volume_pct, w.mass_pct) {
+        (Some(v), None) => {
+            if !ctx.percent(&format!("{wk}.volume_pct"), v) {
+                return None;
+            }
+            (v / 100.0, WaterGiven::VolumePct(v))
+        }
+        (None, Some(x)) => {
+            if !ctx.percent(&format!("{wk}.mass_pct"), x) {
+                return None;
+            }
+            let Some(density) = m.density_kg_per_m3 else {
+                ctx.err(
+                    &format!("{wk}.mass_pct"),
+                    format!("needs the density of {}: give it `density_kg_per_m3` under `materials:`", m.name),
+                );
+                return None;
+            };
+            (materials::volume_fraction_from_mass(x / 100.0, density), WaterGiven::MassPct(x))
+        }
+        _ => {
+            ctx.err(&wk, "give exactly one of `volume_pct` or `mass_pct`");
+            return None;
+        }
+    };
+    let water = (fraction > 0.0).then_some(Water { volume_fraction: fraction, given, rule });
+    ok.then_some(Service { temperature_c: temperature, water })
+}
+
+/// `environment:` with its defaults (20 °C, 101.325 kPa).
+fn environment(ctx: &mut Ctx, e: Option<&EnvironmentFile>) -> Option<Environment> {
+    let t = e.and_then(|e| e.temperature_c).unwrap_or(materials::REFERENCE_TEMPERATURE_C);
+    let p = e.and_then(|e| e.pressure_kpa).unwrap_or(STANDARD_PRESSURE_KPA);
+    let mut ok = ctx.temperature("environment.temperature_c", t);
+    let (lo, hi) = limits::PRESSURE_RANGE_KPA;
+    if ctx.finite("environment.pressure_kpa", p) && !(lo..=hi).contains(&p) {
+        ctx.err(
+            "environment.pressure_kpa",
+            format!("{p} kPa is outside {lo} to {hi} kPa (absolute); pressures are in kPa"),
+        );
+        ok = false;
+    }
+    ok &= p.is_finite();
+    ok.then_some(Environment { temperature_c: t, pressure_pa: p * 1e3 })
+}
+
+/// Standard atmospheric pressure, kPa (ISO 2533).
+const STANDARD_PRESSURE_KPA: f64 = 101.325;
+
+/// Default AC frequency, Hz.
+const DEFAULT_FREQUENCY_HZ: f64 = 50.0;
+
+/// `operation:`: static (instantaneous, i.e. peak, values) unless it says
+/// `ac`; AC needs `values: rms | peak` stated.
+fn operation(ctx: &mut Ctx, o: Option<&OperationFile>) -> Option<Operation> {
+    let Some(o) = o else {
+        return Some(Operation {
+            mode: Mode::Static,
+            frequency_hz: DEFAULT_FREQUENCY_HZ,
+            values: Values::Peak,
+            stated: false,
+        });
+    };
+    let mode = match o.mode {
+        None | Some(ModeFile::Static) => Mode::Static,
+        Some(ModeFile::Ac) => Mode::Ac,
+    };
+    let mut ok = true;
+    let values = match (mode, o.values) {
+        (Mode::Static, None | Some(ValuesFile::Peak)) => Values::Peak,
+        (Mode::Static, Some(ValuesFile::Rms)) => {
+            ctx.err(
+                "operation.values",
+                "a static field has instantaneous values, not rms ones; for power-frequency voltages stated rms write \
+                 `mode: ac`",
+            );
+            ok = false;
+            Values::Peak
+        }
+        (Mode::Ac, Some(v)) => values_of(v),
+        (Mode::Ac, None) => {
+            ctx.err(
+                "operation",
+                "say whether the AC voltages are rms or peak values: add `values: rms` (how system voltages are \
+                 usually stated) or `values: peak`",
+            );
+            ok = false;
+            Values::Rms
+        }
+    };
+    let frequency_hz = match (mode, o.frequency_hz) {
+        (Mode::Static, Some(_)) => {
+            ctx.err("operation.frequency_hz", "applies to `mode: ac`; a static field has no frequency");
+            ok = false;
+            DEFAULT_FREQUENCY_HZ
+        }
+        (_, None) => DEFAULT_FREQUENCY_HZ,
+        (Mode::Ac, Some(f)) => {
+            let (lo, hi) = limits::FREQUENCY_RANGE_HZ;
+            if !(f.is_finite() && (lo..=hi).contains(&f)) {
+                ctx.err("operation.frequency_hz", format!("{f} Hz is outside {} to {} Hz", num(lo), num(hi)));
+                ok = false;
+            }
+            f
+        }
+    };
+    ok.then_some(Operation { mode, frequency_hz, values, stated: true })
 }
 
 /// Notes a largest difference between fixed potentials below

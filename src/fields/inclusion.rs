@@ -145,7 +145,14 @@ const HIGHER_PERMITTIVITY_ERROR: f64 = 0.013;
 /// The fitted inclusions of a layout: for each region a fit where one
 /// stands, and the peak candidates it gives (its own, and the interface
 /// values of the regions around it).
-pub(super) fn fitted(case: &Case, grid: &Grid, layout: &Layout, phi: &[f64]) -> (Vec<bool>, Vec<Candidate>) {
+/// `permittivity` is the relative permittivity of each region.
+pub(super) fn fitted(
+    case: &Case,
+    grid: &Grid,
+    layout: &Layout,
+    permittivity: &[f64],
+    phi: &[f64],
+) -> (Vec<bool>, Vec<Candidate>) {
     let (nx, ny) = (grid.nx(), grid.ny());
     let nreg = layout.regions.len();
     let mut samples: Vec<Vec<([f64; 2], f64)>> = vec![Vec::new(); nreg];
@@ -194,7 +201,7 @@ pub(super) fn fitted(case: &Case, grid: &Grid, layout: &Layout, phi: &[f64]) -> 
         }
         let q = &fit.potential;
         is_fitted[r] = true;
-        let eps_in = case.materials[region.material].permittivity;
+        let eps_in = permittivity[r];
         let d = case.domain;
         // Interface values first: they also give the contrast κ for the floor.
         let mut inside = Vec::new();
@@ -223,7 +230,7 @@ pub(super) fn fitted(case: &Case, grid: &Grid, layout: &Layout, phi: &[f64]) -> 
             if ro == CONDUCTOR || ro as usize == r {
                 continue;
             }
-            let eps_out = case.materials[layout.regions[ro as usize].material].permittivity;
+            let eps_out = permittivity[ro as usize];
             if eps_in.max(eps_out) / eps_in.min(eps_out) > kappa {
                 kappa = eps_in.max(eps_out) / eps_in.min(eps_out);
                 lower = eps_in < eps_out;

@@ -8,7 +8,7 @@ mod axis;
 mod paint;
 
 pub use axis::{AxisPlan, graded_axis};
-pub use paint::{CONDUCTOR, ElectrodeInfo, Layout, NO_ELECTRODE, Region};
+pub use paint::{CONDUCTOR, CutCell, ElectrodeInfo, Layout, NO_ELECTRODE, Region, SUBSAMPLES};
 
 use crate::case::Case;
 

@@ -51,8 +51,8 @@ pub struct Layout {
     pub electrodes: Vec<ElectrodeInfo>,
     /// Electrode index of each node, or [`NO_ELECTRODE`].
     pub node_electrode: Vec<u32>,
-    /// Cells cut by a curved or slanted dielectric interface, with their
-    /// effective relative permittivity along x and along y (sorted by cell).
+    /// Cells cut by a curved or slanted dielectric interface, with the
+    /// region of each sub-sample (sorted by cell).
     pub cut_cells: Vec<CutCell>,
     /// Edges where a curved electrode outline lies between the nodes.
     pub boundary_edges: Vec<BoundaryEdge>,
@@ -82,18 +82,20 @@ pub struct BoundaryEdge {
 /// leaves that below the recovery's own scatter.
 pub const MIN_THETA: f64 = 0.01;
 
-/// A cell that a dielectric interface crosses.
-#[derive(Debug, Clone, Copy, PartialEq)]
+/// A cell that a dielectric interface crosses: which region fills each of
+/// its sub-samples, and the interface normal. Geometry only; the
+/// coefficient stage turns it into an effective permittivity for any
+/// material values.
+#[derive(Debug, Clone, PartialEq)]
 pub struct CutCell {
     /// The cell.
     pub cell: u32,
-    /// Effective relative permittivity of the cell's quarter beside each of
-    /// its edges: along x in the lower and upper half (bottom and top
-    /// edges), along y in the left and right half (left and right edges).
-    pub eps: [f64; 4],
-    /// Off-diagonal relative permittivity ε_xy of the cell's laminate
-    /// tensor (zero unless exactly two materials meet in the cell).
-    pub eps_xy: f64,
+    /// Region of each of the `SUBSAMPLES`² sub-samples, row by row from the
+    /// lower left (x fastest).
+    pub samples: Vec<u16>,
+    /// Where exactly two regions meet: the unit normal of the nearest
+    /// curved or slanted dielectric outline (for the laminate tensor).
+    pub normal: Option<[f64; 2]>,
 }
 
 /// Edges from free nodes into curved electrodes, with where the outline
@@ -140,93 +142,53 @@ fn boundary_edges(case: &Case, grid: &Grid, electrodes: &[ElectrodeInfo], node_e
 /// Sub-samples per cell side used to find a cut cell's fill fractions.
 pub const SUBSAMPLES: usize = 16;
 
-/// The dielectric material at a point: the last dielectric part containing
-/// it, else the background.
-fn material_at(case: &Case, p: [f64; 2]) -> crate::case::MaterialId {
+/// The dielectric region at a point: the last dielectric part containing
+/// it, else the background (region 0). `part_region[p]` is the region of
+/// part p (dielectric parts only).
+fn region_at(case: &Case, part_region: &[Option<u16>], p: [f64; 2]) -> u16 {
     case.parts
         .iter()
+        .zip(part_region)
         .rev()
-        .find_map(|part| match part.role {
-            Role::Dielectric(m) if part.shape.contains_closed(p, 0.0) => Some(m),
+        .find_map(|(part, r)| match (part.role, r) {
+            (Role::Dielectric(_), Some(r)) if part.shape.contains_closed(p, 0.0) => Some(*r),
             _ => None,
         })
-        .unwrap_or(case.background)
+        .unwrap_or(0)
 }
 
-/// Effective permittivity of a cell crossed by interfaces, from an N×N
-/// sub-sampling of the materials: `(ε per quarter [bottom, top, left,
-/// right], ε_xy)`. Where exactly two materials meet, the cell gets the
-/// laminate tensor of `laminate` (ε_xx for both x quarters, ε_yy for both y
-/// quarters, and its ε_xy). Otherwise (three or more materials) each
-/// quarter gets a directional average: for flux along x each row of samples
-/// is a chain in series (harmonic mean along x) and the rows conduct side
-/// by side (arithmetic mean over y), likewise along y, and ε_xy = 0.
-/// Returns `None` when the cell is not cut (one permittivity throughout).
-fn cut_cell(case: &Case, grid: &Grid, c: CellIx) -> Option<([f64; 4], f64)> {
+/// The sub-sampled regions of a cell crossed by interfaces, or `None` when
+/// one region fills it (judged on a 3 × 3 probe first, then 16 × 16).
+fn cut_cell(case: &Case, grid: &Grid, part_region: &[Option<u16>], c: CellIx) -> Option<CutCell> {
     let (i, j) = grid.cell_ij(c);
     let (x0, y0) = (grid.x[i], grid.y[j]);
     let (hx, hy) = (grid.x[i + 1] - x0, grid.y[j + 1] - y0);
-    let eps = |m: crate::case::MaterialId| case.materials[m].permittivity;
+    let at = |u: f64, v: f64| region_at(case, part_region, [x0 + u * hx, y0 + v * hy]);
     let probe = [1.0 / 6.0, 0.5, 5.0 / 6.0];
-    let first = eps(material_at(case, [x0 + 0.5 * hx, y0 + 0.5 * hy]));
-    let uniform =
-        probe.iter().all(|u| probe.iter().all(|v| eps(material_at(case, [x0 + u * hx, y0 + v * hy])) == first));
-    if uniform {
+    let first = at(0.5, 0.5);
+    if probe.iter().all(|&u| probe.iter().all(|&v| at(u, v) == first)) {
         return None;
     }
     let n = SUBSAMPLES;
-    let mut e = vec![0.0; n * n];
-    for a in 0..n {
-        for b in 0..n {
-            let (u, v) = ((a as f64 + 0.5) / n as f64, (b as f64 + 0.5) / n as f64);
-            e[b * n + a] = eps(material_at(case, [x0 + u * hx, y0 + v * hy]));
+    let mut samples = vec![0u16; n * n];
+    for b in 0..n {
+        for a in 0..n {
+            samples[b * n + a] = at((a as f64 + 0.5) / n as f64, (b as f64 + 0.5) / n as f64);
         }
     }
-    // flux along x: each row in series (harmonic), the rows side by side
-    // (arithmetic), over the half of the cell beside the edge
-    let rows = |range: std::ops::Range<usize>| {
-        let k = range.len() as f64;
-        range.map(|b| n as f64 / (0..n).map(|a| 1.0 / e[b * n + a]).sum::<f64>()).sum::<f64>() / k
+    let a = samples[0];
+    let two = match samples.iter().find(|&&v| v != a) {
+        Some(&b) => samples.iter().all(|&v| v == a || v == b),
+        None => return None,
     };
-    let cols = |range: std::ops::Range<usize>| {
-        let k = range.len() as f64;
-        range.map(|a| n as f64 / (0..n).map(|b| 1.0 / e[b * n + a]).sum::<f64>()).sum::<f64>() / k
-    };
-    let directional = [rows(0..n / 2), rows(n / 2..n), cols(0..n / 2), cols(n / 2..n)];
-    let centre = [x0 + 0.5 * hx, y0 + 0.5 * hy];
-    // Volume weights: r in axisymmetric cases.
-    let weights: Vec<f64> = (0..n * n)
-        .map(|k| match case.geometry {
-            crate::case::Geometry::Axisymmetric => x0 + ((k % n) as f64 + 0.5) / n as f64 * hx,
-            crate::case::Geometry::Planar => 1.0,
-        })
-        .collect();
-    match laminate(case, &e, &weights, centre) {
-        Some(t) => Some(([t[0], t[0], t[1], t[1]], t[2])),
-        None => Some((directional, 0.0)),
-    }
+    let normal = if two { interface_normal(case, [x0 + 0.5 * hx, y0 + 0.5 * hy]) } else { None };
+    Some(CutCell { cell: c.0 as u32, samples, normal })
 }
 
-/// The laminate tensor [ε_xx, ε_yy, ε_xy] of a cell where exactly two
-/// materials meet: ε_n = harmonic mean across the interface, ε_t =
-/// arithmetic mean along it, ε = ε_n·n·nᵀ + ε_t·(I − n·nᵀ), with the
-/// interface normal n taken from the outline of the last dielectric part
-/// that cuts the cell (Kottke, Farjadpour & Johnson, Phys. Rev. E 77,
-/// 036611, 2008: this smoothing keeps second-order accuracy at oblique
-/// interfaces, which diagonal averages lose).
-fn laminate(case: &Case, samples: &[f64], weights: &[f64], centre: [f64; 2]) -> Option<[f64; 3]> {
-    let a = samples[0];
-    let b = *samples.iter().find(|&&v| v != a)?;
-    if samples.iter().any(|&v| v != a && v != b) {
-        return None;
-    }
-    // Volume fraction of material a (samples weighted by r when axisymmetric).
-    let total: f64 = weights.iter().sum();
-    let fa = samples.iter().zip(weights).filter(|(v, _)| **v == a).map(|(_, w)| w).sum::<f64>() / total;
-    let e_n = 1.0 / (fa / a + (1.0 - fa) / b);
-    let e_t = fa * a + (1.0 - fa) * b;
-    // The interface in the cell is the nearest outline of a dielectric part
-    // that is not an axis-aligned rectangle (those lie on grid lines).
+/// The unit normal of the interface in a cell: that of the nearest outline
+/// of a dielectric part that is not an axis-aligned rectangle (those lie on
+/// grid lines).
+fn interface_normal(case: &Case, centre: [f64; 2]) -> Option<[f64; 2]> {
     let shape = case
         .parts
         .iter()
@@ -234,8 +196,23 @@ fn laminate(case: &Case, samples: &[f64], weights: &[f64], centre: [f64; 2]) -> 
         .map(|p| (p.shape.outline_distance(centre), &p.shape))
         .min_by(|a, b| a.0.total_cmp(&b.0))?
         .1;
-    let [nx, ny] = shape.normal_near(centre);
-    Some([e_n * nx * nx + e_t * ny * ny, e_n * ny * ny + e_t * nx * nx, (e_n - e_t) * nx * ny])
+    Some(shape.normal_near(centre))
+}
+
+/// The region of each part: dielectric parts get 1, 2, … in case order
+/// (region 0 is the background), electrodes none.
+fn part_regions(case: &Case) -> Vec<Option<u16>> {
+    let mut next = 0u16;
+    case.parts
+        .iter()
+        .map(|p| match p.role {
+            Role::Dielectric(_) => {
+                next += 1;
+                Some(next)
+            }
+            Role::Electrode(_) => None,
+        })
+        .collect()
 }
 
 impl Layout {
@@ -338,13 +315,12 @@ impl Layout {
                 }
             }
         }
+        let part_region = part_regions(case);
         let cut_cells = candidate
             .iter()
             .enumerate()
             .filter(|&(c, &k)| k && cell_region[c] != CONDUCTOR)
-            .filter_map(|(c, _)| {
-                cut_cell(case, grid, CellIx(c)).map(|(eps, eps_xy)| CutCell { cell: c as u32, eps, eps_xy })
-            })
+            .filter_map(|(c, _)| cut_cell(case, grid, &part_region, CellIx(c)))
             .collect();
         let boundary_edges = boundary_edges(case, grid, &electrodes, &node_electrode);
         Ok(Layout { regions, cell_region, electrodes, node_electrode, cut_cells, boundary_edges })

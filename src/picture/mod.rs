@@ -89,6 +89,8 @@ pub struct Label {
 pub struct FieldMap {
     /// Case title.
     pub title: String,
+    /// `rms` or `peak`: the convention of every field on the map.
+    pub values: &'static str,
     /// Axisymmetric cases show the axis and label axes r and z.
     pub axisymmetric: bool,
     /// Domain [x0, x1, y0, y1] in mm.
@@ -313,6 +315,7 @@ pub fn build(inp: &MapInputs, config: &MapConfig) -> FieldMap {
 
     FieldMap {
         title: elide(&report.title, MAP_TITLE_CHARS),
+        values: report.values,
         axisymmetric: case.geometry == Geometry::Axisymmetric,
         extent_mm,
         plot_px,

@@ -141,7 +141,7 @@ pub fn render(map: &FieldMap) -> String {
         LEFT,
         43.0,
         12.0,
-        &format!("|E| in kV/mm with equipotentials · verdict: {}", map.verdict),
+        &format!("|E| in kV/mm {} with equipotentials · verdict: {}", map.values, map.verdict),
     ));
 
     // Field raster, drawn on a light grey that shows through at electrodes.
@@ -305,16 +305,19 @@ pub fn render(map: &FieldMap) -> String {
     // Colour bar.
     let bx = LEFT + pw + 26.0;
     let bh = ph.clamp(120.0, 320.0);
-    let mut bar = Group::new().set("id", "colour-bar").add(text(bx, TOP - 8.0, 11.0, "|E| (kV/mm)")).add(
-        Rectangle::new()
-            .set("x", bx)
-            .set("y", TOP)
-            .set("width", 16)
-            .set("height", round1(bh))
-            .set("fill", "url(#hv-scale)")
-            .set("stroke", "#444a50")
-            .set("stroke-width", 0.8),
-    );
+    let mut bar = Group::new()
+        .set("id", "colour-bar")
+        .add(text(bx, TOP - 8.0, 11.0, &format!("|E| (kV/mm {})", map.values)))
+        .add(
+            Rectangle::new()
+                .set("x", bx)
+                .set("y", TOP)
+                .set("width", 16)
+                .set("height", round1(bh))
+                .set("fill", "url(#hv-scale)")
+                .set("stroke", "#444a50")
+                .set("stroke-width", 0.8),
+        );
     for &t in &map.scale_ticks {
         let y = TOP + bh * (1.0 - t / map.scale_top_kv_per_mm);
         bar = bar
@@ -345,7 +348,7 @@ pub fn render(map: &FieldMap) -> String {
             LEFT + 18.0,
             y,
             12.0,
-            &format!("{}: peak in {}, {} kV/mm", p.number, p.part, g3(p.e_kv_per_mm)),
+            &format!("{}: peak in {}, {} kV/mm {}", p.number, p.part, g3(p.e_kv_per_mm), map.values),
         ));
     }
     doc.add(legend).to_string()

@@ -75,8 +75,8 @@ fn parts(r: &CheckReport) -> Markup {
     html! {
         table {
             thead { tr {
-                th { "#" } th { "part" } th { "material" } th.num { "εr" } th.num { "peak |E| (kV/mm)" }
-                th.num { "at (mm)" } th.num { "mean |E| (kV/mm)" } th.num { "strength (kV/mm)" }
+                th { "#" } th { "part" } th { "material" } th.num { "εr" } th.num { "peak |E| (kV/mm " (r.values) ")" }
+                th.num { "at (mm)" } th.num { "mean |E| (kV/mm " (r.values) ")" } th.num { "strength (kV/mm " (r.values) ")" }
                 th.num { "margin" } th.num { "error estimate (%)" } th { "verdict" }
             } }
             tbody {
@@ -95,6 +95,37 @@ fn parts(r: &CheckReport) -> Markup {
     }
 }
 
+/// The stress shift against the dry case at 20 °C, and the water dipole
+/// alignment, where the case has them.
+fn service_conditions(r: &CheckReport) -> Markup {
+    html! {
+        @if let Some(reference) = &r.reference {
+            h2 { "Service conditions" }
+            p.meta { "Each part at its temperature and water content, against the same case with every part dry at "
+                (sig4(reference.temperature_c)) " °C (solved again with the same grid and setup: " (reference.method)
+                ", " (reference.iterations) " iterations)." }
+            table {
+                thead { tr {
+                    th { "part" } th.num { "T (°C)" } th.num { "water (vol%)" } th.num { "εr dry 20 °C" } th.num { "εr" }
+                    th.num { "peak |E| dry (kV/mm " (r.values) ")" } th.num { "peak |E| (kV/mm " (r.values) ")" }
+                    th.num { "change (%)" }
+                } }
+                tbody { @for p in &r.parts { tr {
+                    td { (p.name) } td.num { (sig4(p.temperature_c)) } td.num { (opt(p.water_volume_pct)) }
+                    td.num { (sig4(p.permittivity_reference)) } td.num { (sig4(p.permittivity)) }
+                    td.num { (opt(p.e_max_reference_kv_per_mm)) } td.num { (sig4(p.e_max_kv_per_mm)) }
+                    td.num { @match p.e_max_change_pct { Some(c) => (format!("{c:+.1}")), None => "—" } }
+                } } }
+            }
+        }
+        @if let Some(d) = &r.dipole_alignment {
+            p { "Water dipoles: the largest alignment is in " (d.part) ", x = p·E/kT = " (format!("{:.2e}", d.x_max))
+                ", ⟨cos θ⟩ = " (format!("{:.2e}", d.mean_cos_theta)) " — "
+                (if d.linear { "linear response holds." } else { "beyond linear response (see findings)." }) }
+        }
+    }
+}
+
 fn mesh_check(r: &CheckReport) -> Markup {
     html! {
         @match &r.mesh_check {
@@ -104,7 +135,7 @@ fn mesh_check(r: &CheckReport) -> Markup {
                     " nodes, against " (m.nodes[0]) "); each part's peak field is compared across the three." }
                 table {
                     thead { tr {
-                        th { "part" } th.num { "peak, finest (kV/mm)" } th.num { "coarser grids (kV/mm)" }
+                        th { "part" } th.num { "peak, finest (kV/mm " (r.values) ")" } th.num { "coarser grids (kV/mm " (r.values) ")" }
                         th.num { "observed order" } th.num { "error estimate (%)" } th { "grows with refinement" }
                     } }
                     tbody { @for p in &r.parts { tr {
@@ -132,7 +163,7 @@ pub fn render_page(inp: &PageInputs) -> String {
             (head(&format!("{} — hvstack review", r.title)))
             body { main {
                 h1 { (r.title) }
-                div.meta { "Case file " code { (inp.case_file) } " · " (r.geometry) " · results " (r.results_per) }
+                div.meta { "Case file " code { (inp.case_file) } " · " (r.geometry) " · values " strong { (r.values) } " · results " (r.results_per) }
                 div class={ "verdict " (class) } { (verdict_sentence(r.verdict)) }
                 @if r.verdict != VerdictOut::Pass {
                     p { "Read the findings below: each says what the number means and what to change." }
@@ -143,6 +174,7 @@ pub fn render_page(inp: &PageInputs) -> String {
                 p.meta { "Margin = typical breakdown strength ÷ peak field; the required safety factor is "
                     (sig4(r.safety_factor)) "." }
                 (parts(r))
+                (service_conditions(r))
                 h2 { "Findings" }
                 @if r.findings.is_empty() { p { "None." } } @else {
                     table { tbody { @for f in &r.findings { tr {
@@ -153,7 +185,7 @@ pub fn render_page(inp: &PageInputs) -> String {
                 }
                 h2 { "Electrodes" }
                 table {
-                    thead { tr { th { "electrode" } th { "kind" } th.num { "potential (kV)" } th.num { "charge" } } }
+                    thead { tr { th { "electrode" } th { "kind" } th.num { "potential (kV " (r.values) ")" } th.num { "charge" } } }
                     tbody { @for e in &r.electrodes { tr {
                         td { (e.name) } td { (e.kind) } td.num { (sig4(e.potential_kv)) }
                         td.num { (sig4(e.charge.value)) " " (e.charge.unit) }
@@ -164,14 +196,14 @@ pub fn render_page(inp: &PageInputs) -> String {
                     "stored energy " (sig4(r.energy.value)) " " (r.energy.unit)
                     @if let Some(c) = &r.field_concentration {
                         " · field enhancement factor " (sig4(c.factor)) " (peak " (sig4(c.e_max_kv_per_mm))
-                        " kV/mm against " (sig4(c.e_uniform_kv_per_mm)) " kV/mm over the " (sig4(c.gap_mm)) " mm gap)"
+                        " kV/mm " (r.values) " against " (sig4(c.e_uniform_kv_per_mm)) " kV/mm " (r.values) " over the " (sig4(c.gap_mm)) " mm gap)"
                     }
                 }
                 @if !r.probes.is_empty() {
                     h2 { "Probes" }
                     table {
-                        thead { tr { th { "probe" } th.num { "at (mm)" } th { "in" } th.num { "potential (kV)" }
-                            th.num { "|E| (kV/mm)" } } }
+                        thead { tr { th { "probe" } th.num { "at (mm)" } th { "in" } th.num { "potential (kV " (r.values) ")" }
+                            th.num { "|E| (kV/mm " (r.values) ")" } } }
                         tbody { @for p in &r.probes { tr {
                             td { (p.name) } td.num { (sig4(p.at_mm[0])) ", " (sig4(p.at_mm[1])) } td { (p.part) }
                             td.num { (sig4(p.potential_kv)) } td.num { (sig4(p.e_kv_per_mm)) }
@@ -182,7 +214,7 @@ pub fn render_page(inp: &PageInputs) -> String {
                     h2 { "Lines" }
                     table {
                         thead { tr { th { "line" } th.num { "from (mm)" } th.num { "to (mm)" }
-                            th.num { "peak |E| (kV/mm)" } th.num { "at (mm)" } th { "samples" } } }
+                            th.num { "peak |E| (kV/mm " (r.values) ")" } th.num { "at (mm)" } th { "samples" } } }
                         tbody { @for (l, file) in r.lines.iter().zip(inp.line_files) { tr {
                             td { (l.name) } td.num { (sig4(l.from_mm[0])) ", " (sig4(l.from_mm[1])) }
                             td.num { (sig4(l.to_mm[0])) ", " (sig4(l.to_mm[1])) }
@@ -243,7 +275,7 @@ pub fn render_batch(rows: &[super::summary::SummaryRow], links: &[Option<String>
                         } }
                         td { span class={ "tag " (if r.verdict == "error" { "fail" } else { r.verdict }) } { (r.verdict) } }
                         td { (r.worst_part.as_deref().unwrap_or("—")) }
-                        td.num { (opt(r.e_max_kv_per_mm)) } td.num { (opt(r.margin)) }
+                        td.num { (opt(r.e_max_kv_per_mm)) " " (r.values.unwrap_or("")) } td.num { (opt(r.margin)) }
                         td { @if let Some(e) = &r.error { (e) } @else { (r.findings.join(", ")) } }
                     } } }
                 }

@@ -14,7 +14,7 @@ pub(crate) use text::significant;
 pub use text::{render_materials, render_text, sig4, verdict_sentence};
 
 use crate::assess::{Assessment, FindingKind, Severity, Verdict};
-use crate::case::{Case, ElectrodeKind, Geometry, Normalisation};
+use crate::case::{Case, ElectrodeKind, Geometry, Mode, Normalisation};
 use crate::fields::Fields;
 use crate::grid::{Grid, Layout};
 use crate::materials::{LIBRARY, Quantity as Value};
@@ -45,6 +45,8 @@ pub struct Inputs<'a> {
     pub mesh_check: Option<&'a MeshCheck>,
     /// The assessment.
     pub assessment: &'a Assessment,
+    /// The dry-reference solve, when there was one.
+    pub reference_solve: Option<&'a SolveReport>,
 }
 
 fn verdict(v: Verdict) -> VerdictOut {
@@ -69,21 +71,23 @@ fn g3(v: f64) -> String {
     text::significant(v, 3)
 }
 
-/// Words a finding: what it means and what to do next.
-pub fn message(kind: &FindingKind) -> String {
+/// Words a finding: what it means and what to do next. Fields and
+/// strengths carry the case's convention `values` (rms or peak).
+pub fn message(kind: &FindingKind, values: crate::units::Values) -> String {
+    let field = |v: f64| format!("{} kV/mm {}", g3(to_kv_per_mm(v)), values.name());
     match kind {
         FindingKind::AboveBreakdown { e_max, strength } => format!(
-            "peak field {} kV/mm is above the typical short-term strength {} kV/mm: expect breakdown. Thicken the \
+            "highest field {} is above the typical short-term strength {}: expect breakdown. Thicken the \
              insulation, lower the local stress (round edges, add grading) or use a stronger material, then re-check.",
-            g3(to_kv_per_mm(*e_max)),
-            g3(to_kv_per_mm(*strength))
+            field(*e_max),
+            field(*strength)
         ),
         FindingKind::GasAboveBreakdown { e_max, strength } => format!(
-            "peak field {} kV/mm is above the breakdown field {} kV/mm of this gas: expect discharges (partial \
+            "highest field {} is above the breakdown field {} of this gas: expect discharges (partial \
              discharges where solid insulation encloses the gas, flashover where it bridges electrodes). Remove or \
              fill the gas space, or lower its stress.",
-            g3(to_kv_per_mm(*e_max)),
-            g3(to_kv_per_mm(*strength))
+            field(*e_max),
+            field(*strength)
         ),
         FindingKind::BelowSafetyFactor { margin, required } => format!(
             "margin {} is below the required safety factor {}: check the design stress against the datasheet \
@@ -121,18 +125,19 @@ pub fn message(kind: &FindingKind) -> String {
                 .to_string()
         }
         FindingKind::SingularPeak { e_max, at_edge } => format!(
-            "{}, so the number depends on the grid ({} → {} → {} kV/mm from the coarsest to the finest grid of the \
+            "{}, so the number depends on the grid ({} → {} → {} kV/mm {} from the coarsest to the finest grid of the \
              self-check), not on the design. {} Until then this part cannot pass.",
             if *at_edge {
-                "the peak field sits at a sharp edge, corner or foil end of the drawn electrodes, where an ideal edge \
-                 has no finite field"
+                "the highest field sits at a sharp edge, corner or foil end of the drawn electrodes, where an ideal \
+                 edge has no finite field"
             } else {
-                "the peak field keeps growing as the grid is refined (a sharp corner of the drawn geometry, or a \
+                "the highest field keeps growing as the grid is refined (a sharp corner of the drawn geometry, or a \
                  curved boundary resolved as steps)"
             },
             g3(to_kv_per_mm(e_max[2])),
             g3(to_kv_per_mm(e_max[1])),
             g3(to_kv_per_mm(e_max[0])),
+            values.name(),
             if *at_edge {
                 "Model the real edge radius (or a rounded profile) and check again."
             } else {
@@ -140,20 +145,21 @@ pub fn message(kind: &FindingKind) -> String {
             }
         ),
         FindingKind::MeshSensitive { estimate } => format!(
-            "the estimated discretisation error of the peak field is {} % (above 2 %): refine the grid \
+            "the estimated discretisation error of the highest field is {} % (above 2 %): refine the grid \
              (grid.max_step, grid.cells_across) until it settles.",
             g3(100.0 * estimate)
         ),
         FindingKind::MeshUnbracketed => {
-            "the part has no cells on a coarser grid, so its peak field could not be checked for grid dependence; \
-             refine the grid (grid.max_step, grid.cells_across) so that it is resolved on grids four times coarser."
+            "the part has no cells on a coarser grid, so its highest field could not be checked for grid \
+             dependence; refine the grid (grid.max_step, grid.cells_across) so that it is resolved on grids four \
+             times coarser."
                 .to_string()
         }
         FindingKind::ValueOutOfRange { material, detail } => {
             let (what, value, lo, hi) = match detail.quantity {
                 Value::Permittivity => ("relative permittivity", detail.value, detail.range.0, detail.range.1),
                 Value::Strength => (
-                    "strength (kV/mm)",
+                    "strength (kV/mm, as measured)",
                     to_kv_per_mm(detail.value),
                     to_kv_per_mm(detail.range.0),
                     to_kv_per_mm(detail.range.1),
@@ -188,6 +194,66 @@ pub fn message(kind: &FindingKind) -> String {
                 with_unit(note.bound)
             )
         }
+        FindingKind::OperationNotStated => {
+            "the case gives no `operation:`, so its potentials were read as instantaneous (peak) values of a static \
+             field and every field and strength here is a peak value. For power-frequency AC with voltages stated \
+             rms, write `operation: { mode: ac, values: rms }`."
+                .to_string()
+        }
+        FindingKind::StressShift { e_max, e_max_reference, from, to, causes } => format!(
+            "{} ({}) moved stress onto this part: its highest field is {} against {} with every part dry at 20 °C \
+             ({:+.1} %), and its verdict worsens from {} to {}. Dry those parts, keep them cool, or give this part \
+             the margin for their wet or hot state.",
+            causes.join(", "),
+            if causes.len() == 1 { "wet or hot" } else { "wet or hot parts" },
+            field(*e_max),
+            field(*e_max_reference),
+            100.0 * (e_max - e_max_reference) / e_max_reference,
+            verdict_word(*from),
+            verdict_word(*to)
+        ),
+        FindingKind::DryStrengthUsed { temperature_c, water_volume_fraction, holds_for } => {
+            let now = if *water_volume_fraction > 0.0 {
+                format!("{} °C with {} vol% water", g3(*temperature_c), g3(100.0 * water_volume_fraction))
+            } else {
+                format!("{} °C", g3(*temperature_c))
+            };
+            let then = if holds_for.water_volume_fraction > 0.0 {
+                format!(
+                    "{} °C and {} vol% water",
+                    g3(holds_for.temperature_c),
+                    g3(100.0 * holds_for.water_volume_fraction)
+                )
+            } else {
+                format!("dry at {} °C", g3(holds_for.temperature_c))
+            };
+            format!(
+                "the part runs at {now}, but its strength value holds {then}; strengths fall with water and \
+                 temperature (polyethylene's roughly halves from 20 to 90 °C, epoxy's DC strength falls with absorbed \
+                 water; from memory), so the margin is optimistic. Give the datasheet strength at these conditions \
+                 under `materials:` with `strength_at:`."
+            )
+        }
+        FindingKind::MixingRuleRange { rule, fraction, limit } => format!(
+            "{} vol% water is beyond what the {} rule describes (up to about {} vol%): treat the permittivity as \
+             uncertain, and the part as wet through rather than holding absorbed water.",
+            g3(100.0 * fraction),
+            rule.name(),
+            g3(100.0 * limit)
+        ),
+        FindingKind::OutsideModelRange { model, temperature_c, range } => format!(
+            "{} °C is outside {} to {} °C, where the permittivity model of {model} holds; the value at the nearest \
+             end (or the fit's extrapolation) was used.",
+            g3(*temperature_c),
+            g3(range.0),
+            g3(range.1)
+        ),
+        FindingKind::DipoleSaturation(d) => format!(
+            "the field turns the absorbed water's dipoles far enough (x = p·E/kT = {}, ⟨cos θ⟩ = {}) that the \
+             polarisation is no longer linear in the field; the permittivity used is the low-field value.",
+            g3(d.x),
+            g3(d.cos_theta)
+        ),
         FindingKind::MeshCheckFailed => {
             "the coarser grids of the mesh self-check could not be solved, so no peak field was checked for grid \
              dependence; review the grid settings."
@@ -196,10 +262,18 @@ pub fn message(kind: &FindingKind) -> String {
     }
 }
 
+fn verdict_word(v: Verdict) -> &'static str {
+    match v {
+        Verdict::Pass => "pass",
+        Verdict::Review => "review",
+        Verdict::Fail => "fail",
+    }
+}
+
 /// Builds the result model. `seconds` is the solve's wall time, measured by
 /// the caller.
 pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
-    let Inputs { case, grid, layout, solve, fields, mesh_check, assessment } = *inp;
+    let Inputs { case, grid, layout, solve, fields, mesh_check, assessment, reference_solve } = *inp;
     let (c_unit, q_unit, w_unit, per) = extensive_units(case.normalisation);
     let (min_step, max_step) = grid.step_range();
     let parts = assessment
@@ -213,13 +287,18 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
             PartOut {
                 name: region.name.clone(),
                 material: m.name.clone(),
-                permittivity: m.permittivity,
+                permittivity: p.permittivity,
+                permittivity_reference: p.permittivity_reference,
+                temperature_c: p.temperature_c,
+                water_volume_pct: p.water_volume_fraction.map(|w| 100.0 * w),
                 e_max_kv_per_mm: to_kv_per_mm(f.e_max),
+                e_max_reference_kv_per_mm: p.e_max_reference.map(to_kv_per_mm),
+                e_max_change_pct: p.e_max_change.map(|c| 100.0 * c),
                 e_max_at_mm: f.e_max_at.map(to_mm),
                 e_mean_kv_per_mm: to_kv_per_mm(f.e_mean),
                 w_max_j_per_m3: p.w_max,
                 w_pol_max_j_per_m3: p.w_pol_max,
-                strength_kv_per_mm: m.strength_v_per_m.map(to_kv_per_mm),
+                strength_kv_per_mm: p.strength.map(to_kv_per_mm),
                 margin: p.margin,
                 verdict: verdict(p.verdict),
                 e_max_error_estimate_pct: check.and_then(|c| c.error_estimate).map(|e| 100.0 * e),
@@ -267,16 +346,42 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
                 Severity::Fail => SeverityOut::Fail,
             },
             part: f.part.clone(),
-            message: message(&f.kind),
+            message: message(&f.kind, case.operation.values),
         })
         .collect();
     CheckReport {
         verdict: verdict(assessment.verdict),
         title: case.title.clone(),
+        values: case.operation.values.name(),
         geometry: match case.geometry {
             Geometry::Planar => "planar",
             Geometry::Axisymmetric => "axisymmetric",
         },
+        operation: OperationOut {
+            mode: match case.operation.mode {
+                Mode::Static => "static",
+                Mode::Ac => "ac",
+            },
+            frequency_hz: (case.operation.mode == Mode::Ac).then_some(case.operation.frequency_hz),
+            values: case.operation.values.name(),
+            stated: case.operation.stated,
+        },
+        environment: EnvironmentOut {
+            temperature_c: case.environment.temperature_c,
+            pressure_kpa: case.environment.pressure_pa * 1e-3,
+        },
+        reference: reference_solve.map(|r| ReferenceOut {
+            temperature_c: crate::materials::REFERENCE_TEMPERATURE_C,
+            method: r.method.clone(),
+            iterations: r.iterations,
+            relative_residual: r.relative_residual,
+        }),
+        dipole_alignment: assessment.dipole.map(|d| DipoleOut {
+            part: layout.regions[d.region].name.clone(),
+            x_max: d.x,
+            mean_cos_theta: d.cos_theta,
+            linear: d.x <= crate::assess::DIPOLE_LINEAR_LIMIT,
+        }),
         results_per: per,
         grid: GridOut {
             nodes: grid.nodes(),
@@ -365,6 +470,9 @@ pub fn materials() -> Vec<MaterialOut> {
             class: e.class.name(),
             permittivity: e.permittivity,
             strength_kv_per_mm: e.strength_kv_per_mm,
+            strength_basis: e.strength_basis.name(),
+            strength_thickness_mm: e.strength_thickness_mm,
+            density_kg_per_m3: e.density_kg_per_m3,
             loss_tangent: e.loss_tangent,
             source: e.source,
             permittivity_range: [e.permittivity_range.0, e.permittivity_range.1],

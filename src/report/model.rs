@@ -91,10 +91,22 @@ pub struct PartOut {
     pub name: String,
     /// Material name.
     pub material: String,
-    /// Relative permittivity.
+    /// Relative permittivity at the part's service conditions.
     pub permittivity: f64,
-    /// Peak field (on the part's surface or inside).
+    /// Relative permittivity of the same material dry at 20 °C.
+    pub permittivity_reference: f64,
+    /// The part's temperature, °C.
+    pub temperature_c: f64,
+    /// Absorbed water, volume % (null when dry).
+    pub water_volume_pct: Option<f64>,
+    /// Peak field (on the part's surface or inside), in the case's
+    /// convention (`values`).
     pub e_max_kv_per_mm: f64,
+    /// The peak field of the same case with every part dry at 20 °C (null
+    /// when the case is at those conditions already).
+    pub e_max_reference_kv_per_mm: Option<f64>,
+    /// Change of the peak against that reference, %.
+    pub e_max_change_pct: Option<f64>,
     /// Where the peak is, [x, y] (or [r, z]).
     pub e_max_at_mm: [f64; 2],
     /// Area- (planar) or volume- (axisymmetric) weighted mean field.
@@ -103,7 +115,9 @@ pub struct PartOut {
     pub w_max_j_per_m3: f64,
     /// Largest polarisation energy density ½·ε0·(εr−1)·E².
     pub w_pol_max_j_per_m3: f64,
-    /// Typical short-term breakdown strength (null when the material has none).
+    /// Typical short-term breakdown strength in the case's convention
+    /// (converted from the basis it was measured in; null when the material
+    /// has none).
     pub strength_kv_per_mm: Option<f64>,
     /// strength / e_max (null when there is no strength or no field).
     pub margin: Option<f64>,
@@ -118,6 +132,54 @@ pub struct PartOut {
     pub e_max_observed_order: Option<f64>,
     /// The peak keeps growing under refinement (a singular edge or corner).
     pub e_max_grows_with_refinement: bool,
+}
+
+/// `operation`
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct OperationOut {
+    /// `static` or `ac`.
+    pub mode: &'static str,
+    /// AC frequency (null when static).
+    pub frequency_hz: Option<f64>,
+    /// `rms` or `peak`.
+    pub values: &'static str,
+    /// False when the case gave no `operation:` (the static default).
+    pub stated: bool,
+}
+
+/// `environment`
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct EnvironmentOut {
+    /// Temperature of parts that state none, °C.
+    pub temperature_c: f64,
+    /// Gas pressure, kPa absolute.
+    pub pressure_kpa: f64,
+}
+
+/// `reference`: the same case dry at 20 °C, solved for the stress shift.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ReferenceOut {
+    /// Temperature of every part, °C.
+    pub temperature_c: f64,
+    /// Method of the extra solve (the first solve's setup reused).
+    pub method: String,
+    /// Its iterations.
+    pub iterations: usize,
+    /// Its true relative residual.
+    pub relative_residual: f64,
+}
+
+/// `dipole_alignment`: how far the field turns absorbed water's dipoles.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct DipoleOut {
+    /// The part with the largest alignment.
+    pub part: String,
+    /// x = p·E/(k·T) with p = 6.17e-30 C·m and E the instantaneous peak field.
+    pub x_max: f64,
+    /// ⟨cos θ⟩ = L(x), the Langevin function (≈ x/3 while x ≪ 1).
+    pub mean_cos_theta: f64,
+    /// Linear response holds (x ≤ 0.3).
+    pub linear: bool,
 }
 
 /// `mesh_check`
@@ -176,8 +238,21 @@ pub struct CheckReport {
     pub verdict: VerdictOut,
     /// Case title.
     pub title: String,
+    /// `rms` or `peak`: the convention of every voltage, field and strength
+    /// in this result.
+    pub values: &'static str,
     /// `planar` or `axisymmetric`.
     pub geometry: &'static str,
+    /// How the potentials vary in time.
+    pub operation: OperationOut,
+    /// Surroundings.
+    pub environment: EnvironmentOut,
+    /// The dry comparison (only when some part is wet or away from 20 °C).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub reference: Option<ReferenceOut>,
+    /// Water dipole alignment (only when some part holds water).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub dipole_alignment: Option<DipoleOut>,
     /// What extensive results refer to.
     pub results_per: &'static str,
     /// Grid summary.
@@ -268,8 +343,14 @@ pub struct MaterialOut {
     pub class: &'static str,
     /// Relative permittivity.
     pub permittivity: f64,
-    /// Typical short-term breakdown strength.
+    /// Typical short-term breakdown strength, in its basis.
     pub strength_kv_per_mm: Option<f64>,
+    /// `rms` or `peak`: how the strength was measured.
+    pub strength_basis: &'static str,
+    /// Specimen thickness of the strength, where the source states one.
+    pub strength_thickness_mm: Option<f64>,
+    /// Typical density.
+    pub density_kg_per_m3: f64,
     /// Loss tangent.
     pub loss_tangent: Option<f64>,
     /// Source of the values.

@@ -21,6 +21,9 @@ pub struct SummaryRow {
     /// Its peak field.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub e_max_kv_per_mm: Option<f64>,
+    /// `rms` or `peak`: the convention of the case's fields.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub values: Option<&'static str>,
     /// Its margin.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub margin: Option<f64>,
@@ -48,6 +51,7 @@ pub fn row(file: &str, r: &CheckReport) -> SummaryRow {
         exit_status,
         worst_part: worst.map(|p| p.name.clone()),
         e_max_kv_per_mm: worst.map(|p| p.e_max_kv_per_mm),
+        values: Some(r.values),
         margin: worst.and_then(|p| p.margin),
         findings: {
             let mut codes: Vec<&'static str> = Vec::new();
@@ -70,6 +74,7 @@ pub fn error_row(file: &str, message: &str) -> SummaryRow {
         exit_status: 2,
         worst_part: None,
         e_max_kv_per_mm: None,
+        values: None,
         margin: None,
         findings: Vec::new(),
         error: Some(message.to_string()),
@@ -91,7 +96,10 @@ pub fn render_summary(rows: &[SummaryRow]) -> String {
                 r.file.clone(),
                 r.verdict.to_string(),
                 r.worst_part.clone().unwrap_or_else(|| "—".into()),
-                r.e_max_kv_per_mm.map_or_else(|| "—".into(), sig4),
+                match (r.e_max_kv_per_mm, r.values) {
+                    (Some(e), Some(v)) => format!("{} {v}", sig4(e)),
+                    _ => "—".into(),
+                },
                 r.margin.map_or_else(|| "—".into(), sig4),
                 match &r.error {
                     Some(e) => e.lines().next().unwrap_or_default().to_string(),
@@ -148,10 +156,11 @@ pub fn junit_xml(rows: &[SummaryRow]) -> String {
             None => (
                 "failure",
                 format!(
-                    "verdict {}: worst part {} (E max {} kV/mm, margin {}); findings: {}",
+                    "verdict {}: worst part {} (E max {} kV/mm {}, margin {}); findings: {}",
                     r.verdict,
                     r.worst_part.as_deref().unwrap_or("—"),
                     r.e_max_kv_per_mm.map_or_else(|| "—".into(), super::text::sig4),
+                    r.values.unwrap_or(""),
                     r.margin.map_or_else(|| "—".into(), super::text::sig4),
                     r.findings.join(", ")
                 ),

@@ -73,6 +73,23 @@ fn wrap(out: &mut String, first: &str, text: &str) {
     }
 }
 
+/// What the case's values are, in words.
+fn values_sentence(r: &CheckReport) -> String {
+    match (r.operation.mode, r.operation.frequency_hz) {
+        ("ac", Some(f)) => format!(
+            "{} — AC at {} Hz: every voltage, field and strength below is an {} value{}",
+            r.values,
+            f,
+            r.values,
+            if r.values == "rms" { " (energies are time averages)" } else { "" }
+        ),
+        _ => format!(
+            "peak — static field: every voltage, field and strength below is an instantaneous (peak) value{}",
+            if r.operation.stated { "" } else { " (no `operation:` given)" }
+        ),
+    }
+}
+
 /// Renders a check result for a terminal. Deterministic: the solve time is
 /// left out so the same case always gives the same text.
 pub fn render_text(r: &CheckReport) -> String {
@@ -80,6 +97,7 @@ pub fn render_text(r: &CheckReport) -> String {
     let _ = writeln!(o, "hvstack {} — screening check", r.hvstack_version);
     let _ = writeln!(o, "case         {}", r.title);
     let _ = writeln!(o, "verdict      {}", verdict_sentence(r.verdict));
+    let _ = writeln!(o, "values       {}", values_sentence(r));
     let _ = writeln!(o, "geometry     {}; charge, capacitance and energy {}", r.geometry, r.results_per);
     let g = &r.grid;
     let _ = writeln!(
@@ -118,19 +136,50 @@ pub fn render_text(r: &CheckReport) -> String {
             ]
         })
         .collect();
-    let head = [
-        "part",
-        "material",
-        "εr",
-        "E max kV/mm",
-        "at mm",
-        "E mean kV/mm",
-        "w_pol max J/m³",
-        "strength kV/mm",
-        "margin",
-        "verdict",
-    ];
+    let v = r.values;
+    let (e_max, e_mean, strength) =
+        (format!("E max kV/mm {v}"), format!("E mean kV/mm {v}"), format!("strength kV/mm {v}"));
+    let head = ["part", "material", "εr", &e_max, "at mm", &e_mean, "w_pol max J/m³", &strength, "margin", "verdict"];
     let _ = writeln!(o, "{}", table(&head, rows, &[2, 3, 4, 5, 6, 7, 8]));
+
+    if let Some(reference) = &r.reference {
+        let _ = writeln!(
+            o,
+            "\nservice conditions against the same case dry at {} °C (solved again: {}, {} iterations)",
+            sig4(reference.temperature_c),
+            reference.method,
+            reference.iterations
+        );
+        let rows = r
+            .parts
+            .iter()
+            .map(|p| {
+                vec![
+                    p.name.clone(),
+                    sig4(p.temperature_c),
+                    opt(p.water_volume_pct),
+                    sig4(p.permittivity_reference),
+                    sig4(p.permittivity),
+                    opt(p.e_max_reference_kv_per_mm),
+                    sig4(p.e_max_kv_per_mm),
+                    p.e_max_change_pct.map_or_else(|| "—".to_string(), |c| format!("{c:+.1}")),
+                ]
+            })
+            .collect();
+        let (dry, now) = (format!("E max dry kV/mm {v}"), format!("E max kV/mm {v}"));
+        let head = ["part", "T °C", "water vol%", "εr dry 20 °C", "εr", &dry, &now, "change %"];
+        let _ = writeln!(o, "{}", table(&head, rows, &[1, 2, 3, 4, 5, 6, 7]));
+    }
+    if let Some(d) = &r.dipole_alignment {
+        let _ = writeln!(
+            o,
+            "water dipoles  largest alignment in {}: x = p·E/kT = {:.2e}, ⟨cos θ⟩ = {:.2e} ({})",
+            d.part,
+            d.x_max,
+            d.mean_cos_theta,
+            if d.linear { "linear response holds" } else { "beyond linear response" }
+        );
+    }
 
     if let Some(m) = &r.mesh_check {
         let _ = writeln!(o, "\nmesh self-check (grids of {} / {} / {} nodes)", m.nodes[0], m.nodes[1], m.nodes[2]);
@@ -150,7 +199,8 @@ pub fn render_text(r: &CheckReport) -> String {
                 ]
             })
             .collect();
-        let head = ["part", "E max fine", "medium", "coarse kV/mm", "order", "error est. %", ""];
+        let coarse = format!("coarse kV/mm {}", r.values);
+        let head = ["part", "E max fine", "medium", &coarse, "order", "error est. %", ""];
         let _ = writeln!(o, "{}", table(&head, rows, &[1, 2, 3, 4, 5]));
     }
 
@@ -162,13 +212,14 @@ pub fn render_text(r: &CheckReport) -> String {
         .map(|e| vec![e.name.clone(), e.kind.to_string(), sig4(e.potential_kv), sig4(e.charge.value)])
         .collect();
     let charge_head = format!("charge {unit}");
-    let _ = writeln!(o, "{}", table(&["electrode", "kind", "potential kV", &charge_head], rows, &[2, 3]));
+    let potential_head = format!("potential kV {}", r.values);
+    let _ = writeln!(o, "{}", table(&["electrode", "kind", &potential_head, &charge_head], rows, &[2, 3]));
 
     let _ = writeln!(o);
     if let Some(c) = &r.field_concentration {
         let _ = writeln!(
             o,
-            "peak field   {} kV/mm; gap {} mm, uniform-field value {} kV/mm, enhancement factor {}",
+            "peak field   {} kV/mm {v}; gap {} mm, uniform-field value {} kV/mm {v}, enhancement factor {}",
             sig4(c.e_max_kv_per_mm),
             sig4(c.gap_mm),
             sig4(c.e_uniform_kv_per_mm),
@@ -195,7 +246,8 @@ pub fn render_text(r: &CheckReport) -> String {
                 ]
             })
             .collect();
-        let _ = writeln!(o, "{}", table(&["probe", "at mm", "in part", "potential kV", "E kV/mm"], rows, &[1, 3, 4]));
+        let (pk, ek) = (format!("potential kV {v}"), format!("E kV/mm {v}"));
+        let _ = writeln!(o, "{}", table(&["probe", "at mm", "in part", &pk, &ek], rows, &[1, 3, 4]));
     }
 
     if !r.lines.is_empty() {

@@ -152,40 +152,78 @@ impl Default for SolverConfig {
     }
 }
 
-/// Solves A·x = b with the configured preconditioner. A multigrid setup
-/// failure or a stalled multigrid solve falls back to Jacobi, and
-/// `SolveReport::method` says so; an unconverged answer is never returned.
+/// Solves A·x = b with the configured preconditioner (a [`Solver`] set up
+/// for one solve).
 pub fn solve(a: &Matrix, b: &[f64], config: &SolverConfig) -> Result<(Vec<f64>, SolveReport), SolveError> {
-    let opts = config.options;
-    // Bound the work so that a hopeless solve ends in seconds, not hours.
-    let capped = |cost_per_iteration: f64| SolveOptions {
-        max_iterations: opts
-            .max_iterations
-            .min(((WORK_LIMIT / (cost_per_iteration * a.nnz().max(1) as f64)) as usize).max(MIN_ITERATIONS)),
-        ..opts
-    };
-    let (jacobi_opts, amg_opts) = (capped(1.0), capped(AMG_ITERATION_COST));
-    let fallback = |reason: String| {
-        let (x, mut rep) = pcg(a, b, &mut Jacobi::new(a), &jacobi_opts, None)?;
-        rep.method = format!("pcg+jacobi (fallback: {reason})");
-        Ok((x, rep))
-    };
-    match config.preconditioner {
-        PreconditionerChoice::Jacobi => pcg(a, b, &mut Jacobi::new(a), &jacobi_opts, None),
-        PreconditionerChoice::Amg(ao) => match Amg::new(a, &ao) {
-            Err(e) => fallback(format!("multigrid setup failed: {e}")),
-            Ok(mut amg) => match pcg(a, b, &mut amg, &amg_opts, Some(STALL_WINDOW)) {
+    Solver::new(a, config).solve(b)
+}
+
+/// A solver set up once and kept for many solves (build once, solve many):
+/// the multigrid hierarchy of its matrix is built when the solver is made,
+/// then serves every right-hand side, and as a preconditioner for other
+/// matrices of the same pattern (the same case at other material values).
+/// A multigrid setup failure or a stalled multigrid solve falls back to
+/// Jacobi, and `SolveReport::method` says so; an unconverged answer is
+/// never returned.
+pub struct Solver<'a> {
+    matrix: &'a Matrix,
+    config: SolverConfig,
+    /// The hierarchy, or why it could not be built; `None` when Jacobi was
+    /// asked for.
+    amg: Option<Result<Amg<'a>, AmgError>>,
+}
+
+impl<'a> Solver<'a> {
+    /// Sets up the configured preconditioner for `a`.
+    pub fn new(a: &'a Matrix, config: &SolverConfig) -> Solver<'a> {
+        let amg = match config.preconditioner {
+            PreconditionerChoice::Jacobi => None,
+            PreconditionerChoice::Amg(ao) => Some(Amg::new(a, &ao)),
+        };
+        Solver { matrix: a, config: *config, amg }
+    }
+
+    /// Solves A·x = b for the matrix the solver was set up for.
+    pub fn solve(&mut self, b: &[f64]) -> Result<(Vec<f64>, SolveReport), SolveError> {
+        let a = self.matrix;
+        self.solve_with(a, b)
+    }
+
+    /// Solves other·x = b, preconditioned by this setup: `other` has the
+    /// pattern of the solver's matrix and nearby values. Convergence is
+    /// judged on `other`'s true residual, as always.
+    pub fn solve_with(&mut self, other: &Matrix, b: &[f64]) -> Result<(Vec<f64>, SolveReport), SolveError> {
+        let opts = self.config.options;
+        // Bound the work so that a hopeless solve ends in seconds, not hours.
+        let capped = |cost_per_iteration: f64| SolveOptions {
+            max_iterations: opts
+                .max_iterations
+                .min(((WORK_LIMIT / (cost_per_iteration * other.nnz().max(1) as f64)) as usize).max(MIN_ITERATIONS)),
+            ..opts
+        };
+        let (jacobi_opts, amg_opts) = (capped(1.0), capped(AMG_ITERATION_COST));
+        let fallback = |reason: String| {
+            let (x, mut rep) = pcg(other, b, &mut Jacobi::new(other), &jacobi_opts, None)?;
+            rep.method = format!("pcg+jacobi (fallback: {reason})");
+            Ok((x, rep))
+        };
+        let reused = !std::ptr::eq(other, self.matrix);
+        match &mut self.amg {
+            None => pcg(other, b, &mut Jacobi::new(other), &jacobi_opts, None),
+            Some(Err(e)) => fallback(format!("multigrid setup failed: {e}")),
+            Some(Ok(amg)) => match pcg(other, b, amg, &amg_opts, Some(STALL_WINDOW)) {
                 Ok((x, mut rep)) => {
                     rep.method = format!(
-                        "pcg+amg ({} levels, operator complexity {:.2})",
+                        "pcg+amg ({} levels, operator complexity {:.2}{})",
                         amg.depth(),
-                        amg.operator_complexity()
+                        amg.operator_complexity(),
+                        if reused { ", hierarchy reused" } else { "" }
                     );
                     Ok((x, rep))
                 }
                 Err(e) => fallback(format!("multigrid-preconditioned CG failed: {e}")),
             },
-        },
+        }
     }
 }
 

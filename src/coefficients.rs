@@ -1,0 +1,253 @@
+//! Stage 3: material models at their state, turned into the numbers the
+//! discretisation needs. The only place where materials become numbers.
+//!
+//! Painting (`grid`) is geometry: which region owns each cell, and for cells
+//! an interface crosses, which region fills each sub-sample and the
+//! interface normal. Here each region's material is evaluated at its state
+//! (temperature, absorbed water, frequency: [`State`]) to a relative
+//! permittivity, and each cut cell gets an effective tensor from its
+//! sub-samples:
+//!
+//! * where exactly two regions meet, the laminate tensor (Kottke,
+//!   Farjadpour & Johnson, Phys. Rev. E 77, 036611, 2008): ε_n = harmonic
+//!   mean across the interface, ε_t = arithmetic mean along it,
+//!   ε = ε_n·n·nᵀ + ε_t·(I − n·nᵀ), with volume fractions r-weighted in
+//!   axisymmetric cases;
+//! * with three or more regions, directional averages per quarter: for flux
+//!   along x each row of samples is a chain in series (harmonic mean along
+//!   x) and the rows conduct side by side (arithmetic mean over y), likewise
+//!   along y, and no cross term.
+//!
+//! The coefficient type is generic ([`Coefficient`]): the real relative
+//! permittivity of electrostatics is `f64`; a complex admittivity for AC
+//! with losses is another instance of the same code.
+
+use crate::case::{Case, Geometry, Mode, Part, Role};
+use crate::grid::{CellIx, Grid, Layout, SUBSAMPLES};
+use crate::materials::{self, Material};
+use std::ops::{Add, Div, Mul, Sub};
+
+/// What a cell coefficient must support: field arithmetic and scaling by
+/// reals. Implemented for `f64` (relative permittivity).
+pub trait Coefficient:
+    Copy
+    + Send
+    + Sync
+    + PartialEq
+    + std::fmt::Debug
+    + Add<Output = Self>
+    + Sub<Output = Self>
+    + Mul<Output = Self>
+    + Div<Output = Self>
+    + Mul<f64, Output = Self>
+{
+    /// The coefficient of a real value.
+    fn real(x: f64) -> Self;
+    /// `kappa` limited so that a cut cell whose axis conductances in series
+    /// are `hx` and `hy` stays positive semi-definite with its cross term
+    /// (|κ| ≤ `factor`·2·√(hx·hy); see `assemble`).
+    fn limit_cross(kappa: Self, hx: Self, hy: Self, factor: f64) -> Self;
+}
+
+impl Coefficient for f64 {
+    fn real(x: f64) -> f64 {
+        x
+    }
+
+    fn limit_cross(kappa: f64, hx: f64, hy: f64, factor: f64) -> f64 {
+        let limit = factor * 2.0 * (hx * hy).sqrt();
+        kappa.clamp(-limit, limit)
+    }
+}
+
+/// The state one region's material is evaluated at.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct State {
+    /// Temperature in °C.
+    pub temperature_c: f64,
+    /// Absorbed water, if any.
+    pub water: Option<crate::case::Water>,
+    /// Frequency in Hz (0 for static fields).
+    pub frequency_hz: f64,
+}
+
+/// Which state a case is evaluated at.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Conditions {
+    /// As the case says: each part at its temperature, with its water.
+    Service,
+    /// Every part dry at the reference temperature (the stress-shift
+    /// comparison).
+    DryReference,
+}
+
+/// The state of each region of a layout under `conditions`.
+pub fn states(case: &Case, layout: &Layout, conditions: Conditions) -> Vec<State> {
+    let frequency_hz = match case.operation.mode {
+        Mode::Static => 0.0,
+        Mode::Ac => case.operation.frequency_hz,
+    };
+    layout
+        .regions
+        .iter()
+        .map(|r| {
+            let part: Option<&Part> = r.part.map(|p| &case.parts[p]);
+            let service = part.map(|p| p.service).unwrap_or_default();
+            match conditions {
+                Conditions::Service => State {
+                    temperature_c: service.temperature_c.unwrap_or(case.environment.temperature_c),
+                    water: service.water,
+                    frequency_hz,
+                },
+                Conditions::DryReference => {
+                    State { temperature_c: materials::REFERENCE_TEMPERATURE_C, water: None, frequency_hz }
+                }
+            }
+        })
+        .collect()
+}
+
+/// True when the case has a part or an environment away from the dry
+/// reference (so that a stress-shift comparison means something).
+pub fn differs_from_reference(case: &Case) -> bool {
+    let hot = |t: f64| t != materials::REFERENCE_TEMPERATURE_C;
+    hot(case.environment.temperature_c)
+        || case.parts.iter().any(|p| {
+            matches!(p.role, Role::Dielectric(_))
+                && (p.service.water.is_some() || p.service.temperature_c.is_some_and(hot))
+        })
+}
+
+/// The relative permittivity of a material at a state: the material's own
+/// model at the temperature and frequency, mixed with absorbed water by the
+/// part's rule.
+pub fn permittivity(material: &Material, state: &State) -> f64 {
+    let host = material.permittivity_at(state.temperature_c, state.frequency_hz);
+    match state.water {
+        None => host,
+        Some(w) => materials::mix(host, materials::water_permittivity(state.temperature_c), w.volume_fraction, w.rule),
+    }
+}
+
+/// Per-region and per-cut-cell coefficients of one evaluation.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Coefficients<T> {
+    /// Relative coefficient of each region (layout order).
+    pub region: Vec<T>,
+    /// Per cut cell (layout order): the coefficients of the quarters beside
+    /// the cell's bottom, top, left and right edges, and the cross term
+    /// ε_xy of its laminate tensor (zero where none).
+    pub cut: Vec<([T; 4], T)>,
+}
+
+impl<T: Coefficient> Coefficients<T> {
+    /// Blends the region values into every cut cell of the layout.
+    pub fn new(grid: &Grid, geometry: Geometry, layout: &Layout, region: Vec<T>) -> Coefficients<T> {
+        let cut = layout
+            .cut_cells
+            .iter()
+            .map(|c| {
+                let weights = sample_weights(grid, geometry, CellIx(c.cell as usize));
+                let values: Vec<T> = c.samples.iter().map(|&r| region[r as usize]).collect();
+                match c.normal {
+                    Some(n) => laminate(&values, &c.samples, &weights, n),
+                    None => (directional(&values), T::real(0.0)),
+                }
+            })
+            .collect();
+        Coefficients { region, cut }
+    }
+}
+
+/// The relative permittivity coefficients of a case under `conditions`.
+pub fn permittivities(case: &Case, grid: &Grid, layout: &Layout, conditions: Conditions) -> Coefficients<f64> {
+    let region = states(case, layout, conditions)
+        .iter()
+        .zip(&layout.regions)
+        .map(|(s, r)| permittivity(&case.materials[r.material], s))
+        .collect();
+    Coefficients::new(grid, case.geometry, layout, region)
+}
+
+/// Volume weight of each sub-sample of a cell: 1, or its radius when
+/// axisymmetric.
+fn sample_weights(grid: &Grid, geometry: Geometry, c: CellIx) -> Vec<f64> {
+    let n = SUBSAMPLES;
+    let (i, _) = grid.cell_ij(c);
+    let (x0, hx) = (grid.x[i], grid.x[i + 1] - grid.x[i]);
+    (0..n * n)
+        .map(|k| match geometry {
+            Geometry::Axisymmetric => x0 + ((k % n) as f64 + 0.5) / n as f64 * hx,
+            Geometry::Planar => 1.0,
+        })
+        .collect()
+}
+
+/// The laminate tensor of a cell where two regions meet: quarters
+/// [ε_xx, ε_xx, ε_yy, ε_yy] and ε_xy, for the unit interface normal `n`.
+fn laminate<T: Coefficient>(values: &[T], regions: &[u16], weights: &[f64], n: [f64; 2]) -> ([T; 4], T) {
+    let first = regions[0];
+    let (a, b) = (values[0], values[regions.iter().position(|&r| r != first).unwrap_or(0)]);
+    let total: f64 = weights.iter().sum();
+    let fa = regions.iter().zip(weights).filter(|(r, _)| **r == first).map(|(_, w)| w).sum::<f64>() / total;
+    let one = T::real(1.0);
+    let e_n = one / (one / a * fa + one / b * (1.0 - fa));
+    let e_t = a * fa + b * (1.0 - fa);
+    let [nx, ny] = n;
+    let exx = e_n * (nx * nx) + e_t * (ny * ny);
+    let eyy = e_n * (ny * ny) + e_t * (nx * nx);
+    ([exx, exx, eyy, eyy], (e_n - e_t) * (nx * ny))
+}
+
+/// Directional averages of a cell's quarters [bottom, top, left, right]:
+/// rows in series along x averaged side by side over each half in y, and
+/// likewise along y.
+fn directional<T: Coefficient>(values: &[T]) -> [T; 4] {
+    let n = SUBSAMPLES;
+    let one = T::real(1.0);
+    let series = |k: &mut dyn Iterator<Item = T>| -> T {
+        let mut s = T::real(0.0);
+        for v in k {
+            s = s + one / v;
+        }
+        T::real(n as f64) / s
+    };
+    let rows = |range: std::ops::Range<usize>| -> T {
+        let k = range.len() as f64;
+        let mut s = T::real(0.0);
+        for b in range {
+            s = s + series(&mut (0..n).map(|a| values[b * n + a]));
+        }
+        s * (1.0 / k)
+    };
+    let cols = |range: std::ops::Range<usize>| -> T {
+        let k = range.len() as f64;
+        let mut s = T::real(0.0);
+        for a in range {
+            s = s + series(&mut (0..n).map(|b| values[b * n + a]));
+        }
+        s * (1.0 / k)
+    };
+    [rows(0..n / 2), rows(n / 2..n), cols(0..n / 2), cols(n / 2..n)]
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn laminate_of_a_flat_interface_is_series_across_and_parallel_along() {
+        // Half of each material, interface normal along x: ε_xx is the series
+        // (harmonic) value, ε_yy the parallel (arithmetic) one, no cross term
+        // (common practice for layered media).
+        let n = SUBSAMPLES;
+        let regions: Vec<u16> = (0..n * n).map(|k| if k % n < n / 2 { 1 } else { 2 }).collect();
+        let values: Vec<f64> = regions.iter().map(|&r| if r == 1 { 2.0 } else { 8.0 }).collect();
+        let (q, xy) = laminate(&values, &regions, &vec![1.0; n * n], [1.0, 0.0]);
+        assert!((q[0] - 3.2).abs() < 1e-12 && (q[2] - 5.0).abs() < 1e-12 && xy == 0.0, "{q:?} {xy}");
+        // directional averages: across the interface in series, and the
+        // left and right quarters each lie in one material
+        let d = directional(&values);
+        assert!((d[0] - 3.2).abs() < 1e-12 && (d[2] - 2.0).abs() < 1e-12 && (d[3] - 8.0).abs() < 1e-12, "{d:?}");
+    }
+}
