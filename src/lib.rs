@@ -5,11 +5,13 @@
 //! energy, the margin of every material to its typical breakdown strength,
 //! and a verdict with findings come out. The pipeline runs forward only:
 //!
-//! `case` (parse, validate) → `grid` (graded grid, painting) → `assemble`
-//! (box integration, sparse system) → `solve` (PCG) → `fields` (E, energy,
-//! charge) → `meshcheck` (the same on coarser grids, Richardson estimates)
-//! → `assess` (margins, verdicts, findings) → `report` (result model, JSON,
-//! text).
+//! `case` (parse, validate) → `grid` (graded grid, painting: geometry) →
+//! `coefficients` (material models at each part's temperature, water and
+//! frequency) → `assemble` (box integration: factors and pattern once,
+//! values per evaluation) → `solve` (PCG, setup reused) → `fields` (E,
+//! energy, charge) → `meshcheck` (the same on coarser grids, Richardson
+//! estimates) → `assess` (margins, verdicts, findings, stress shift) →
+//! `report` (result model, JSON, text).
 //!
 //! The library performs no I/O: it takes the case text and returns values.
 //!

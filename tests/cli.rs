@@ -333,3 +333,15 @@ fn readme_states_the_limits_the_code_enforces() {
     }
     assert!(section.contains(&format!("{:e} kV", l::MIN_POTENTIAL_KV)), "smallest potential");
 }
+
+/// README's example report is the real output of its command, so the
+/// documentation cannot drift from the program.
+#[test]
+fn readme_example_report_is_current() {
+    let readme = std::fs::read_to_string("README.md").unwrap();
+    let start = "```\n$ hvstack check cases/moist-resin-gap.yaml\n";
+    let at = readme.find(start).expect("README has the example report") + start.len();
+    let shown = &readme[at..at + readme[at..].find("```\n").expect("the example block ends")];
+    let out = hvstack(&["check", "cases/moist-resin-gap.yaml"]);
+    assert_eq!(String::from_utf8_lossy(&out.stdout), shown, "update README's example report");
+}
