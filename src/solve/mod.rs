@@ -183,6 +183,11 @@ impl<'a> Solver<'a> {
         Solver { matrix: a, config: *config, amg }
     }
 
+    /// Sets the relative residual later solves must reach.
+    pub fn set_tolerance(&mut self, rel_tol: f64) {
+        self.config.options.rel_tol = rel_tol;
+    }
+
     /// Solves A·x = b for the matrix the solver was set up for.
     pub fn solve(&mut self, b: &[f64]) -> Result<(Vec<f64>, SolveReport), SolveError> {
         let a = self.matrix;
@@ -193,6 +198,17 @@ impl<'a> Solver<'a> {
     /// pattern of the solver's matrix and nearby values. Convergence is
     /// judged on `other`'s true residual, as always.
     pub fn solve_with(&mut self, other: &Matrix, b: &[f64]) -> Result<(Vec<f64>, SolveReport), SolveError> {
+        self.solve_from(other, b, None)
+    }
+
+    /// [`Solver::solve_with`] from a starting guess (a nearby solution:
+    /// the same case at other material values).
+    pub fn solve_from(
+        &mut self,
+        other: &Matrix,
+        b: &[f64],
+        x0: Option<&[f64]>,
+    ) -> Result<(Vec<f64>, SolveReport), SolveError> {
         let opts = self.config.options;
         // Bound the work so that a hopeless solve ends in seconds, not hours.
         let capped = |cost_per_iteration: f64| SolveOptions {
@@ -203,15 +219,15 @@ impl<'a> Solver<'a> {
         };
         let (jacobi_opts, amg_opts) = (capped(1.0), capped(AMG_ITERATION_COST));
         let fallback = |reason: String| {
-            let (x, mut rep) = pcg(other, b, &mut Jacobi::new(other), &jacobi_opts, None)?;
+            let (x, mut rep) = pcg_from(other, b, x0, &mut Jacobi::new(other), &jacobi_opts, None)?;
             rep.method = format!("pcg+jacobi (fallback: {reason})");
             Ok((x, rep))
         };
         let reused = !std::ptr::eq(other, self.matrix);
         match &mut self.amg {
-            None => pcg(other, b, &mut Jacobi::new(other), &jacobi_opts, None),
+            None => pcg_from(other, b, x0, &mut Jacobi::new(other), &jacobi_opts, None),
             Some(Err(e)) => fallback(format!("multigrid setup failed: {e}")),
-            Some(Ok(amg)) => match pcg(other, b, amg, &amg_opts, Some(STALL_WINDOW)) {
+            Some(Ok(amg)) => match pcg_from(other, b, x0, amg, &amg_opts, Some(STALL_WINDOW)) {
                 Ok((x, mut rep)) => {
                     rep.method = format!(
                         "pcg+amg ({} levels, operator complexity {:.2}{})",
@@ -327,8 +343,21 @@ pub fn pcg(
     opts: &SolveOptions,
     stall_window: Option<usize>,
 ) -> Result<(Vec<f64>, SolveReport), SolveError> {
+    pcg_from(a, b, None, m, opts, stall_window)
+}
+
+/// [`pcg`] from a starting guess `x0` (`None`: zero). The tolerance is on
+/// ‖b − A·x‖/‖b‖ whatever the start, so a good guess only saves iterations.
+pub fn pcg_from(
+    a: &Matrix,
+    b: &[f64],
+    x0: Option<&[f64]>,
+    m: &mut impl Preconditioner,
+    opts: &SolveOptions,
+    stall_window: Option<usize>,
+) -> Result<(Vec<f64>, SolveReport), SolveError> {
     let n = b.len();
-    let mut x = vec![0.0; n];
+    let mut x = x0.map_or_else(|| vec![0.0; n], <[f64]>::to_vec);
     let norm_b = norm(b);
     let method = format!("pcg+{}", m.name());
     let report = |iterations, relative_residual, history| SolveReport {
@@ -342,9 +371,19 @@ pub fn pcg(
         return Err(SolveError::NonFinite);
     }
     if norm_b == 0.0 {
-        return Ok((x, report(0, 0.0, Vec::new())));
+        return Ok((vec![0.0; n], report(0, 0.0, Vec::new())));
     }
     let mut r = b.to_vec();
+    if x0.is_some() {
+        kernels::residual(a, &x, b, &mut r);
+        let start = norm(&r) / norm_b;
+        if !start.is_finite() {
+            return Err(SolveError::NonFinite);
+        }
+        if start <= opts.rel_tol {
+            return Ok((x, report(0, start, Vec::new())));
+        }
+    }
     let mut z = vec![0.0; n];
     m.apply(&r, &mut z);
     let mut p = z.clone();
