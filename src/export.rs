@@ -56,15 +56,17 @@ pub fn vtk(case: &Case, grid: &Grid, layout: &Layout, phi: &[f64]) -> String {
         }
     }
     let _ = writeln!(o, "POINT_DATA {}", grid.nodes());
-    let _ = writeln!(o, "SCALARS potential_kv double 1\nLOOKUP_TABLE default");
+    // array names carry the case's convention: potential_kv_rms, …
+    let v = case.operation.values.name();
+    let _ = writeln!(o, "SCALARS potential_kv_{v} double 1\nLOOKUP_TABLE default");
     for v in phi {
         let _ = writeln!(o, "{:e}", to_kv(*v));
     }
-    let _ = writeln!(o, "VECTORS e_kv_per_mm double");
+    let _ = writeln!(o, "VECTORS e_kv_per_mm_{v} double");
     for v in &e {
         let _ = writeln!(o, "{:e} {:e} 0", v[0], v[1]);
     }
-    let _ = writeln!(o, "SCALARS e_magnitude_kv_per_mm double 1\nLOOKUP_TABLE default");
+    let _ = writeln!(o, "SCALARS e_magnitude_kv_per_mm_{v} double 1\nLOOKUP_TABLE default");
     for v in &e {
         let _ = writeln!(o, "{:e}", v[0].hypot(v[1]));
     }

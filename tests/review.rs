@@ -159,7 +159,8 @@ fn vtk_file_reads_back() {
     let xs: Vec<f64> = body[find("X_COORDINATES") + 1].split_whitespace().map(|v| v.parse().expect("x")).collect();
     assert_eq!(xs.len(), nx);
     assert!(xs.windows(2).all(|w| w[1] > w[0]), "x coordinates increase");
-    let start = find("SCALARS potential_kv") + 2;
+    // the demo case states rms values, and the array names say so
+    let start = find("SCALARS potential_kv_rms") + 2;
     let phi: Vec<f64> = body[start..start + nx * ny].iter().map(|v| v.parse().expect("potential")).collect();
     // Maximum principle: potentials between the electrodes' 0 and 12 kV (the case's stack voltage).
     let (lo, hi) = phi.iter().fold((f64::MAX, f64::MIN), |(a, b), &v| (a.min(v), b.max(v)));
@@ -184,7 +185,17 @@ fn line_csv_follows_the_series_layer_solution() {
     let head: Vec<String> = reader.headers().expect("header").iter().map(String::from).collect();
     assert_eq!(
         head,
-        ["distance_mm", "x_mm", "y_mm", "potential_kv", "e_kv_per_mm", "e_x_kv_per_mm", "e_y_kv_per_mm", "part"]
+        [
+            "distance_mm",
+            "x_mm",
+            "y_mm",
+            "potential_kv",
+            "e_kv_per_mm",
+            "e_x_kv_per_mm",
+            "e_y_kv_per_mm",
+            "part",
+            "values"
+        ]
     );
     let rows: Vec<csv::StringRecord> = reader.records().map(|r| r.expect("row")).collect();
     assert_eq!(rows.len(), 251);
@@ -211,6 +222,7 @@ fn line_csv_follows_the_series_layer_solution() {
             continue;
         }
         assert_eq!(&row[7], names[layer], "y = {y}");
+        assert_eq!(&row[8], "rms");
         let exact = 12.0 / (eps[layer] * sum);
         assert!((e - exact).abs() < 1e-6 * exact, "y = {y}: {e} vs {exact}");
     }

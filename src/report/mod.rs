@@ -334,7 +334,7 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
             e_kv_per_mm: to_kv_per_mm(f.e),
         })
         .collect();
-    let lines = case.lines.iter().zip(&fields.lines).map(|(l, f)| line_out(l, f)).collect();
+    let lines = case.lines.iter().zip(&fields.lines).map(|(l, f)| line_out(l, f, case.operation.values)).collect();
     let findings = assessment
         .findings
         .iter()
@@ -425,7 +425,7 @@ fn clean(mm: f64) -> f64 {
     (mm * 1e9).round() / 1e9
 }
 
-fn line_out(line: &crate::case::Line, field: &crate::fields::LineField) -> LineOut {
+fn line_out(line: &crate::case::Line, field: &crate::fields::LineField, values: crate::units::Values) -> LineOut {
     let samples: Vec<LineSampleOut> = field
         .samples
         .iter()
@@ -438,6 +438,7 @@ fn line_out(line: &crate::case::Line, field: &crate::fields::LineField) -> LineO
             e_x_kv_per_mm: to_kv_per_mm(s.e[0]),
             e_y_kv_per_mm: to_kv_per_mm(s.e[1]),
             part: s.part.clone(),
+            values: values.name(),
         })
         .collect();
     let peak = field.peak.map(|k| &samples[k]);

@@ -332,6 +332,8 @@ pub struct LineSampleOut {
     pub e_y_kv_per_mm: f64,
     /// Part (or electrode) the sample lies in.
     pub part: String,
+    /// `rms` or `peak`: the convention of the potential and field columns.
+    pub values: &'static str,
 }
 
 /// One material of the built-in library, as listed by `materials`.

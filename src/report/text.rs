@@ -298,14 +298,18 @@ pub fn render_materials(list: &[MaterialOut]) -> String {
                 m.class.to_string(),
                 sig4(m.permittivity),
                 format!("{}–{}", m.permittivity_range[0], m.permittivity_range[1]),
-                opt(m.strength_kv_per_mm),
+                match m.strength_kv_per_mm {
+                    Some(s) => format!("{} {}", sig4(s), m.strength_basis),
+                    None => "—".to_string(),
+                },
+                opt(m.strength_thickness_mm),
                 m.strength_range_kv_per_mm.map_or_else(|| "—".to_string(), |r| format!("{}–{}", r[0], r[1])),
                 opt(m.loss_tangent),
             ]
         })
         .collect();
-    let head = ["material", "class", "εr", "εr range", "strength kV/mm", "range", "tan δ"];
-    let _ = writeln!(o, "{}", table(&head, rows, &[2, 3, 4, 5, 6]));
+    let head = ["material", "class", "εr", "εr range", "strength kV/mm", "at mm", "range", "tan δ"];
+    let _ = writeln!(o, "{}", table(&head, rows, &[2, 3, 4, 5, 6, 7]));
     let _ = writeln!(o, "\nsources");
     for m in list {
         wrap(&mut o, &format!("  {:<22}", m.name), m.source);
@@ -314,7 +318,7 @@ pub fn render_materials(list: &[MaterialOut]) -> String {
     wrap(
         &mut o,
         "",
-        "Typical screening values at power frequency and about 20 °C, not design values: use the datasheet of the material you buy, at your thickness, temperature and waveform. The ranges are what is published for each kind of material (from memory, to be verified); a user value outside them is flagged.",
+        "Typical screening values at power frequency and about 20 °C, dry, not design values; each strength is marked rms or peak as measured (solids and liquids with rms power-frequency voltages, gases as peak breakdown fields) and, where the source states it, with its specimen thickness or gap (at mm): use the datasheet of the material you buy, at your thickness, temperature and waveform. The ranges are what is published for each kind of material (from memory, to be verified); a user value outside them is flagged.",
     );
     o
 }
