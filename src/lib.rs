@@ -195,12 +195,8 @@ fn prepare_evaluations(case: Case, file: &str, grid: Grid, with_reference: bool)
     let layout = Layout::paint(&case, &grid).map_err(|e| Error::Grid { file: file.into(), source: Box::new(e) })?;
     let factors = Factors::new(&grid, case.geometry);
     let potentials = assemble::potentials(&layout);
-    let stencil_at = |conditions: Conditions| {
-        let coefficients = coefficients::permittivities(&case, &grid, &layout, conditions);
-        let stencil = Stencil::new(&grid, &layout, &factors, &coefficients);
-        (coefficients, stencil)
-    };
-    let (coefficients, stencil) = stencil_at(Conditions::Service);
+    let coefficients = coefficients::permittivities(&case, &grid, &layout, Conditions::Service);
+    let stencil = Stencil::new(&grid, &layout, &factors, &coefficients);
     let pattern = Pattern::new(&grid, &stencil, &assemble::constraints(&layout))
         .map_err(|source| Error::Assemble { file: file.into(), source })?;
     let evaluation = |conditions: Conditions, coefficients: Coefficients<f64>, stencil: Stencil| {
@@ -208,10 +204,17 @@ fn prepare_evaluations(case: Case, file: &str, grid: Grid, with_reference: bool)
         Evaluation { conditions, coefficients, stencil, system }
     };
     let service = evaluation(Conditions::Service, coefficients, stencil);
-    let reference = with_reference.then(|| {
-        let (coefficients, stencil) = stencil_at(Conditions::DryReference);
-        evaluation(Conditions::DryReference, coefficients, stencil)
-    });
+    // A case whose materials do not change with its conditions (constant
+    // permittivities in a warm environment) needs no second solve.
+    let reference = if with_reference {
+        let dry = coefficients::permittivities(&case, &grid, &layout, Conditions::DryReference);
+        (dry != service.coefficients).then(|| {
+            let stencil = Stencil::new(&grid, &layout, &factors, &dry);
+            evaluation(Conditions::DryReference, dry, stencil)
+        })
+    } else {
+        None
+    };
     Ok(Prepared { case, file: file.into(), grid, layout, factors, pattern, potentials, service, reference })
 }
 

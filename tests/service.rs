@@ -242,3 +242,16 @@ proptest! {
         }
     }
 }
+
+/// Warm surroundings with materials whose permittivity does not change with
+/// temperature move no stress: no second solve, but the strengths are still
+/// flagged as dry values at 20 °C.
+#[test]
+fn a_warm_case_of_constant_materials_needs_no_second_solve() {
+    let r = run(
+        "title: warm\nenvironment: { temperature_c: 60 }\nstack:\n  form: planar\n  voltage_kv: 1\n  layers: [ { name: p, material: ptfe, thickness: 1 } ]\n",
+    );
+    assert!(r.reference.is_none());
+    assert_eq!(part(&r, "p").temperature_c, 60.0);
+    assert!(r.findings.iter().any(|f| f.code == "dry-strength-used" && f.part.as_deref() == Some("p")));
+}
