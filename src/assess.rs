@@ -357,8 +357,8 @@ pub fn part_verdict(margin: Option<f64>, has_strength: bool, safety_factor: f64)
 /// Judges the solved case (see [`Inputs`]).
 pub fn assess(inp: &Inputs) -> Assessment {
     let Inputs { case, layout, permittivity, fields, check, reference } = *inp;
-    let values = case.operation.values;
     let states = crate::coefficients::states(case, layout, crate::coefficients::Conditions::Service);
+    let strengths = crate::coefficients::strengths(case, layout);
     let mut parts = Vec::new();
     let mut findings = Vec::new();
     for (r, region) in layout.regions.iter().enumerate() {
@@ -370,7 +370,7 @@ pub fn assess(inp: &Inputs) -> Assessment {
             continue;
         }
         let m = &case.materials[region.material];
-        let strength = m.strength_in(values);
+        let strength = strengths[r];
         let margin = strength.filter(|_| f.e_max > 0.0).map(|s| s / f.e_max);
         let verdict = part_verdict(margin, strength.is_some(), case.safety_factor);
         let part = Some(region.name.clone());

@@ -129,6 +129,14 @@ pub fn permittivity(material: &Material, state: &State) -> f64 {
     }
 }
 
+/// The breakdown strength of each region's material in the case's rms/peak
+/// convention (V/m; `None` where the material has none), converted from the
+/// basis it was measured in. Strengths are not derated for the state (the
+/// assessment says where that matters).
+pub fn strengths(case: &Case, layout: &Layout) -> Vec<Option<f64>> {
+    layout.regions.iter().map(|r| case.materials[r.material].strength_in(case.operation.values)).collect()
+}
+
 /// Per-region and per-cut-cell coefficients of one evaluation.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Coefficients<T> {
