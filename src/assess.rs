@@ -162,6 +162,51 @@ pub enum FindingKind {
     },
     /// Water dipoles are aligned far enough for linear response to fail.
     DipoleSaturation(Dipole),
+    /// Partial discharge starts at or below the working level.
+    PdAtWorkingLevel {
+        /// Inception level of the largest fixed |potential|, V (case convention).
+        inception: f64,
+        /// The working level, V.
+        working: f64,
+        /// The criterion that decided it.
+        criterion: crate::discharge::Criterion,
+    },
+    /// Partial-discharge inception lies above the working level by less
+    /// than the required margin.
+    PdMarginThin {
+        /// Inception level, V.
+        inception: f64,
+        /// Inception / working level.
+        ratio: f64,
+        /// Required ratio.
+        required: f64,
+    },
+    /// The critical gap is on the left branch of the Paschen curve (or too
+    /// short for gas ionisation at any level).
+    GasMicroGap {
+        /// Reduced length p20·l of the critical line, Pa·m.
+        reduced_length_pa_m: f64,
+        /// The p·d of the Paschen minimum, Pa·m.
+        minimum_pa_m: f64,
+        /// Whether any inception level was found.
+        found: bool,
+    },
+    /// The gas has Townsend constants only, and its critical line is long
+    /// enough that they read optimistic.
+    TownsendOnly {
+        /// Reduced length p20·l of the critical line, Pa·m.
+        reduced_length_pa_m: f64,
+    },
+    /// The critical field line was cut short at the point limit.
+    FieldLineTruncated,
+    /// The inception level changes with the grid by more than the limit
+    /// (a triple junction or a gap the grid does not resolve).
+    PdGridDependent {
+        /// Inception level on the fine, medium and coarse grid, V.
+        levels: [Option<f64>; 3],
+    },
+    /// An electrode, a solid and a gas or liquid meet.
+    TripleJunction(crate::discharge::Junction),
     /// A user value lies outside the range published for its base material.
     ValueOutOfRange {
         /// Material name.
@@ -196,16 +241,26 @@ impl FindingKind {
             FindingKind::MixingRuleRange { .. } => "mixing-rule-range",
             FindingKind::OutsideModelRange { .. } => "outside-model-range",
             FindingKind::DipoleSaturation(_) => "dipole-saturation",
+            FindingKind::PdAtWorkingLevel { .. } => "pd-at-working-level",
+            FindingKind::PdMarginThin { .. } => "pd-margin-thin",
+            FindingKind::GasMicroGap { .. } => "gas-micro-gap",
+            FindingKind::TownsendOnly { .. } => "townsend-only",
+            FindingKind::FieldLineTruncated => "field-line-truncated",
+            FindingKind::PdGridDependent { .. } => "pd-grid-dependent",
+            FindingKind::TripleJunction(_) => "triple-junction",
         }
     }
 
     /// How much it weighs.
     pub fn severity(&self) -> Severity {
         match self {
-            FindingKind::AboveBreakdown { .. } | FindingKind::GasAboveBreakdown { .. } => Severity::Fail,
+            FindingKind::AboveBreakdown { .. }
+            | FindingKind::GasAboveBreakdown { .. }
+            | FindingKind::PdAtWorkingLevel { .. } => Severity::Fail,
             FindingKind::GenericMaterial { .. }
             | FindingKind::OperationNotStated
             | FindingKind::DipoleSaturation(_) => Severity::Info,
+            FindingKind::TripleJunction(j) if !j.enhanced() => Severity::Info,
             _ => Severity::Warning,
         }
     }
@@ -248,6 +303,14 @@ pub struct PartAssessment {
     pub e_max_reference: Option<f64>,
     /// Relative change of the peak field against that reference.
     pub e_max_change: Option<f64>,
+    /// Gas parts with a discharge model: index into the inception list.
+    pub inception: Option<usize>,
+    /// Partial-discharge inception level of the largest fixed |potential|,
+    /// V (case convention); gas parts with a discharge model only.
+    pub pd_inception: Option<f64>,
+    /// Strength / peak field of a gas part judged by inception: for
+    /// information only (its verdict comes from the inception margin).
+    pub point_margin: Option<f64>,
 }
 
 /// How far the field turns the water dipoles of a part toward it: x =
@@ -315,6 +378,12 @@ pub struct Assessment {
     pub concentration: Option<Concentration>,
     /// Water dipole alignment, when a part holds water.
     pub dipole: Option<Dipole>,
+    /// The largest fixed |potential|, V (case convention): the level
+    /// inception levels are compared with.
+    pub working_level: f64,
+    /// The lowest partial-discharge inception level over the gas parts, V
+    /// (`None` without gas parts that have an inception level).
+    pub pd_inception: Option<f64>,
 }
 
 /// The dry-reference evaluation of a case.
@@ -324,6 +393,8 @@ pub struct Reference<'a> {
     pub permittivity: &'a [f64],
     /// The fields of that evaluation.
     pub fields: &'a Fields,
+    /// Inception of its gas parts.
+    pub discharge: &'a [crate::discharge::GasInception],
 }
 
 /// What the assessment judges.
@@ -341,6 +412,10 @@ pub struct Inputs<'a> {
     pub check: Option<&'a MeshCheck>,
     /// The dry reference, when the case differs from it.
     pub reference: Option<Reference<'a>>,
+    /// Partial-discharge inception of the gas parts with a discharge model.
+    pub discharge: &'a [crate::discharge::GasInception],
+    /// Where electrodes, solids and gases or liquids meet.
+    pub junctions: &'a [crate::discharge::Junction],
 }
 
 /// Part verdict from its margin.
@@ -356,7 +431,8 @@ pub fn part_verdict(margin: Option<f64>, has_strength: bool, safety_factor: f64)
 
 /// Judges the solved case (see [`Inputs`]).
 pub fn assess(inp: &Inputs) -> Assessment {
-    let Inputs { case, layout, permittivity, fields, check, reference } = *inp;
+    let Inputs { case, layout, permittivity, fields, check, reference, discharge, junctions } = *inp;
+    let working = working_level(layout);
     let states = crate::coefficients::states(case, layout, crate::coefficients::Conditions::Service);
     let strengths = crate::coefficients::strengths(case, layout);
     let mut parts = Vec::new();
@@ -371,10 +447,22 @@ pub fn assess(inp: &Inputs) -> Assessment {
         }
         let m = &case.materials[region.material];
         let strength = strengths[r];
-        let margin = strength.filter(|_| f.e_max > 0.0).map(|s| s / f.e_max);
-        let verdict = part_verdict(margin, strength.is_some(), case.safety_factor);
+        let point_margin = strength.filter(|_| f.e_max > 0.0).map(|s| s / f.e_max);
         let part = Some(region.name.clone());
+        let inception = discharge.iter().position(|d| d.region == r);
+        let (margin, verdict) = match inception.map(|k| &discharge[k]) {
+            Some(g) => {
+                let (margin, verdict, kinds) = gas_rule(g, f.e_max, working, case);
+                findings.extend(kinds.into_iter().map(|kind| Finding { kind, part: part.clone() }));
+                if let Some(kind) = check.and_then(|c| inception_grid_rule(c, r, working)) {
+                    findings.push(Finding { kind, part: part.clone() });
+                }
+                (margin, verdict)
+            }
+            None => (point_margin, part_verdict(point_margin, strength.is_some(), case.safety_factor)),
+        };
         match (strength, margin) {
+            _ if inception.is_some() => {}
             (None, _) => findings
                 .push(Finding { kind: FindingKind::NoStrength { material: m.name.clone() }, part: part.clone() }),
             (Some(strength), Some(mg)) if mg < 1.0 => {
@@ -432,8 +520,12 @@ pub fn assess(inp: &Inputs) -> Assessment {
                 .map(|rf| rf.fields.regions[r].e_max)
                 .filter(|&e| e > 0.0)
                 .map(|e| (f.e_max - e) / e),
+            inception,
+            pd_inception: inception.and_then(|k| discharge[k].scale).map(|s| s * working),
+            point_margin: point_margin.filter(|_| inception.is_some()),
         });
     }
+    let pd_inception = parts.iter().filter_map(|p| p.pd_inception).min_by(f64::total_cmp);
     if let Some(rf) = reference {
         findings.extend(stress_shifts(case, layout, &parts, fields, rf));
     }
@@ -444,6 +536,10 @@ pub fn assess(inp: &Inputs) -> Assessment {
             part: Some(layout.regions[d.region].name.clone()),
         });
     }
+    findings.extend(junctions.iter().map(|j| Finding {
+        kind: FindingKind::TripleJunction(j.clone()),
+        part: Some(layout.regions[j.fluid].name.clone()),
+    }));
     if !case.operation.stated {
         findings.push(Finding { kind: FindingKind::OperationNotStated, part: None });
     }
@@ -533,7 +629,80 @@ pub fn assess(inp: &Inputs) -> Assessment {
         Severity::Fail => Verdict::Fail,
     });
     let verdict = parts.iter().map(|p| p.verdict).chain(worst_finding).max().unwrap_or(Verdict::Pass);
-    Assessment { verdict, parts, findings, capacitance, concentration, dipole }
+    Assessment { verdict, parts, findings, capacitance, concentration, dipole, working_level: working, pd_inception }
+}
+
+/// The inception level of gas region `r` moves by more than
+/// `INCEPTION_CHANGE_LIMIT` between the fine and the medium grid of the
+/// self-check (or only one of them has a level).
+fn inception_grid_rule(check: &MeshCheck, r: usize, working: f64) -> Option<FindingKind> {
+    let (_, s) = check.inception.iter().find(|(region, _)| *region == r)?;
+    let changed = match (s[0], s[1]) {
+        (Some(a), Some(b)) => ((a - b) / a).abs() > crate::meshcheck::INCEPTION_CHANGE_LIMIT,
+        (None, None) => false,
+        _ => true,
+    };
+    changed.then(|| FindingKind::PdGridDependent { levels: s.map(|v| v.map(|v| v * working)) })
+}
+
+/// The largest |potential| of the fixed electrodes, V.
+pub fn working_level(layout: &Layout) -> f64 {
+    layout
+        .electrodes
+        .iter()
+        .filter_map(|e| match e.kind {
+            ElectrodeKind::Fixed { potential_v } => Some(potential_v.abs()),
+            ElectrodeKind::Floating => None,
+        })
+        .fold(0.0, f64::max)
+}
+
+/// A gas part judged by its partial-discharge inception: margin =
+/// inception level / working level; fail at or below 1, review below the
+/// case's `pd_inception_margin`; review too when the part has field but no
+/// level was found (too short a gap for gas ionisation).
+fn gas_rule(
+    g: &crate::discharge::GasInception,
+    e_max: f64,
+    working: f64,
+    case: &Case,
+) -> (Option<f64>, Verdict, Vec<FindingKind>) {
+    let mut kinds = Vec::new();
+    let margin = g.scale.filter(|_| working > 0.0 && e_max > 0.0);
+    let verdict = match (margin, e_max > 0.0 && working > 0.0) {
+        (Some(m), _) if m <= 1.0 => {
+            kinds.push(FindingKind::PdAtWorkingLevel {
+                inception: m * working,
+                working,
+                criterion: g.criterion.unwrap_or(crate::discharge::Criterion::Townsend),
+            });
+            Verdict::Fail
+        }
+        (Some(m), _) if m < case.pd_inception_margin => {
+            kinds.push(FindingKind::PdMarginThin {
+                inception: m * working,
+                ratio: m,
+                required: case.pd_inception_margin,
+            });
+            Verdict::Review
+        }
+        (Some(_), _) | (None, false) => Verdict::Pass,
+        (None, true) => Verdict::Review,
+    };
+    if e_max > 0.0 && working > 0.0 && (g.left_branch || margin.is_none()) {
+        kinds.push(FindingKind::GasMicroGap {
+            reduced_length_pa_m: g.reduced_length_pa_m,
+            minimum_pa_m: g.left_branch_below_pa_m,
+            found: margin.is_some(),
+        });
+    }
+    if g.townsend_only && margin.is_some() {
+        kinds.push(FindingKind::TownsendOnly { reduced_length_pa_m: g.reduced_length_pa_m });
+    }
+    if g.truncated {
+        kinds.push(FindingKind::FieldLineTruncated);
+    }
+    (margin, verdict, kinds)
 }
 
 /// Findings about a part's state: a strength used beyond the conditions it
@@ -606,8 +775,13 @@ fn stress_shifts(
         .iter()
         .filter_map(|p| {
             let e_ref = rf.fields.regions[p.region].e_max;
-            let margin_ref = p.strength.filter(|_| e_ref > 0.0).map(|s| s / e_ref);
-            let from = part_verdict(margin_ref, p.strength.is_some(), case.safety_factor);
+            let from = match rf.discharge.iter().find(|d| d.region == p.region) {
+                Some(g) => gas_rule(g, e_ref, working_level(layout), case).1,
+                None => {
+                    let margin_ref = p.strength.filter(|_| e_ref > 0.0).map(|s| s / e_ref);
+                    part_verdict(margin_ref, p.strength.is_some(), case.safety_factor)
+                }
+            };
             let name = &layout.regions[p.region].name;
             let causes: Vec<String> = changed.iter().filter(|c| *c != name).cloned().collect();
             (p.verdict > from && !causes.is_empty()).then(|| Finding {

@@ -25,6 +25,7 @@
 //! Charges are the Gauss flux out of each electrode's nodes.
 
 mod inclusion;
+pub mod trace;
 
 use crate::assemble::{Stencil, is_log_form, radial_weight};
 use crate::case::{Case, ElectrodeKind, Geometry, Normalisation};
@@ -668,7 +669,7 @@ fn arc_position(outline: &[[f64; 2]], p: [f64; 2]) -> f64 {
 
 /// Sharp convex features of the electrodes, leaving out those on the
 /// domain boundary (a zero-flux edge mirrors the electrode into a flat face).
-fn sharp_points(case: &Case) -> Vec<[f64; 2]> {
+pub(crate) fn sharp_points(case: &Case) -> Vec<[f64; 2]> {
     let d = case.domain;
     let tol = 1e-9 * d.width().max(d.height());
     let on_boundary = |p: &[f64; 2]| {
@@ -768,6 +769,28 @@ impl<'a> Sampler<'a> {
             Inside::Region(r)
         };
         Sample { potential, e: [ex, ey], inside }
+    }
+
+    /// The domain [x min, x max, y min, y max] in m.
+    pub fn domain(&self) -> [f64; 4] {
+        let (x, y) = (&self.grid.x, &self.grid.y);
+        [x[0], x[x.len() - 1], y[0], y[y.len() - 1]]
+    }
+
+    /// The smaller side of the cell holding `at`, m.
+    pub fn cell_size(&self, at: [f64; 2]) -> f64 {
+        let (i, j) = self.grid.cell_ij(self.grid.locate(at));
+        (self.grid.x[i + 1] - self.grid.x[i]).min(self.grid.y[j + 1] - self.grid.y[j])
+    }
+
+    /// The layout the sampler reads.
+    pub fn layout(&self) -> &'a Layout {
+        self.layout
+    }
+
+    /// The grid the sampler reads.
+    pub fn grid(&self) -> &'a Grid {
+        self.grid
     }
 
     /// Name of what a sample lies in.

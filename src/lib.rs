@@ -37,6 +37,7 @@ pub mod assemble;
 pub mod assess;
 pub mod case;
 pub mod coefficients;
+pub mod discharge;
 pub mod export;
 pub mod fields;
 pub mod grid;
@@ -250,7 +251,12 @@ impl Prepared {
     /// compared (see `meshcheck`).
     /// `None` when a coarser grid cannot be solved (then nothing is
     /// bracketed and the assessment says so).
-    pub fn self_check(&self, fine: &fields::Fields, options: &Options) -> Option<meshcheck::MeshCheck> {
+    pub fn self_check(
+        &self,
+        fine: &fields::Fields,
+        fine_discharge: &[discharge::GasInception],
+        options: &Options,
+    ) -> Option<meshcheck::MeshCheck> {
         let mut coarser = Vec::new();
         // Large grids resolve their features well even twice as coarse, and
         // the check's cost matters there: ratios 2 and 4 instead of √2 and 2.
@@ -268,19 +274,31 @@ impl Prepared {
             let mut config = options.solve;
             config.options.rel_tol = config.options.rel_tol.max(SELF_CHECK_TOLERANCE);
             let s = p.solve(&config).ok()?;
-            coarser.push((p.grid.nodes(), p.fields(&p.service, &s.phi).regions));
+            let f = p.fields(&p.service, &s.phi);
+            let d = p.discharge(&s.phi, &f);
+            coarser.push((p.grid.nodes(), f.regions, d));
         }
         let nodes = [self.grid.nodes(), coarser[0].0, coarser[1].0];
-        Some(meshcheck::compare([&fine.regions, &coarser[0].1, &coarser[1].1], nodes))
+        let mut check = meshcheck::compare([&fine.regions, &coarser[0].1, &coarser[1].1], nodes);
+        let scale =
+            |list: &[discharge::GasInception], r: usize| list.iter().find(|g| g.region == r).and_then(|g| g.scale);
+        check.inception = fine_discharge
+            .iter()
+            .map(|g| (g.region, [g.scale, scale(&coarser[0].2, g.region), scale(&coarser[1].2, g.region)]))
+            .collect();
+        Some(check)
     }
 
-    /// Fields, self-check and assessment of a solution; an error when a
-    /// field result is not finite.
-    pub fn evaluate(
-        &self,
-        solution: &Solution,
-        options: &Options,
-    ) -> Result<(fields::Fields, Option<meshcheck::MeshCheck>, assess::Assessment), Error> {
+    /// Partial-discharge inception of every gas part with a discharge
+    /// model, from field lines of the solved potential.
+    pub fn discharge(&self, phi: &[f64], fields: &fields::Fields) -> Vec<discharge::GasInception> {
+        let sampler = fields::Sampler::new(&self.case, &self.grid, &self.layout, phi);
+        discharge::inception(&self.case, &sampler, fields, &discharge::Config::default())
+    }
+
+    /// Fields, inception, self-check and assessment of a solution; an error
+    /// when a field result is not finite.
+    pub fn evaluate(&self, solution: &Solution, options: &Options) -> Result<Evaluated, Error> {
         let non_finite = |f: &fields::Fields| match f.first_non_finite() {
             Some(what) => Err(Error::NonFinite { file: self.file.clone(), what }),
             None => Ok(()),
@@ -291,41 +309,71 @@ impl Prepared {
             (Some(ev), Some((phi, _))) => {
                 let rf = self.fields(ev, phi);
                 non_finite(&rf)?;
-                Some((ev, rf))
+                let rd = self.discharge(phi, &rf);
+                Some((ev, rf, rd))
             }
             _ => None,
         };
-        let check = self.self_check(&f, options);
-        let a = assess::assess(&assess::Inputs {
+        let discharge = self.discharge(&solution.phi, &f);
+        if let Some(g) = discharge.iter().find(|g| g.scale.is_some_and(|s| !s.is_finite())) {
+            return Err(Error::NonFinite {
+                file: self.file.clone(),
+                what: format!("the inception level of {}", self.layout.regions[g.region].name),
+            });
+        }
+        let junctions = {
+            let sampler = fields::Sampler::new(&self.case, &self.grid, &self.layout, &solution.phi);
+            discharge::triple_junctions(&self.case, &sampler)
+        };
+        let check = self.self_check(&f, &discharge, options);
+        let assessment = assess::assess(&assess::Inputs {
             case: &self.case,
             layout: &self.layout,
             permittivity: &self.service.coefficients.region,
             fields: &f,
             check: check.as_ref(),
-            reference: reference
-                .as_ref()
-                .map(|(ev, rf)| assess::Reference { permittivity: &ev.coefficients.region, fields: rf }),
+            reference: reference.as_ref().map(|(ev, rf, rd)| assess::Reference {
+                permittivity: &ev.coefficients.region,
+                fields: rf,
+                discharge: rd,
+            }),
+            discharge: &discharge,
+            junctions: &junctions,
         });
-        Ok((f, check, a))
+        Ok(Evaluated { fields: f, discharge, check, assessment })
     }
 
     /// The result model; `seconds` is the solve time measured by the caller.
     pub fn report(&self, solution: &Solution, options: &Options, seconds: f64) -> Result<report::CheckReport, Error> {
-        let (f, check, a) = self.evaluate(solution, options)?;
+        let e = self.evaluate(solution, options)?;
         Ok(report::build(
             &report::Inputs {
                 case: &self.case,
                 grid: &self.grid,
                 layout: &self.layout,
                 solve: &solution.report,
-                fields: &f,
-                mesh_check: check.as_ref(),
-                assessment: &a,
+                fields: &e.fields,
+                discharge: &e.discharge,
+                mesh_check: e.check.as_ref(),
+                assessment: &e.assessment,
                 reference_solve: solution.reference.as_ref().map(|r| &r.1),
             },
             seconds,
         ))
     }
+}
+
+/// What the stages after the solve made of a solution.
+#[derive(Debug, Clone)]
+pub struct Evaluated {
+    /// Fields at service conditions.
+    pub fields: fields::Fields,
+    /// Inception of the gas parts.
+    pub discharge: Vec<discharge::GasInception>,
+    /// The mesh self-check (`None` when it could not run).
+    pub check: Option<meshcheck::MeshCheck>,
+    /// The judgement.
+    pub assessment: assess::Assessment,
 }
 
 /// Runs the whole pipeline on case text (solve time reported as 0).

@@ -51,7 +51,15 @@ pub struct MeshCheck {
     pub nodes: [usize; 3],
     /// Per region of the layout (same order).
     pub regions: Vec<RegionCheck>,
+    /// Partial-discharge inception scale of each gas region with a
+    /// discharge model on the fine, medium and coarse grid (`None` where a
+    /// grid gave no level).
+    pub inception: Vec<(usize, [Option<f64>; 3])>,
 }
+
+/// Largest change of a gas part's inception level between the fine and
+/// the medium grid before it is called grid-dependent.
+pub const INCEPTION_CHANGE_LIMIT: f64 = 0.05;
 
 /// Judges one region's three peaks with refinement ratio `r`.
 pub fn judge(e: [f64; 3], cells: [usize; 3], r: f64) -> RegionCheck {
@@ -94,7 +102,7 @@ pub fn compare(fields: [&[RegionField]; 3], nodes: [usize; 3]) -> MeshCheck {
             c
         })
         .collect();
-    MeshCheck { nodes, regions }
+    MeshCheck { nodes, regions, inception: Vec::new() }
 }
 
 #[cfg(test)]

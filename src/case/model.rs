@@ -217,6 +217,9 @@ pub struct Case {
     pub lines: Vec<Line>,
     /// Required ratio of strength to peak field.
     pub safety_factor: f64,
+    /// Required ratio of partial-discharge inception level to the working
+    /// level (gas parts).
+    pub pd_inception_margin: f64,
     /// Surroundings.
     pub environment: Environment,
     /// Time behaviour and the rms/peak convention.

@@ -123,6 +123,35 @@ pub struct DebyeFile {
     pub activation_ev: Option<f64>,
 }
 
+/// `townsend:` of a gas: Townsend's ionisation coefficient α = A·p·exp(−B·p/E)
+/// and secondary emission γ (p at 20 °C density).
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct TownsendFile {
+    /// A, per (Pa·m).
+    pub a_per_pa_m: f64,
+    /// B, V/(Pa·m).
+    pub b_v_per_pa_m: f64,
+    /// Secondary emission coefficient γ.
+    pub gamma: f64,
+}
+
+/// `streamer:` of a gas: the streamer criterion whose uniform-field form is
+/// E = (E/p)_cr·p·(1 + B/(p·l)^n).
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct StreamerFile {
+    /// (E/p)_cr, V/(Pa·m).
+    pub critical_v_per_pa_m: f64,
+    /// B, (Pa·m)^n.
+    pub b: f64,
+    /// The exponent n.
+    pub n: f64,
+    /// p·l in Pa·m above which it applies (default: the Paschen minimum of
+    /// the gas's Townsend constants, else 0).
+    pub from_pa_m: Option<f64>,
+}
+
 /// `strength_at:` of a material: conditions up to which its strength holds.
 #[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
@@ -210,6 +239,10 @@ pub struct MaterialFile {
     pub permittivity_vs_temperature_c: Option<Vec<[f64; 2]>>,
     /// A Debye relaxation (frequency and temperature dependence).
     pub debye: Option<DebyeFile>,
+    /// Townsend constants of a gas.
+    pub townsend: Option<TownsendFile>,
+    /// Streamer constants of a gas.
+    pub streamer: Option<StreamerFile>,
 }
 
 /// `class:` values.
@@ -426,6 +459,9 @@ pub struct LineFile {
 pub struct LimitsFile {
     /// Required ratio of strength to peak field.
     pub safety_factor: Option<f64>,
+    /// Required ratio of a gas part's partial-discharge inception level to
+    /// the working level.
+    pub pd_inception_margin: Option<f64>,
 }
 
 /// The keys each mapping of the case format accepts, by path pattern
@@ -471,8 +507,12 @@ pub const KNOWN_KEYS: &[(&str, &[&str])] = &[
             "density_kg_per_m3",
             "permittivity_vs_temperature_c",
             "debye",
+            "townsend",
+            "streamer",
         ],
     ),
+    ("materials.*.townsend", &["a_per_pa_m", "b_v_per_pa_m", "gamma"]),
+    ("materials.*.streamer", &["critical_v_per_pa_m", "b", "n", "from_pa_m"]),
     ("materials.*.strength_at", &["temperature_c", "water_volume_pct"]),
     ("materials.*.debye", &["eps_inf", "delta_eps", "tau_s", "activation_ev"]),
     ("stack", &["form", "voltage_kv", "width", "inner_radius", "length", "layers"]),
@@ -487,5 +527,5 @@ pub const KNOWN_KEYS: &[(&str, &[&str])] = &[
     ("parts[].shape.circle", &["center", "radius"]),
     ("probes[]", &["name", "at"]),
     ("lines[]", &["name", "from", "to", "points"]),
-    ("limits", &["safety_factor"]),
+    ("limits", &["safety_factor", "pd_inception_margin"]),
 ];

@@ -22,6 +22,10 @@ const DEFAULT_GROWTH: f64 = 1.25;
 const DEFAULT_STACK_WIDTH_MM: f64 = 10.0;
 /// Default required ratio of strength to peak field (common practice).
 const DEFAULT_SAFETY_FACTOR: f64 = 2.0;
+/// Inception at least 25 % above the working level: our default, in the
+/// spirit of PD-free acceptance levels set above the highest service
+/// voltage (common practice); cases state their own in `limits:`.
+pub const DEFAULT_PD_INCEPTION_MARGIN: f64 = 1.25;
 
 struct Ctx<'a> {
     loc: &'a Locations,
@@ -433,7 +437,9 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
         || f.strength_at.is_some()
         || f.density_kg_per_m3.is_some()
         || f.permittivity_vs_temperature_c.is_some()
-        || f.debye.is_some();
+        || f.debye.is_some()
+        || f.townsend.is_some()
+        || f.streamer.is_some();
     let source = match (&f.source, own_values, base) {
         (Some(s), _, _) if !s.trim().is_empty() => match source_text(s) {
             Ok(s) => s,
@@ -477,6 +483,8 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
             });
         }
     }
+    let gas = gas_model(ctx, &key, f, base, class);
+    ok &= gas.is_ok();
     ok.then(|| Material {
         name: name.to_string(),
         class,
@@ -495,7 +503,71 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
         source,
         generic: !own_values,
         out_of_range,
+        gas: gas.ok().flatten(),
     })
+}
+
+/// The discharge model of a user material: its own `townsend:` and
+/// `streamer:` constants, else its base gas's; only gases have one.
+fn gas_model(
+    ctx: &mut Ctx,
+    key: &str,
+    f: &MaterialFile,
+    base: Option<&materials::LibraryEntry>,
+    class: MaterialClass,
+) -> Result<Option<materials::gas::GasModel>, ()> {
+    use materials::gas::{GasModel, Streamer, Townsend};
+    if class != MaterialClass::Gas {
+        for (given, k) in [(f.townsend.is_some(), "townsend"), (f.streamer.is_some(), "streamer")] {
+            if given {
+                ctx.err(&format!("{key}.{k}"), "discharge constants apply to gases only (`class: gas`)");
+                return Err(());
+            }
+        }
+        return Ok(None);
+    }
+    let inherited = base.and_then(|b| materials::gas::library_model(b.name));
+    if f.townsend.is_none() && f.streamer.is_none() {
+        return Ok(inherited);
+    }
+    let mut ok = true;
+    let mut range = |ctx: &mut Ctx, k: String, v: f64, lo: f64, hi: f64, unit: &str| {
+        if !(v.is_finite() && v > lo && v <= hi) {
+            ctx.err(&k, format!("must be above {} and at most {} {unit}, found {v}", num(lo), num(hi)));
+            ok = false;
+        }
+    };
+    let townsend = f.townsend.as_ref().map(|t| {
+        let k = format!("{key}.townsend");
+        range(ctx, format!("{k}.a_per_pa_m"), t.a_per_pa_m, 0.0, 1e3, "per (Pa·m)");
+        range(ctx, format!("{k}.b_v_per_pa_m"), t.b_v_per_pa_m, 0.0, 1e4, "V/(Pa·m)");
+        range(ctx, format!("{k}.gamma"), t.gamma, 0.0, 1.0, "");
+        Townsend { a_per_pa_m: t.a_per_pa_m, b_v_per_pa_m: t.b_v_per_pa_m, gamma: t.gamma }
+    });
+    let townsend = if f.townsend.is_some() { townsend } else { inherited.and_then(|g| g.townsend) };
+    let streamer = f.streamer.as_ref().map(|s| {
+        let k = format!("{key}.streamer");
+        range(ctx, format!("{k}.critical_v_per_pa_m"), s.critical_v_per_pa_m, 0.0, 1e4, "V/(Pa·m)");
+        range(ctx, format!("{k}.b"), s.b, 0.0, 1e6, "(Pa·m)^n");
+        range(ctx, format!("{k}.n"), s.n, 0.0, 2.0, "");
+        if let Some(from) = s.from_pa_m {
+            range(ctx, format!("{k}.from_pa_m"), from, -f64::MIN_POSITIVE, 1e9, "Pa·m");
+        }
+        (Streamer { critical_v_per_pa_m: s.critical_v_per_pa_m, b: s.b, n: s.n }, s.from_pa_m)
+    });
+    if !ok {
+        return Err(());
+    }
+    let (streamer, from) = match streamer {
+        Some((s, from)) => (Some(s), from),
+        None => (inherited.and_then(|g| g.streamer), inherited.map(|g| g.streamer_from_pa_m)),
+    };
+    let streamer_from_pa_m = match (streamer, from) {
+        (None, _) => f64::INFINITY,
+        (Some(_), Some(v)) => v,
+        (Some(_), None) => townsend.map_or(0.0, |t| t.paschen_minimum().0),
+    };
+    Ok(Some(GasModel { townsend, streamer, streamer_from_pa_m }))
 }
 
 /// Densest material accepted, kg/m³ (osmium is about 22 600, from memory).
@@ -1287,6 +1359,15 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
         );
         ok = false;
     }
+    let pd_inception_margin =
+        f.limits.as_ref().and_then(|l| l.pd_inception_margin).unwrap_or(DEFAULT_PD_INCEPTION_MARGIN);
+    if !(pd_inception_margin.is_finite() && (1.0..=limits::MAX_SAFETY_FACTOR).contains(&pd_inception_margin)) {
+        ctx.err(
+            "limits.pd_inception_margin",
+            format!("must be a number from 1 to {}, found {pd_inception_margin}", limits::MAX_SAFETY_FACTOR),
+        );
+        ok = false;
+    }
 
     let grid = domain.and_then(|d| grid_spec(&mut ctx, f.grid.as_ref(), &d));
     let refine_boxes = refine_boxes(&mut ctx, f.grid.as_ref());
@@ -1321,6 +1402,7 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
         probes,
         lines,
         safety_factor,
+        pd_inception_margin,
         source_sha256: String::new(),
         implausible: ctx.implausible,
         environment,

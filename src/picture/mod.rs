@@ -115,6 +115,9 @@ pub struct FieldMap {
     pub electrode_labels: Vec<Label>,
     /// Peak field of each part.
     pub peaks: Vec<Peak>,
+    /// The critical field line of each gas part with an inception level
+    /// (part name, polyline in mm).
+    pub discharge_lines: Vec<(String, Vec<[f64; 2]>)>,
     /// Verdict word (pass, review, fail).
     pub verdict: &'static str,
 }
@@ -331,6 +334,12 @@ pub fn build(inp: &MapInputs, config: &MapConfig) -> FieldMap {
         outlines,
         electrode_labels,
         peaks,
+        discharge_lines: report
+            .parts
+            .iter()
+            .filter(|p| p.pd_inception_kv.is_some() && p.pd_line_mm.len() > 1)
+            .map(|p| (p.name.clone(), thin(p.pd_line_mm.clone(), 1e-3 * w_mm.max(h_mm))))
+            .collect(),
         verdict: match report.verdict {
             crate::report::VerdictOut::Pass => "pass",
             crate::report::VerdictOut::Review => "review",

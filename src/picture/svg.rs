@@ -111,7 +111,7 @@ pub fn render(map: &FieldMap) -> String {
     let [x0, x1, y0, y1] = map.extent_mm;
     let [pw, ph] = map.plot_px;
     let frame = Frame { x0, y1, scale: pw / (x1 - x0) };
-    let legend_rows = 1 + map.peaks.len();
+    let legend_rows = 1 + map.peaks.len() + usize::from(!map.discharge_lines.is_empty());
     let width = (LEFT + pw + RIGHT).max(MIN_WIDTH).ceil();
     let height = (TOP + ph + AXIS_BAND + LEGEND_ROW * legend_rows as f64 + 16.0).ceil();
     let (xa, ya) = if map.axisymmetric { ("r", "z") } else { ("x", "y") };
@@ -201,6 +201,22 @@ pub fn render(map: &FieldMap) -> String {
                 .set("stroke-width", 1.3),
         );
     }
+    // the critical field line of each gas part: light dashes over a dark
+    // casing, readable on every colour of the scale
+    let mut pd = Group::new().set("id", "pd-lines").set("fill", "none").set("stroke-linecap", "round");
+    for (name, line) in &map.discharge_lines {
+        let d = polyline(&frame, line, false);
+        pd = pd.add(Path::new().set("d", d.clone()).set("stroke", INK).set("stroke-width", 3.2)).add(
+            Path::new()
+                .set("class", "pd-line")
+                .set("data-part", name.as_str())
+                .set("d", d)
+                .set("stroke", "#fafafa")
+                .set("stroke-width", 1.6)
+                .set("stroke-dasharray", "4 3"),
+        );
+    }
+    let outlines = outlines.add(pd);
     let mut labels = Group::new().set("id", "electrode-labels").set("text-anchor", "middle");
     let mut placed: Vec<[f64; 4]> = Vec::new();
     for l in &map.electrode_labels {
@@ -350,6 +366,25 @@ pub fn render(map: &FieldMap) -> String {
             12.0,
             &format!("{}: peak in {}, {} kV/mm {}", p.number, p.part, g3(p.e_kv_per_mm), map.values),
         ));
+    }
+    if !map.discharge_lines.is_empty() {
+        y += LEGEND_ROW;
+        let names: Vec<&str> = map.discharge_lines.iter().map(|l| l.0.as_str()).collect();
+        legend = legend
+            .add(Path::new().set("d", format!("M{} {}h14", LEFT, y - 4.0)).set("stroke", INK).set("stroke-width", 3.2))
+            .add(
+                Path::new()
+                    .set("d", format!("M{} {}h14", LEFT, y - 4.0))
+                    .set("stroke", "#fafafa")
+                    .set("stroke-width", 1.6)
+                    .set("stroke-dasharray", "4 3"),
+            )
+            .add(text(
+                LEFT + 18.0,
+                y,
+                12.0,
+                &format!("critical field line of partial-discharge inception in {}", names.join(", ")),
+            ));
     }
     doc.add(legend).to_string()
 }

@@ -95,6 +95,31 @@ fn parts(r: &CheckReport) -> Markup {
     }
 }
 
+/// Partial-discharge inception of the gas parts, where the case has them.
+fn discharge(r: &CheckReport) -> Markup {
+    let gas: Vec<_> = r.parts.iter().filter(|p| p.pd_criterion.is_some() || p.point_field_margin.is_some()).collect();
+    html! {
+        @if !gas.is_empty() {
+            h2 { "Partial discharge in gas" }
+            p.meta { "Ionisation integral along the critical field line (dashed on the map), all fixed potentials scaled \
+                together; a gas part's margin is its inception level ÷ the working level, required "
+                (sig4(r.pd_inception_margin)) "." }
+            table {
+                thead { tr {
+                    th { "part" } th.num { "inception (kV " (r.values) ")" } th.num { "margin" } th { "criterion" }
+                    th.num { "line (mm)" } th.num { "starts at (mm)" } th.num { "point-field margin" }
+                } }
+                tbody { @for p in gas { tr {
+                    td { (p.name) } td.num { (opt(p.pd_inception_kv)) } td.num { (opt(p.margin)) }
+                    td { (p.pd_criterion.unwrap_or("—")) } td.num { (opt(p.pd_line_length_mm)) }
+                    td.num { @match p.pd_inception_at_mm { Some(a) => (format!("{}, {}", sig4(a[0]), sig4(a[1]))), None => "—" } }
+                    td.num { (opt(p.point_field_margin)) }
+                } } }
+            }
+        }
+    }
+}
+
 /// The stress shift against the dry case at 20 °C, and the water dipole
 /// alignment, where the case has them.
 fn service_conditions(r: &CheckReport) -> Markup {
@@ -171,9 +196,10 @@ pub fn render_page(inp: &PageInputs) -> String {
                 h2 { "Field map" }
                 figure { (PreEscaped(inp.map_svg)) }
                 h2 { "Parts" }
-                p.meta { "Margin = typical breakdown strength ÷ peak field; the required safety factor is "
-                    (sig4(r.safety_factor)) "." }
+                p.meta { "Margin = typical breakdown strength ÷ peak field (gas parts: partial-discharge inception ÷ \
+                    working level); the required safety factor is " (sig4(r.safety_factor)) "." }
                 (parts(r))
+                (discharge(r))
                 (service_conditions(r))
                 h2 { "Findings" }
                 @if r.findings.is_empty() { p { "None." } } @else {

@@ -41,6 +41,8 @@ pub struct Inputs<'a> {
     pub solve: &'a SolveReport,
     /// The fields.
     pub fields: &'a Fields,
+    /// Inception of the gas parts.
+    pub discharge: &'a [crate::discharge::GasInception],
     /// The mesh self-check, if it ran.
     pub mesh_check: Option<&'a MeshCheck>,
     /// The assessment.
@@ -194,6 +196,84 @@ pub fn message(kind: &FindingKind, values: crate::units::Values) -> String {
                 with_unit(note.bound)
             )
         }
+        FindingKind::PdAtWorkingLevel { inception, working, criterion } => format!(
+            "partial discharge starts at {} kV {} ({} criterion along the critical field line), at or below the \
+             working level {} kV {}: expect discharges in service, which erode the insulation around this gas. Fill \
+             or remove the gas space, shield or round the electrode edge, or lower its stress; then confirm with a \
+             partial-discharge test (IEC 60270).",
+            g3(to_kv(*inception)),
+            values.name(),
+            criterion.name(),
+            g3(to_kv(*working)),
+            values.name()
+        ),
+        FindingKind::PdMarginThin { inception, ratio, required } => format!(
+            "partial discharge starts at {} kV {}, only {} times the working level (the case asks for {}, \
+             `limits.pd_inception_margin`): overvoltages, lower pressure, higher temperature or a rougher surface \
+             can start discharges; add margin and confirm with a partial-discharge test (IEC 60270).",
+            g3(to_kv(*inception)),
+            values.name(),
+            g3(*ratio),
+            g3(*required)
+        ),
+        FindingKind::GasMicroGap { reduced_length_pa_m, minimum_pa_m, found } => format!(
+            "the critical gap is short: density × length {} Pa·m is {} the Paschen minimum's {} Pa·m{}. There, field \
+             emission and surface effects rather than gas ionisation can start discharges, so the level from the \
+             gas criteria is not a safe bound; avoid such gaps at stressed interfaces (bond, impregnate or \
+             fill them) and confirm by test.",
+            g3(*reduced_length_pa_m),
+            if *reduced_length_pa_m < *minimum_pa_m { "below" } else { "near" },
+            g3(*minimum_pa_m),
+            if *found { "" } else { ", too short for gas ionisation to reach either criterion at any level" }
+        ),
+        FindingKind::TownsendOnly { reduced_length_pa_m } => format!(
+            "this gas has Townsend constants only, and its critical line (density × length {} Pa·m) is long enough \
+             that Townsend's criterion with constant coefficients reads optimistic (for air it is 17 % high at 1 \
+             cm); give the gas `streamer:` constants from a published source.",
+            g3(*reduced_length_pa_m)
+        ),
+        FindingKind::PdGridDependent { levels } => {
+            let kv = |v: Option<f64>| v.map_or_else(|| "none".to_string(), |v| g3(to_kv(v)));
+            format!(
+                "the inception level depends on the grid ({} → {} → {} kV {} from the coarsest to the finest grid of \
+                 the self-check): the critical line runs where the grid does not resolve the field, typically at a \
+                 triple junction or a sharp point of the drawing, where the real level is set by the micro-geometry. \
+                 Model the real radius or contact, refine the grid there, or treat the junction as a discharge site.",
+                kv(levels[2]),
+                kv(levels[1]),
+                kv(levels[0]),
+                values.name()
+            )
+        }
+        FindingKind::TripleJunction(j) => format!(
+            "an electrode, a solid and a {} meet at ({} mm, {} mm); {}",
+            if j.fluid_is_gas { "gas" } else { "liquid" },
+            g3(to_mm(j.at[0])),
+            g3(to_mm(j.at[1])),
+            match j.exponent {
+                Some(l) if j.enhanced() => format!(
+                    "the field rises toward it (local exponent λ ≈ {}, |E| ~ r^(λ−1); {} kV/mm {} beside it against {} \
+                     kV/mm {} six cells away): a classic discharge site. Embed or recess the electrode edge, put a \
+                     conductive or semiconductive layer at the contact, or fill the wedge, and confirm by test.",
+                    g3(l),
+                    g3(to_kv_per_mm(j.e_near)),
+                    values.name(),
+                    g3(to_kv_per_mm(j.e_far)),
+                    values.name()
+                ),
+                Some(l) => format!(
+                    "the field is not enhanced there (local exponent λ ≈ {}); keep the contact free of gaps, which \
+                     would make it a discharge site.",
+                    g3(l)
+                ),
+                None => "there is no field there.".to_string(),
+            }
+        ),
+        FindingKind::FieldLineTruncated => {
+            "the critical field line was cut short at the tracing limit, so its ionisation integral (and the \
+             inception level) may be incomplete; report this case."
+                .to_string()
+        }
         FindingKind::OperationNotStated => {
             "the case gives no `operation:`, so its potentials were read as instantaneous (peak) values of a static \
              field and every field and strength here is a peak value. For power-frequency AC with voltages stated \
@@ -273,7 +353,7 @@ fn verdict_word(v: Verdict) -> &'static str {
 /// Builds the result model. `seconds` is the solve's wall time, measured by
 /// the caller.
 pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
-    let Inputs { case, grid, layout, solve, fields, mesh_check, assessment, reference_solve } = *inp;
+    let Inputs { case, grid, layout, solve, fields, discharge, mesh_check, assessment, reference_solve } = *inp;
     let (c_unit, q_unit, w_unit, per) = extensive_units(case.normalisation);
     let (min_step, max_step) = grid.step_range();
     let parts = assessment
@@ -284,6 +364,7 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
             let f = &fields.regions[p.region];
             let m = &case.materials[region.material];
             let check = mesh_check.map(|c| &c.regions[p.region]);
+            let gas = p.inception.map(|k| &discharge[k]);
             PartOut {
                 name: region.name.clone(),
                 material: m.name.clone(),
@@ -300,6 +381,15 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
                 w_pol_max_j_per_m3: p.w_pol_max,
                 strength_kv_per_mm: p.strength.map(to_kv_per_mm),
                 margin: p.margin,
+                pd_inception_kv: p.pd_inception.map(to_kv),
+                pd_inception_at_mm: gas
+                    .filter(|g| g.scale.is_some())
+                    .and_then(|g| g.line.points.first())
+                    .map(|a| a.map(to_mm)),
+                pd_criterion: gas.and_then(|g| g.criterion).map(|c| c.name()),
+                pd_line_length_mm: gas.filter(|g| g.scale.is_some()).map(|g| to_mm(g.line.length())),
+                point_field_margin: p.point_margin,
+                pd_line_mm: gas.map(|g| g.line.points.iter().map(|a| a.map(to_mm)).collect()).unwrap_or_default(),
                 verdict: verdict(p.verdict),
                 e_max_error_estimate_pct: check.and_then(|c| c.error_estimate).map(|e| 100.0 * e),
                 e_max_coarser_grids_kv_per_mm: check.map(|c| [to_kv_per_mm(c.e_max[1]), to_kv_per_mm(c.e_max[2])]),
@@ -406,6 +496,8 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
             factor: c.factor,
         }),
         mesh_check: mesh_check.map(|c| MeshCheckOut { nodes: c.nodes }),
+        pd_inception_kv: assessment.pd_inception.map(to_kv),
+        pd_inception_margin: case.pd_inception_margin,
         parts,
         electrodes,
         probes,

@@ -119,8 +119,27 @@ pub struct PartOut {
     /// (converted from the basis it was measured in; null when the material
     /// has none).
     pub strength_kv_per_mm: Option<f64>,
-    /// strength / e_max (null when there is no strength or no field).
+    /// strength / e_max for solids and liquids; for gas parts judged by
+    /// partial-discharge inception, `pd_inception_kv` / working level (null
+    /// when there is no strength, no field or no inception level).
     pub margin: Option<f64>,
+    /// Gas parts: the level of the largest fixed |potential| at which
+    /// partial discharge starts when all fixed potentials scale together,
+    /// in the case's convention (null for other parts, and for gas parts
+    /// where no level was found).
+    pub pd_inception_kv: Option<f64>,
+    /// Where the critical field line starts (its high-field end), [x, y].
+    pub pd_inception_at_mm: Option<[f64; 2]>,
+    /// `townsend` or `streamer`: the criterion that gave the level.
+    pub pd_criterion: Option<&'static str>,
+    /// Length of the critical field line in gas.
+    pub pd_line_length_mm: Option<f64>,
+    /// Gas parts judged by inception: strength / e_max of the point field,
+    /// for information only.
+    pub point_field_margin: Option<f64>,
+    /// The critical field line in mm (drawn on the maps; left out of JSON).
+    #[serde(skip)]
+    pub pd_line_mm: Vec<[f64; 2]>,
     /// Part verdict.
     pub verdict: VerdictOut,
     /// Estimated discretisation error of `e_max_kv_per_mm` from the mesh
@@ -270,6 +289,11 @@ pub struct CheckReport {
     /// The mesh self-check's grids (absent when it could not run).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub mesh_check: Option<MeshCheckOut>,
+    /// The lowest `pd_inception_kv` over the gas parts (null without gas
+    /// parts that have one), in the case's convention.
+    pub pd_inception_kv: Option<f64>,
+    /// Required ratio of inception level to working level.
+    pub pd_inception_margin: f64,
     /// Dielectric parts, background included when it has cells.
     pub parts: Vec<PartOut>,
     /// Electrodes.

@@ -1,6 +1,6 @@
 //! The human report: aligned tables, findings and the caution footer.
 
-use super::{CheckReport, MaterialOut, SeverityOut, VerdictOut};
+use super::{CheckReport, MaterialOut, PartOut, SeverityOut, VerdictOut};
 use comfy_table::{CellAlignment, Table, presets::NOTHING};
 use std::fmt::Write;
 
@@ -115,7 +115,12 @@ pub fn render_text(r: &CheckReport) -> String {
         "solve        {}, {} iterations, relative residual {:.1e}, {} unknowns",
         s.method, s.iterations, s.relative_residual, s.unknowns
     );
-    let _ = writeln!(o, "limits       safety factor {}", sig4(r.safety_factor));
+    let _ = writeln!(
+        o,
+        "limits       safety factor {}; partial-discharge inception margin {}",
+        sig4(r.safety_factor),
+        sig4(r.pd_inception_margin)
+    );
 
     let _ = writeln!(o, "\nparts");
     let rows = r
@@ -141,6 +146,32 @@ pub fn render_text(r: &CheckReport) -> String {
         (format!("E max kV/mm {v}"), format!("E mean kV/mm {v}"), format!("strength kV/mm {v}"));
     let head = ["part", "material", "εr", &e_max, "at mm", &e_mean, "w_pol max J/m³", &strength, "margin", "verdict"];
     let _ = writeln!(o, "{}", table(&head, rows, &[2, 3, 4, 5, 6, 7, 8]));
+    let gas: Vec<&PartOut> =
+        r.parts.iter().filter(|p| p.pd_criterion.is_some() || p.point_field_margin.is_some()).collect();
+    if !gas.is_empty() {
+        let _ = writeln!(
+            o,
+            "\npartial-discharge inception in gas (ionisation integral along the critical field line; all fixed \
+             potentials scaled together; gas parts' margin = inception / working level)"
+        );
+        let rows = gas
+            .iter()
+            .map(|p| {
+                vec![
+                    p.name.clone(),
+                    opt(p.pd_inception_kv),
+                    opt(p.margin),
+                    p.pd_criterion.unwrap_or("—").to_string(),
+                    opt(p.pd_line_length_mm),
+                    p.pd_inception_at_mm.map_or_else(|| "—".into(), |a| format!("{}, {}", sig4(a[0]), sig4(a[1]))),
+                    opt(p.point_field_margin),
+                ]
+            })
+            .collect();
+        let inc = format!("inception kV {v}");
+        let head = ["part", &inc, "margin", "criterion", "line mm", "starts at mm", "point-field margin"];
+        let _ = writeln!(o, "{}", table(&head, rows, &[1, 2, 4, 6]));
+    }
 
     if let Some(reference) = &r.reference {
         let _ = writeln!(

@@ -5,6 +5,8 @@
 //! waveform. Each entry carries its source; entries whose source says
 //! "from memory" must be checked against the supplier's datasheet.
 
+pub mod gas;
+
 use crate::units::{self, Values};
 
 /// The state of a material, which decides which checks apply to it.
@@ -543,6 +545,9 @@ pub struct Material {
     pub generic: bool,
     /// User values outside the range published for the base material.
     pub out_of_range: Vec<OutOfRange>,
+    /// How a gas starts to discharge (gases only; `None` for a gas without
+    /// constants, which is then judged by its point strength alone).
+    pub gas: Option<gas::GasModel>,
 }
 
 /// The conditions of library strengths: dry, at 20 °C.
@@ -566,6 +571,7 @@ impl Material {
             source: entry.source.to_string(),
             generic: true,
             out_of_range: Vec::new(),
+            gas: gas::library_model(entry.name),
         }
     }
 

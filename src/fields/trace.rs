@@ -1,0 +1,197 @@
+//! Field lines: curves everywhere tangent to E, traced through the parts a
+//! caller says they may run in.
+//!
+//! A line is followed in both directions from its seed with the midpoint
+//! (second-order Runge–Kutta) rule on the unit field direction; the step is
+//! a fraction of the local cell size, halved while the direction turns by
+//! more than a set angle within a step (so lines bend correctly round
+//! electrode edges, where the grid is fine). A direction stops at an
+//! electrode, on entering a part the line may not cross (located by
+//! bisection to 1e-9 of a step), at the domain's edge, where the
+//! field vanishes, or after a bounded number of points.
+
+use super::{Inside, Sampler};
+
+/// How finely lines are traced.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct TraceConfig {
+    /// Step as a fraction of the local cell size.
+    pub step_cells: f64,
+    /// Largest turn of the field direction within a step, rad.
+    pub max_turn_rad: f64,
+    /// Most points per direction.
+    pub max_points: usize,
+}
+
+impl Default for TraceConfig {
+    fn default() -> Self {
+        TraceConfig { step_cells: 0.25, max_turn_rad: 0.05, max_points: 100_000 }
+    }
+}
+
+/// Why one direction of a line ended.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum End {
+    /// On an electrode (layout index).
+    Electrode(u32),
+    /// On entering a region the line may not cross (layout index).
+    Region(u32),
+    /// At the edge of the domain.
+    Domain,
+    /// Where the field vanishes (a symmetry point).
+    Stagnation,
+    /// After the most points allowed.
+    Truncated,
+}
+
+/// A traced field line.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FieldLine {
+    /// Points in m, in order along the line.
+    pub points: Vec<[f64; 2]>,
+    /// |E| at each point, V/m (the solution's convention).
+    pub e: Vec<f64>,
+    /// Region at each point (layout index).
+    pub regions: Vec<u32>,
+    /// How the line ends at its first and its last point.
+    pub ends: [End; 2],
+}
+
+impl FieldLine {
+    /// Length of each segment, m.
+    pub fn segments(&self) -> impl Iterator<Item = f64> + '_ {
+        self.points.windows(2).map(|w| (w[1][0] - w[0][0]).hypot(w[1][1] - w[0][1]))
+    }
+
+    /// Total length, m.
+    pub fn length(&self) -> f64 {
+        self.segments().sum()
+    }
+
+    /// The line reversed (ends swapped).
+    pub fn reversed(mut self) -> FieldLine {
+        self.points.reverse();
+        self.e.reverse();
+        self.regions.reverse();
+        self.ends.reverse();
+        self
+    }
+}
+
+fn unit(e: [f64; 2], sign: f64) -> Option<[f64; 2]> {
+    let m = e[0].hypot(e[1]);
+    (m > 0.0 && m.is_finite()).then(|| [sign * e[0] / m, sign * e[1] / m])
+}
+
+fn lerp(a: [f64; 2], b: [f64; 2], t: f64) -> [f64; 2] {
+    [a[0] + t * (b[0] - a[0]), a[1] + t * (b[1] - a[1])]
+}
+
+/// Bisection steps that locate an exit to 1e-9 of the step (so lines
+/// across a uniform layer agree in length far below the tie tolerance of
+/// the inception search).
+const EXIT_BISECTIONS: usize = 30;
+
+/// One direction from `seed`: points after the seed, and how it ended.
+fn half(
+    sampler: &Sampler,
+    seed: [f64; 2],
+    sign: f64,
+    continues: &dyn Fn(Inside) -> bool,
+    config: &TraceConfig,
+    max_length: f64,
+) -> (Vec<([f64; 2], f64, u32)>, End) {
+    let domain = sampler.domain();
+    let inside_domain = |p: [f64; 2]| p[0] >= domain[0] && p[0] <= domain[1] && p[1] >= domain[2] && p[1] <= domain[3];
+    let cos_turn = config.max_turn_rad.cos();
+    let mut out = Vec::new();
+    let mut p = seed;
+    let mut length = 0.0;
+    let floor = 1e-9 * sampler.at(seed).magnitude();
+    loop {
+        if out.len() >= config.max_points || length > max_length {
+            return (out, End::Truncated);
+        }
+        let s = sampler.at(p);
+        let Some(d1) = unit(s.e, sign).filter(|_| s.magnitude() > floor) else {
+            return (out, End::Stagnation);
+        };
+        let h0 = config.step_cells * sampler.cell_size(p);
+        let mut h = h0;
+        let q = loop {
+            let mid = [p[0] + 0.5 * h * d1[0], p[1] + 0.5 * h * d1[1]];
+            let Some(d2) = unit(sampler.at(mid).e, sign) else {
+                return (out, End::Stagnation);
+            };
+            if d1[0] * d2[0] + d1[1] * d2[1] < cos_turn && h > 1e-3 * h0 {
+                h *= 0.5;
+                continue;
+            }
+            break [p[0] + h * d2[0], p[1] + h * d2[1]];
+        };
+        if !inside_domain(q) {
+            // the last point inside, on the domain's edge
+            let (mut lo, mut hi) = (0.0, 1.0);
+            for _ in 0..EXIT_BISECTIONS {
+                let m = 0.5 * (lo + hi);
+                if inside_domain(lerp(p, q, m)) { lo = m } else { hi = m }
+            }
+            let b = lerp(p, q, lo);
+            let sb = sampler.at(b);
+            if let Inside::Region(r) = sb.inside {
+                out.push((b, sb.magnitude(), r));
+            }
+            return (out, End::Domain);
+        }
+        let sq = sampler.at(q);
+        if !continues(sq.inside) {
+            let (mut lo, mut hi) = (0.0, 1.0);
+            for _ in 0..EXIT_BISECTIONS {
+                let m = 0.5 * (lo + hi);
+                if continues(sampler.at(lerp(p, q, m)).inside) { lo = m } else { hi = m }
+            }
+            let b = lerp(p, q, lo);
+            let sb = sampler.at(b);
+            if let Inside::Region(r) = sb.inside {
+                out.push((b, sb.magnitude(), r));
+            }
+            let end = match sq.inside {
+                Inside::Electrode(e) => End::Electrode(e),
+                Inside::Region(r) => End::Region(r),
+            };
+            return (out, end);
+        }
+        let Inside::Region(r) = sq.inside else { unreachable!("a continuing point lies in a region") };
+        length += h;
+        out.push((q, sq.magnitude(), r));
+        p = q;
+    }
+}
+
+/// Traces the field line through `seed` in both directions while
+/// `continues` holds for what the points lie in. `None` when the seed
+/// itself does not continue or the field vanishes there.
+pub fn trace(
+    sampler: &Sampler,
+    seed: [f64; 2],
+    continues: &dyn Fn(Inside) -> bool,
+    config: &TraceConfig,
+) -> Option<FieldLine> {
+    let s = sampler.at(seed);
+    let Inside::Region(r0) = s.inside else { return None };
+    if !continues(s.inside) || s.magnitude().is_nan() || s.magnitude() <= 0.0 {
+        return None;
+    }
+    let d = sampler.domain();
+    let max_length = 4.0 * ((d[1] - d[0]) + (d[3] - d[2]));
+    let (back, end0) = half(sampler, seed, -1.0, continues, config, max_length);
+    let (fore, end1) = half(sampler, seed, 1.0, continues, config, max_length);
+    let n = back.len() + 1 + fore.len();
+    let (mut points, mut e, mut regions) = (Vec::with_capacity(n), Vec::with_capacity(n), Vec::with_capacity(n));
+    for &(p, m, r) in back.iter().rev().chain(std::iter::once(&(seed, s.magnitude(), r0))).chain(fore.iter()) {
+        points.push(p);
+        e.push(m);
+        regions.push(r);
+    }
+    Some(FieldLine { points, e, regions, ends: [end0, end1] })
+}
