@@ -205,6 +205,18 @@ pub enum FindingKind {
         /// Inception level on the fine, medium and coarse grid, V.
         levels: [Option<f64>; 3],
     },
+    /// The tangential field along a solid–fluid surface exceeds the case's
+    /// limit.
+    SurfaceStress {
+        /// The solid and the fluid part.
+        parts: [String; 2],
+        /// Largest tangential field, V/m (case convention).
+        e_t_max: f64,
+        /// Where, m.
+        at: [f64; 2],
+        /// The limit, V/m.
+        limit: f64,
+    },
     /// An electrode, a solid and a gas or liquid meet.
     TripleJunction(crate::discharge::Junction),
     /// A user value lies outside the range published for its base material.
@@ -248,6 +260,7 @@ impl FindingKind {
             FindingKind::FieldLineTruncated => "field-line-truncated",
             FindingKind::PdGridDependent { .. } => "pd-grid-dependent",
             FindingKind::TripleJunction(_) => "triple-junction",
+            FindingKind::SurfaceStress { .. } => "surface-stress",
         }
     }
 
@@ -536,6 +549,7 @@ pub fn assess(inp: &Inputs) -> Assessment {
             part: Some(layout.regions[d.region].name.clone()),
         });
     }
+    findings.extend(surface_rule(case, layout, fields));
     findings.extend(junctions.iter().map(|j| Finding {
         kind: FindingKind::TripleJunction(j.clone()),
         part: Some(layout.regions[j.fluid].name.clone()),
@@ -643,6 +657,26 @@ fn inception_grid_rule(check: &MeshCheck, r: usize, working: f64) -> Option<Find
         _ => true,
     };
     changed.then(|| FindingKind::PdGridDependent { levels: s.map(|v| v.map(|v| v * working)) })
+}
+
+/// Surfaces whose tangential field exceeds the case's own limit
+/// (`limits.surface_tangential_kv_per_mm`); no built-in limit.
+fn surface_rule(case: &Case, layout: &Layout, fields: &Fields) -> Vec<Finding> {
+    let Some(limit) = case.surface_tangential_limit else { return Vec::new() };
+    fields
+        .surfaces
+        .iter()
+        .filter(|s| s.e_t_max > limit)
+        .map(|s| Finding {
+            kind: FindingKind::SurfaceStress {
+                parts: s.regions.map(|r| layout.regions[r].name.clone()),
+                e_t_max: s.e_t_max,
+                at: s.at,
+                limit,
+            },
+            part: Some(layout.regions[s.regions[1]].name.clone()),
+        })
+        .collect()
 }
 
 /// The largest |potential| of the fixed electrodes, V.

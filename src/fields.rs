@@ -25,7 +25,10 @@
 //! Charges are the Gauss flux out of each electrode's nodes.
 
 mod inclusion;
+mod surfaces;
 pub mod trace;
+
+pub use surfaces::SurfaceField;
 
 use crate::assemble::{Stencil, is_log_form, radial_weight};
 use crate::case::{Case, ElectrodeKind, Geometry, Normalisation};
@@ -139,6 +142,8 @@ pub struct Fields {
     pub gap: Option<Gap>,
     /// Per sampling line of the case (same order).
     pub lines: Vec<LineField>,
+    /// Solid–fluid surfaces and their largest tangential field.
+    pub surfaces: Vec<SurfaceField>,
 }
 
 impl Fields {
@@ -161,6 +166,9 @@ impl Fields {
         }
         if let Some(k) = self.probes.iter().position(|p| bad(p.potential) || bad(p.e)) {
             return Some(format!("probe {k}"));
+        }
+        if let Some(s) = self.surfaces.iter().find(|s| !s.e_t_max.is_finite()) {
+            return Some(format!("the tangential field between regions {} and {}", s.regions[0], s.regions[1]));
         }
         if let Some(k) =
             self.lines.iter().position(|l| l.samples.iter().any(|s| bad(s.potential) || s.e.iter().any(|&v| bad(v))))
@@ -458,6 +466,8 @@ pub fn compute(
     let sampler = Sampler { grid, layout, geometry: geo, phi, ev };
     let probes = case.probes.iter().map(|p| probe(&sampler, p.at)).collect();
     let lines = case.lines.iter().map(|l| line_field(&sampler, l.from, l.to, l.points)).collect();
+    let e_scale = e_max.iter().copied().fold(0.0, f64::max);
+    let surfaces = surfaces::surfaces(case, grid, layout, &sampler.ev, &sampler, e_scale);
     Fields {
         regions,
         electrodes,
@@ -466,6 +476,7 @@ pub fn compute(
         probes,
         gap: gap(grid, layout, &members),
         lines,
+        surfaces,
     }
 }
 

@@ -267,3 +267,39 @@ fn junction_exponent_reference() {
     assert!((lambda(1.0, 1.0) - 2.0 / 3.0).abs() < 1e-9);
     assert!((lambda(1.0, 4.3) - 0.5604).abs() < 1e-3, "{}", lambda(1.0, 4.3));
 }
+
+fn parallel_interface(limit: f64) -> CheckReport {
+    run(&format!(
+        "
+title: a surface along the field
+geometry: planar
+domain: {{ x: [0, 40], y: [0, 10] }}
+background: air
+limits: {{ surface_tangential_kv_per_mm: {limit} }}
+parts:
+  - {{ name: slab, material: ptfe, shape: {{ rect: {{ x: [0, 20], y: [0, 10] }} }} }}
+  - {{ name: ground, electrode: {{ potential_kv: 0 }}, shape: {{ rect: {{ x: [0, 40], y: [0, 0] }} }} }}
+  - {{ name: hv, electrode: {{ potential_kv: 10 }}, shape: {{ rect: {{ x: [0, 40], y: [10, 10] }} }} }}
+"
+    ))
+}
+
+/// A solid–air interface parallel to a uniform field leaves it undisturbed
+/// (E_t continuous, D_n = 0; common practice): 10 kV over 10 mm gives a
+/// tangential field of 1 kV/mm along the whole surface, and the junctions
+/// with the plates are not enhanced (λ = 1).
+#[test]
+fn tangential_field_along_a_surface_parallel_to_the_field() {
+    let r = parallel_interface(0.8);
+    assert_eq!(r.surfaces.len(), 1);
+    let s = &r.surfaces[0];
+    assert_eq!(s.parts, ["slab".to_string(), "background".to_string()]);
+    assert!(rel(s.e_tangential_max_kv_per_mm, 1.0) < 1e-6, "{}", s.e_tangential_max_kv_per_mm);
+    assert!(rel(s.at_mm[0], 20.0) < 1e-12);
+    assert!(has(&r, "surface-stress", "background"));
+    let r = parallel_interface(1.5);
+    assert!(!r.findings.iter().any(|f| f.code == "surface-stress"));
+    let junctions: Vec<_> = r.findings.iter().filter(|f| f.code == "triple-junction").collect();
+    assert_eq!(junctions.len(), 2);
+    assert!(junctions.iter().all(|f| f.severity == hvstack::report::SeverityOut::Info));
+}

@@ -220,6 +220,9 @@ pub struct Case {
     /// Required ratio of partial-discharge inception level to the working
     /// level (gas parts).
     pub pd_inception_margin: f64,
+    /// Largest tangential field along solid–fluid surfaces, V/m in the
+    /// case's convention (the engineer's own; `None`: no limit).
+    pub surface_tangential_limit: Option<f64>,
     /// Surroundings.
     pub environment: Environment,
     /// Time behaviour and the rms/peak convention.

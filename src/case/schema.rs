@@ -462,6 +462,9 @@ pub struct LimitsFile {
     /// Required ratio of a gas part's partial-discharge inception level to
     /// the working level.
     pub pd_inception_margin: Option<f64>,
+    /// Largest tangential field allowed along solid–gas and solid–liquid
+    /// surfaces, kV/mm in the case's convention (no limit when absent).
+    pub surface_tangential_kv_per_mm: Option<f64>,
 }
 
 /// The keys each mapping of the case format accepts, by path pattern
@@ -527,5 +530,5 @@ pub const KNOWN_KEYS: &[(&str, &[&str])] = &[
     ("parts[].shape.circle", &["center", "radius"]),
     ("probes[]", &["name", "at"]),
     ("lines[]", &["name", "from", "to", "points"]),
-    ("limits", &["safety_factor", "pd_inception_margin"]),
+    ("limits", &["safety_factor", "pd_inception_margin", "surface_tangential_kv_per_mm"]),
 ];

@@ -1369,6 +1369,17 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
         ok = false;
     }
 
+    let surface_tangential_limit = f.limits.as_ref().and_then(|l| l.surface_tangential_kv_per_mm);
+    if let Some(v) = surface_tangential_limit
+        && !(v.is_finite() && v > 0.0 && v <= limits::MAX_STRENGTH_KV_PER_MM)
+    {
+        ctx.err(
+            "limits.surface_tangential_kv_per_mm",
+            format!("must be above 0 and at most {} kV/mm, found {v}", num(limits::MAX_STRENGTH_KV_PER_MM)),
+        );
+        ok = false;
+    }
+
     let grid = domain.and_then(|d| grid_spec(&mut ctx, f.grid.as_ref(), &d));
     let refine_boxes = refine_boxes(&mut ctx, f.grid.as_ref());
     let environment = environment(&mut ctx, f.environment.as_ref());
@@ -1403,6 +1414,7 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
         lines,
         safety_factor,
         pd_inception_margin,
+        surface_tangential_limit: surface_tangential_limit.map(units::kv_per_mm),
         source_sha256: String::new(),
         implausible: ctx.implausible,
         environment,

@@ -245,6 +245,17 @@ pub fn message(kind: &FindingKind, values: crate::units::Values) -> String {
                 values.name()
             )
         }
+        FindingKind::SurfaceStress { parts, e_t_max, at, limit } => format!(
+            "the field along the surface between {} and {} reaches {} tangentially at ({} mm, {} mm), above the \
+             case's limit {}: surface discharges and tracking start there well below either side's bulk strength. \
+             Lengthen or shape the surface (ribs, sheds, grading), keep it clean and dry, or lower its stress.",
+            parts[0],
+            parts[1],
+            field(*e_t_max),
+            g3(to_mm(at[0])),
+            g3(to_mm(at[1])),
+            field(*limit)
+        ),
         FindingKind::TripleJunction(j) => format!(
             "an electrode, a solid and a {} meet at ({} mm, {} mm); {}",
             if j.fluid_is_gas { "gas" } else { "liquid" },
@@ -496,6 +507,16 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
             factor: c.factor,
         }),
         mesh_check: mesh_check.map(|c| MeshCheckOut { nodes: c.nodes }),
+        surfaces: fields
+            .surfaces
+            .iter()
+            .map(|s| SurfaceOut {
+                parts: s.regions.map(|r| layout.regions[r].name.clone()),
+                e_tangential_max_kv_per_mm: to_kv_per_mm(s.e_t_max),
+                at_mm: s.at.map(to_mm),
+            })
+            .collect(),
+        surface_tangential_limit_kv_per_mm: case.surface_tangential_limit.map(to_kv_per_mm),
         pd_inception_kv: assessment.pd_inception.map(to_kv),
         pd_inception_margin: case.pd_inception_margin,
         parts,

@@ -289,6 +289,11 @@ pub struct CheckReport {
     /// The mesh self-check's grids (absent when it could not run).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub mesh_check: Option<MeshCheckOut>,
+    /// Solid–gas and solid–liquid surfaces with their largest tangential
+    /// field, in the case's convention.
+    pub surfaces: Vec<SurfaceOut>,
+    /// The case's limit on the tangential field (null: none given).
+    pub surface_tangential_limit_kv_per_mm: Option<f64>,
     /// The lowest `pd_inception_kv` over the gas parts (null without gas
     /// parts that have one), in the case's convention.
     pub pd_inception_kv: Option<f64>,
@@ -315,6 +320,17 @@ pub struct CheckReport {
     pub hvstack_version: &'static str,
     /// SHA-256 of the case file's bytes (hex), empty for cases built in code.
     pub case_sha256: String,
+}
+
+/// One solid–fluid surface.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SurfaceOut {
+    /// The solid part and the gas or liquid part.
+    pub parts: [String; 2],
+    /// Largest tangential |E| along the surface.
+    pub e_tangential_max_kv_per_mm: f64,
+    /// Where it occurs, [x, y].
+    pub at_mm: [f64; 2],
 }
 
 /// A sampling line: where it runs and its largest field.

@@ -90,6 +90,9 @@ fn values_sentence(r: &CheckReport) -> String {
     }
 }
 
+/// Surfaces listed in the text report (all are in the JSON).
+const MAX_SURFACES_LISTED: usize = 5;
+
 /// Renders a check result for a terminal. Deterministic: the solve time is
 /// left out so the same case always gives the same text.
 pub fn render_text(r: &CheckReport) -> String {
@@ -171,6 +174,36 @@ pub fn render_text(r: &CheckReport) -> String {
         let inc = format!("inception kV {v}");
         let head = ["part", &inc, "margin", "criterion", "line mm", "starts at mm", "point-field margin"];
         let _ = writeln!(o, "{}", table(&head, rows, &[1, 2, 4, 6]));
+    }
+
+    if !r.surfaces.is_empty() {
+        let _ = writeln!(
+            o,
+            "\nsurfaces between solids and gases or liquids (largest tangential field; worst first{})",
+            r.surface_tangential_limit_kv_per_mm.map_or_else(
+                || ", no limit given: `limits.surface_tangential_kv_per_mm`".to_string(),
+                |l| format!(", limit {} kV/mm {v}", sig4(l))
+            )
+        );
+        let mut worst: Vec<&super::SurfaceOut> = r.surfaces.iter().collect();
+        worst.sort_by(|a, b| b.e_tangential_max_kv_per_mm.total_cmp(&a.e_tangential_max_kv_per_mm));
+        let rows = worst
+            .iter()
+            .take(MAX_SURFACES_LISTED)
+            .map(|s| {
+                vec![
+                    s.parts[0].clone(),
+                    s.parts[1].clone(),
+                    sig4(s.e_tangential_max_kv_per_mm),
+                    format!("{}, {}", sig4(s.at_mm[0]), sig4(s.at_mm[1])),
+                ]
+            })
+            .collect();
+        let et = format!("E tangential max kV/mm {v}");
+        let _ = writeln!(o, "{}", table(&["solid", "gas or liquid", &et, "at mm"], rows, &[2, 3]));
+        if worst.len() > MAX_SURFACES_LISTED {
+            let _ = writeln!(o, " … and {} more in the JSON", worst.len() - MAX_SURFACES_LISTED);
+        }
     }
 
     if let Some(reference) = &r.reference {
