@@ -6,6 +6,13 @@
 //!   the material has no strength value), else pass;
 //! * case verdict: the worst part verdict, raised to review by any warning
 //!   finding and to fail by any fail finding.
+//!
+//! Findings come from rules, one function per finding family: per part
+//! `gas_rule` and `inception_grid_rule` (gas parts with a discharge model),
+//! `strength_rule` (the others), `mesh_rule`, `state_findings`; per case
+//! `stress_shifts`, `surface_rule`, `material_rules`, and the junction,
+//! operation, implausible-input and potential checks. A new mode adds its
+//! rules here rather than branches in them.
 
 use crate::case::{Case, ElectrodeKind};
 use crate::fields::Fields;
@@ -474,47 +481,17 @@ pub fn assess(inp: &Inputs) -> Assessment {
             }
             None => (point_margin, part_verdict(point_margin, strength.is_some(), case.safety_factor)),
         };
-        match (strength, margin) {
-            _ if inception.is_some() => {}
-            (None, _) => findings
-                .push(Finding { kind: FindingKind::NoStrength { material: m.name.clone() }, part: part.clone() }),
-            (Some(strength), Some(mg)) if mg < 1.0 => {
-                let kind = if m.class == MaterialClass::Gas {
-                    FindingKind::GasAboveBreakdown { e_max: f.e_max, strength }
-                } else {
-                    FindingKind::AboveBreakdown { e_max: f.e_max, strength }
-                };
-                findings.push(Finding { kind, part: part.clone() });
-            }
-            (Some(_), Some(mg)) if mg < case.safety_factor => findings.push(Finding {
-                kind: FindingKind::BelowSafetyFactor { margin: mg, required: case.safety_factor },
-                part: part.clone(),
-            }),
-            _ => {}
+        let mut kinds: Vec<FindingKind> = Vec::new();
+        if inception.is_none() {
+            kinds.extend(strength_rule(m, f.e_max, strength, margin, case.safety_factor));
         }
-        if let Some(c) = check.map(|c| &c.regions[r]) {
-            let kind = match c.error_estimate {
-                _ if c.growing || f.at_sharp_edge => {
-                    Some(FindingKind::SingularPeak { e_max: c.e_max, at_edge: f.at_sharp_edge })
-                }
-                None => Some(FindingKind::MeshUnbracketed),
-                Some(e) if e > MESH_ERROR_LIMIT => Some(FindingKind::MeshSensitive { estimate: e }),
-                Some(_) => None,
-            };
-            if let Some(kind) = kind {
-                findings.push(Finding { kind, part: part.clone() });
-            }
-        }
+        kinds.extend(check.and_then(|c| mesh_rule(&c.regions[r], f)));
         if region.cells_across < MIN_CELLS_ACROSS {
-            findings.push(Finding {
-                kind: FindingKind::CoarseGrid { cells_across: region.cells_across },
-                part: part.clone(),
-            });
+            kinds.push(FindingKind::CoarseGrid { cells_across: region.cells_across });
         }
         let state = states[r];
-        findings.extend(
-            state_findings(m, &state, strength.is_some()).into_iter().map(|kind| Finding { kind, part: part.clone() }),
-        );
+        kinds.extend(state_findings(m, &state, strength.is_some()));
+        findings.extend(kinds.into_iter().map(|kind| Finding { kind, part: part.clone() }));
         let eps = permittivity[r];
         let e2 = f.e_max * f.e_max;
         parts.push(PartAssessment {
@@ -558,28 +535,7 @@ pub fn assess(inp: &Inputs) -> Assessment {
         findings.push(Finding { kind: FindingKind::OperationNotStated, part: None });
     }
 
-    for (id, m) in case.materials.iter().enumerate() {
-        let users: Vec<String> = parts
-            .iter()
-            .filter(|p| layout.regions[p.region].material == id)
-            .map(|p| layout.regions[p.region].name.clone())
-            .collect();
-        if users.is_empty() {
-            continue;
-        }
-        for detail in &m.out_of_range {
-            findings.push(Finding {
-                kind: FindingKind::ValueOutOfRange { material: m.name.clone(), detail: detail.clone() },
-                part: None,
-            });
-        }
-        if m.generic {
-            findings.push(Finding {
-                kind: FindingKind::GenericMaterial { material: m.name.clone(), parts: users },
-                part: None,
-            });
-        }
-    }
+    findings.extend(material_rules(case, layout, &parts));
 
     for note in &case.implausible {
         findings.push(Finding { kind: FindingKind::ImplausibleInput(note.clone()), part: note.owner.clone() });
@@ -657,6 +613,73 @@ fn inception_grid_rule(check: &MeshCheck, r: usize, working: f64) -> Option<Find
         _ => true,
     };
     changed.then(|| FindingKind::PdGridDependent { levels: s.map(|v| v.map(|v| v * working)) })
+}
+
+/// A solid or liquid part (or a gas without a discharge model) judged by
+/// its point margin: above the typical strength, below the safety factor,
+/// or no strength at all.
+fn strength_rule(
+    m: &crate::materials::Material,
+    e_max: f64,
+    strength: Option<f64>,
+    margin: Option<f64>,
+    safety_factor: f64,
+) -> Option<FindingKind> {
+    match (strength, margin) {
+        (None, _) => Some(FindingKind::NoStrength { material: m.name.clone() }),
+        (Some(strength), Some(mg)) if mg < 1.0 => Some(if m.class == MaterialClass::Gas {
+            FindingKind::GasAboveBreakdown { e_max, strength }
+        } else {
+            FindingKind::AboveBreakdown { e_max, strength }
+        }),
+        (Some(_), Some(mg)) if mg < safety_factor => {
+            Some(FindingKind::BelowSafetyFactor { margin: mg, required: safety_factor })
+        }
+        _ => None,
+    }
+}
+
+/// A part's peak against the self-check's coarser grids: singular (growing,
+/// or at a sharp edge), unbracketed, or above the error limit.
+fn mesh_rule(c: &crate::meshcheck::RegionCheck, f: &crate::fields::RegionField) -> Option<FindingKind> {
+    match c.error_estimate {
+        _ if c.growing || f.at_sharp_edge => {
+            Some(FindingKind::SingularPeak { e_max: c.e_max, at_edge: f.at_sharp_edge })
+        }
+        None => Some(FindingKind::MeshUnbracketed),
+        Some(e) if e > MESH_ERROR_LIMIT => Some(FindingKind::MeshSensitive { estimate: e }),
+        Some(_) => None,
+    }
+}
+
+/// Materials in use: user values outside the published range of their
+/// base, and generic library values.
+fn material_rules(case: &Case, layout: &Layout, parts: &[PartAssessment]) -> Vec<Finding> {
+    let mut findings = Vec::new();
+    for (id, m) in case.materials.iter().enumerate() {
+        let users: Vec<String> = parts
+            .iter()
+            .filter(|p| layout.regions[p.region].material == id)
+            .map(|p| layout.regions[p.region].name.clone())
+            .collect();
+        if users.is_empty() {
+            continue;
+        }
+        for detail in &m.out_of_range {
+            findings.push(Finding {
+                kind: FindingKind::ValueOutOfRange { material: m.name.clone(), detail: detail.clone() },
+                part: None,
+            });
+        }
+        if m.generic {
+            findings.push(Finding {
+                kind: FindingKind::GenericMaterial { material: m.name.clone(), parts: users },
+                part: None,
+            });
+        }
+    }
+
+    findings
 }
 
 /// Surfaces whose tangential field exceeds the case's own limit
