@@ -1,0 +1,154 @@
+//! Potential and field anywhere in the domain: probes, lines, maps, VTK and
+//! field lines read through [`Sampler`].
+
+use super::{EdgeValues, LineField, LineSample, ProbeField, TIE, boundary_corrected_edges, weight};
+use crate::case::{Case, Geometry};
+use crate::grid::{CONDUCTOR, Grid, Layout};
+
+/// What lies at a sampled point.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Inside {
+    /// A dielectric region (index into the layout's regions).
+    Region(u32),
+    /// An electrode (index into the layout's electrodes).
+    Electrode(u32),
+}
+
+/// The field at one point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Sample {
+    /// Potential in V.
+    pub potential: f64,
+    /// Field components (E_x, E_y) or (E_r, E_z) in V/m.
+    pub e: [f64; 2],
+    /// What the point lies in (by the cell that holds it).
+    pub inside: Inside,
+}
+
+impl Sample {
+    /// |E| in V/m.
+    pub fn magnitude(&self) -> f64 {
+        self.e[0].hypot(self.e[1])
+    }
+}
+
+/// Evaluates potential and field anywhere in the domain: the potential
+/// bilinear in the cell that holds the point, each field component linear
+/// between the two cell edges along its direction (the edge values of the
+/// module docs, second order at edge midpoints). Built once per solution.
+#[derive(Debug, Clone)]
+pub struct Sampler<'a> {
+    pub(super) grid: &'a Grid,
+    pub(super) layout: &'a Layout,
+    pub(super) geometry: Geometry,
+    pub(super) phi: &'a [f64],
+    pub(super) ev: EdgeValues,
+}
+
+impl<'a> Sampler<'a> {
+    /// Prepares the edge values of `phi`.
+    pub fn new(case: &Case, grid: &'a Grid, layout: &'a Layout, phi: &'a [f64]) -> Self {
+        Sampler {
+            grid,
+            layout,
+            geometry: case.geometry,
+            phi,
+            ev: boundary_corrected_edges(grid, layout, case.geometry, phi),
+        }
+    }
+
+    /// The field at `at` (m); points outside the domain are clamped to it.
+    /// A point on the boundary between an electrode and insulation (an
+    /// electrode outline on a grid line) is evaluated on the insulation
+    /// side: of the cells that touch it, the first that is not inside an
+    /// electrode.
+    pub fn at(&self, at: [f64; 2]) -> Sample {
+        let (grid, layout, phi, ev) = (self.grid, self.layout, self.phi, &self.ev);
+        let c =
+            grid.cells_touching(at).find(|c| layout.cell_region[c.0] != CONDUCTOR).unwrap_or_else(|| grid.locate(at));
+        let (i, j) = grid.cell_ij(c);
+        let nx = grid.nx();
+        let s = ((at[0] - grid.x[i]) / (grid.x[i + 1] - grid.x[i])).clamp(0.0, 1.0);
+        let t = ((at[1] - grid.y[j]) / (grid.y[j + 1] - grid.y[j])).clamp(0.0, 1.0);
+        let [a, b, cc, d] = grid.cell_nodes(c).map(|n| phi[n.0]);
+        let potential = (1.0 - t) * ((1.0 - s) * a + s * b) + t * ((1.0 - s) * cc + s * d);
+        let g = (1.0 - t) * ev.gx[j * (nx - 1) + i] + t * ev.gx[(j + 1) * (nx - 1) + i];
+        let ex = weight(self.geometry, at[0]).map_or(0.0, |w| g / w);
+        let ey = (1.0 - s) * ev.gy[j * nx + i] + s * ev.gy[j * nx + i + 1];
+        let r = layout.cell_region[c.0];
+        let inside = if r == CONDUCTOR {
+            Inside::Electrode(layout.node_electrode[grid.cell_nodes(c)[0].0])
+        } else {
+            Inside::Region(r)
+        };
+        Sample { potential, e: [ex, ey], inside }
+    }
+
+    /// The domain [x min, x max, y min, y max] in m.
+    pub fn domain(&self) -> [f64; 4] {
+        let (x, y) = (&self.grid.x, &self.grid.y);
+        [x[0], x[x.len() - 1], y[0], y[y.len() - 1]]
+    }
+
+    /// The smaller side of the cell holding `at`, m.
+    pub fn cell_size(&self, at: [f64; 2]) -> f64 {
+        let (i, j) = self.grid.cell_ij(self.grid.locate(at));
+        (self.grid.x[i + 1] - self.grid.x[i]).min(self.grid.y[j + 1] - self.grid.y[j])
+    }
+
+    /// The layout the sampler reads.
+    pub fn layout(&self) -> &'a Layout {
+        self.layout
+    }
+
+    /// The grid the sampler reads.
+    pub fn grid(&self) -> &'a Grid {
+        self.grid
+    }
+
+    /// Name of what a sample lies in.
+    pub fn name_of(&self, inside: Inside) -> &'a str {
+        match inside {
+            Inside::Region(r) => &self.layout.regions[r as usize].name,
+            Inside::Electrode(e) => &self.layout.electrodes[e as usize].name,
+        }
+    }
+}
+
+pub(super) fn probe(sampler: &Sampler, at: [f64; 2]) -> ProbeField {
+    let s = sampler.at(at);
+    ProbeField { potential: s.potential, e: s.magnitude(), part: sampler.name_of(s.inside).to_string() }
+}
+
+/// The field along a straight line at `points` evenly spaced points, ends
+/// included.
+pub fn line_field(sampler: &Sampler, from: [f64; 2], to: [f64; 2], points: usize) -> LineField {
+    let length = (to[0] - from[0]).hypot(to[1] - from[1]);
+    let samples = (0..points)
+        .map(|k| {
+            let f = k as f64 / (points - 1).max(1) as f64;
+            let at = [from[0] + f * (to[0] - from[0]), from[1] + f * (to[1] - from[1])];
+            let s = sampler.at(at);
+            LineSample {
+                distance: f * length,
+                at,
+                potential: s.potential,
+                e: s.e,
+                part: sampler.name_of(s.inside).into(),
+                in_electrode: matches!(s.inside, Inside::Electrode(_)),
+            }
+        })
+        .collect::<Vec<LineSample>>();
+    // Ties within rounding (a uniform field) keep the first sample, so the
+    // location does not depend on solver round-off.
+    let magnitude = |s: &LineSample| s.e[0].hypot(s.e[1]);
+    let peak =
+        samples.iter().enumerate().filter(|(_, s)| !s.in_electrode).fold(
+            None,
+            |best: Option<usize>, (k, s)| match best {
+                Some(b) if magnitude(s) <= magnitude(&samples[b]) * (1.0 + TIE) => Some(b),
+                _ => Some(k),
+            },
+        );
+    LineField { samples, peak }
+}
