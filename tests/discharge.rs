@@ -303,3 +303,65 @@ fn tangential_field_along_a_surface_parallel_to_the_field() {
     assert_eq!(junctions.len(), 2);
     assert!(junctions.iter().all(|f| f.severity == hvstack::report::SeverityOut::Info));
 }
+
+/// A user gas with air's constants written out in SI gives the built-in
+/// result: Townsend A = 15 /(cm·Torr) = 11.25 /(Pa·m), B = 365 V/(cm·Torr) =
+/// 273.75 V/(Pa·m) (J. Lux's Paschen notes; vcalc.com's Paschen's law page),
+/// so the 29 µm film-and-gap stack incepts at 811 V as above.
+#[test]
+fn a_user_gas_with_its_own_constants() {
+    let r = run("
+title: own gas
+materials:
+  film: { permittivity: 3.5, strength_kv_per_mm: 200, strength_basis: peak, source: test value }
+  own-air:
+    class: gas
+    permittivity: 1.0
+    townsend: { a_per_pa_m: 11.25, b_v_per_pa_m: 273.75, gamma: 0.01 }
+    source: Paschen constants of air in SI
+stack:
+  form: planar
+  voltage_kv: 0.5
+  layers:
+    - { name: film, material: film, thickness: 0.1 }
+    - { name: gap, material: own-air, thickness: 0.029 }
+");
+    let v = 1e3 * part(&r, "gap").pd_inception_kv.unwrap();
+    assert!(rel(v, 811.0) < 0.01, "{v}");
+}
+
+/// Nitrogen has Townsend constants only here: a 2 mm gap (p·d ≈ 200 Pa·m,
+/// far beyond where constant-coefficient Townsend fits hold) is flagged;
+/// its level is Paschen's V = B·pd/(ln(A·pd) − ln ln(1 + 1/γ)) with A 11.8,
+/// B 325 (Lieberman & Lichtenberg 2005), γ 0.01 (from memory).
+#[test]
+fn nitrogen_long_gaps_are_flagged_townsend_only() {
+    let r = uniform_gap("nitrogen", 2.0, 101.325);
+    let p = part(&r, "gap");
+    let (a, b): (f64, f64) = (11.8 * 100.0 * 760.0 / 101_325.0, 325.0 * 100.0 * 760.0 / 101_325.0);
+    let pd: f64 = 101_325.0 * 2e-3;
+    let paschen = b * pd / ((a * pd).ln() - (101f64).ln().ln());
+    assert!(rel(1e3 * p.pd_inception_kv.unwrap(), paschen) < 2e-3);
+    assert!(has(&r, "townsend-only", "gap"));
+}
+
+/// A hot gas is thinner: at 120 °C the relative density is 293.15/393.15 =
+/// 0.7457, and a uniform 1 mm air gap incepts at 24.22·δ·0.1 +
+/// 6.08·√(δ·0.1) kV = 3.465 kV (J. Lux's Paschen notes, density form).
+#[test]
+fn a_hot_gas_incepts_lower() {
+    let r = run("
+title: hot gap
+materials:
+  gas: { base: air, permittivity: 1.0, source: test value }
+stack:
+  form: planar
+  voltage_kv: 1
+  layers:
+    - { name: gap, material: gas, thickness: 1, temperature_c: 120 }
+");
+    let d: f64 = 293.15 / 393.15 * 0.1;
+    let expect = 24.22 * d + 6.08 * d.sqrt();
+    let v = part(&r, "gap").pd_inception_kv.unwrap();
+    assert!(rel(v, expect) < 2e-3, "{v} against {expect}");
+}

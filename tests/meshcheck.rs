@@ -50,7 +50,8 @@ stack:
 
 /// Rounding the corners of the same bar (a polygon with `fillet`) gives a
 /// peak that converges: no singular-peak finding and a small error estimate
-/// (the advice the finding gives, followed).
+/// (the advice the finding gives, followed). The bar is embedded in a
+/// solid: a gas around it would be judged by its inception level instead.
 #[test]
 fn a_filleted_corner_converges() {
     let bar = |shape: &str| {
@@ -59,6 +60,7 @@ fn a_filleted_corner_converges() {
 title: bar over a plane
 geometry: planar
 domain: {{ x: [0, 40], y: [0, 30] }}
+background: silicone-rubber
 parts:
   - {{ name: ground, electrode: {{ potential_kv: 0 }}, shape: {{ rect: {{ x: [0, 40], y: [0, 0] }} }} }}
   - {{ name: bar, electrode: {{ potential_kv: 10 }}, shape: {shape} }}
