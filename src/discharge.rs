@@ -24,7 +24,7 @@
 //! lines; that line is the critical one.
 
 use crate::case::Case;
-use crate::fields::trace::{FieldLine, TraceConfig, trace};
+use crate::fields::trace::{End, FieldLine, TraceConfig, trace};
 use crate::fields::{Fields, Inside, Sampler};
 use crate::grid::{CellIx, Layout};
 use crate::materials::MaterialClass;
@@ -288,31 +288,44 @@ fn line_inception(line: &FieldLine, gas: &[Option<Gas>], own: &Gas, peak: f64) -
     (best, reduced)
 }
 
+/// What the lines of one case are traced and integrated with.
+struct Search<'a> {
+    sampler: &'a Sampler<'a>,
+    gas: Vec<Option<Gas>>,
+    /// Peak field per unit of the solution's field (√2 for rms cases).
+    peak: f64,
+    sharp: Vec<[f64; 2]>,
+    config: &'a Config,
+}
+
 /// The inception of every gas part that has a discharge model and cells,
 /// in layout order.
 pub fn inception(case: &Case, sampler: &Sampler, fields: &Fields, config: &Config) -> Vec<GasInception> {
-    let layout = sampler.layout();
-    let gas = gases(case, layout);
-    let peak = Values::Peak.factor_from(case.operation.values);
-    let continues = |inside: Inside| matches!(inside, Inside::Region(r) if gas[r as usize].is_some());
-    let sharp = crate::fields::sharp_points(case);
-    let mut out = Vec::new();
-    for (r, own) in gas.iter().enumerate() {
-        let Some(own) = own else { continue };
-        let f = &fields.regions[r];
-        if f.cells == 0 {
-            continue;
-        }
+    let search = Search {
+        sampler,
+        gas: gases(case, sampler.layout()),
+        peak: Values::Peak.factor_from(case.operation.values),
+        sharp: crate::fields::sharp_points(case),
+        config,
+    };
+    search
+        .gas
+        .iter()
+        .enumerate()
+        .filter_map(|(r, own)| own.as_ref().map(|own| (r, own)))
+        .filter(|(r, _)| fields.regions[*r].cells > 0)
+        .map(|(r, own)| search.part(r, own, &fields.regions[r]))
+        .collect()
+}
+
+impl Search<'_> {
+    /// The lowest inception over the lines seeded in gas region `r`.
+    fn part(&self, r: usize, own: &Gas, f: &crate::fields::RegionField) -> GasInception {
         let mut result = GasInception {
             region: r,
             scale: None,
             criterion: None,
-            line: FieldLine {
-                points: Vec::new(),
-                e: Vec::new(),
-                regions: Vec::new(),
-                ends: [crate::fields::trace::End::Stagnation; 2],
-            },
+            line: FieldLine::empty(),
             reduced_length_pa_m: 0.0,
             left_branch: false,
             left_branch_below_pa_m: own.model.left_branch_below_pa_m(),
@@ -320,48 +333,49 @@ pub fn inception(case: &Case, sampler: &Sampler, fields: &Fields, config: &Confi
             truncated: false,
             lines_traced: 0,
         };
-        if f.e_max > 0.0 {
-            let mut best: Option<(f64, Criterion, FieldLine, f64)> = None;
-            let mut longest: Option<(FieldLine, f64)> = None;
-            for seed in seeds(sampler, r as u32, f.e_max_at) {
-                let Some(line) = trace(sampler, seed, &continues, &config.trace) else { continue };
-                result.lines_traced += 1;
-                // start at the high-field end (the first in a uniform field)
-                let higher_last =
-                    matches!((line.e.first(), line.e.last()), (Some(&a), Some(&b)) if b > a * (1.0 + TIE));
-                let line = if higher_last { line.reversed() } else { line };
-                let line = with_singular_start(line, &sharp, sampler);
-                let (found, reduced) = line_inception(&line, &gas, own, peak);
-                match found {
-                    // lines within rounding of each other (a uniform field)
-                    // keep the first seed's, so the location does not
-                    // depend on solver round-off
-                    Some((s, c)) if best.as_ref().is_none_or(|b| s < b.0 * (1.0 - TIE)) => {
-                        best = Some((s, c, line, reduced))
-                    }
-                    Some(_) => {}
-                    None if longest.as_ref().is_none_or(|l| reduced > l.1) => longest = Some((line, reduced)),
-                    None => {}
-                }
-            }
-            let (line, reduced) = match best {
-                Some((s, c, line, reduced)) => {
-                    result.scale = Some(s);
-                    result.criterion = Some(c);
-                    (line, reduced)
-                }
-                None => longest.unwrap_or((result.line.clone(), 0.0)),
-            };
-            result.truncated = line.ends.contains(&crate::fields::trace::End::Truncated);
-            result.reduced_length_pa_m = reduced;
-            result.left_branch = !line.points.is_empty() && reduced < own.model.left_branch_below_pa_m();
-            result.townsend_only = own.model.streamer.is_none()
-                && own.model.townsend.is_some_and(|t| reduced > TOWNSEND_RANGE_MINIMA * t.paschen_minimum().0);
-            result.line = line;
+        if f.e_max <= 0.0 {
+            return result;
         }
-        out.push(result);
+        let gas = &self.gas;
+        let continues = |inside: Inside| matches!(inside, Inside::Region(k) if gas[k as usize].is_some());
+        let mut best: Option<(f64, Criterion, FieldLine, f64)> = None;
+        let mut longest: Option<(FieldLine, f64)> = None;
+        for seed in seeds(self.sampler, r as u32, f.e_max_at) {
+            let Some(line) = trace(self.sampler, seed, &continues, &self.config.trace) else { continue };
+            result.lines_traced += 1;
+            // start at the high-field end (the first in a uniform field)
+            let higher_last = matches!((line.e.first(), line.e.last()), (Some(&a), Some(&b)) if b > a * (1.0 + TIE));
+            let line = if higher_last { line.reversed() } else { line };
+            let line = with_singular_start(line, &self.sharp, self.sampler);
+            let (found, reduced) = line_inception(&line, gas, own, self.peak);
+            match found {
+                // lines within rounding of each other (a uniform field) keep
+                // the first seed's, so the location does not depend on
+                // solver round-off
+                Some((s, c)) if best.as_ref().is_none_or(|b| s < b.0 * (1.0 - TIE)) => {
+                    best = Some((s, c, line, reduced))
+                }
+                Some(_) => {}
+                None if longest.as_ref().is_none_or(|l| reduced > l.1) => longest = Some((line, reduced)),
+                None => {}
+            }
+        }
+        let (line, reduced) = match best {
+            Some((s, c, line, reduced)) => {
+                result.scale = Some(s);
+                result.criterion = Some(c);
+                (line, reduced)
+            }
+            None => longest.unwrap_or((FieldLine::empty(), 0.0)),
+        };
+        result.truncated = line.ends.contains(&End::Truncated);
+        result.reduced_length_pa_m = reduced;
+        result.left_branch = !line.points.is_empty() && reduced < own.model.left_branch_below_pa_m();
+        result.townsend_only = own.model.streamer.is_none()
+            && own.model.townsend.is_some_and(|t| reduced > TOWNSEND_RANGE_MINIMA * t.paschen_minimum().0);
+        result.line = line;
+        result
     }
-    out
 }
 
 /// Townsend's criterion with constant A and B is trusted up to this many

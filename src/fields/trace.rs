@@ -58,6 +58,11 @@ pub struct FieldLine {
 }
 
 impl FieldLine {
+    /// A line with no points (nothing could be traced).
+    pub fn empty() -> FieldLine {
+        FieldLine { points: Vec::new(), e: Vec::new(), regions: Vec::new(), ends: [End::Stagnation; 2] }
+    }
+
     /// Length of each segment, m.
     pub fn segments(&self) -> impl Iterator<Item = f64> + '_ {
         self.points.windows(2).map(|w| (w[1][0] - w[0][0]).hypot(w[1][1] - w[0][1]))

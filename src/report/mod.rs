@@ -281,8 +281,9 @@ pub fn message(kind: &FindingKind, values: crate::units::Values) -> String {
             }
         ),
         FindingKind::FieldLineTruncated => {
-            "the critical field line was cut short at the tracing limit, so its ionisation integral (and the \
-             inception level) may be incomplete; report this case."
+            "the critical field line was cut short at the tracing limit (100 000 points each way), so its \
+             ionisation integral is incomplete and the inception level is an upper bound; coarsen the grid in the \
+             gas (grid.max_step) or split the gas part, and check again."
                 .to_string()
         }
         FindingKind::OperationNotStated => {
