@@ -27,6 +27,10 @@ pub struct SummaryRow {
     /// Its margin.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub margin: Option<f64>,
+    /// The case's lowest partial-discharge inception level (gas parts),
+    /// in its convention.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub pd_inception_kv: Option<f64>,
     /// Codes of the warning and fail findings.
     pub findings: Vec<&'static str>,
     /// Why the case could not be evaluated.
@@ -53,6 +57,7 @@ pub fn row(file: &str, r: &CheckReport) -> SummaryRow {
         e_max_kv_per_mm: worst.map(|p| p.e_max_kv_per_mm),
         values: Some(r.values),
         margin: worst.and_then(|p| p.margin),
+        pd_inception_kv: r.pd_inception_kv,
         findings: {
             let mut codes: Vec<&'static str> = Vec::new();
             for f in r.findings.iter().filter(|f| f.severity != super::SeverityOut::Info) {
@@ -76,6 +81,7 @@ pub fn error_row(file: &str, message: &str) -> SummaryRow {
         e_max_kv_per_mm: None,
         values: None,
         margin: None,
+        pd_inception_kv: None,
         findings: Vec::new(),
         error: Some(message.to_string()),
     }
@@ -101,6 +107,10 @@ pub fn render_summary(rows: &[SummaryRow]) -> String {
                     _ => "—".into(),
                 },
                 r.margin.map_or_else(|| "—".into(), sig4),
+                match (r.pd_inception_kv, r.values) {
+                    (Some(kv), Some(v)) => format!("{} {v}", sig4(kv)),
+                    _ => "—".into(),
+                },
                 match &r.error {
                     Some(e) => e.lines().next().unwrap_or_default().to_string(),
                     None => r.findings.join(", "),
@@ -111,7 +121,11 @@ pub fn render_summary(rows: &[SummaryRow]) -> String {
     let counts = |v: &str| rows.iter().filter(|r| r.verdict == v).count();
     format!(
         "{}\n\n{} cases: {} pass, {} review, {} fail, {} not evaluated\n",
-        table(&["case", "verdict", "worst part", "E max kV/mm", "margin", "findings / error"], body, &[3, 4]),
+        table(
+            &["case", "verdict", "worst part", "E max kV/mm", "margin", "PD inception kV", "findings / error"],
+            body,
+            &[3, 4, 5]
+        ),
         rows.len(),
         counts("pass"),
         counts("review"),
