@@ -97,6 +97,17 @@ fn lerp(a: [f64; 2], b: [f64; 2], t: f64) -> [f64; 2] {
 /// the inception search).
 const EXIT_BISECTIONS: usize = 30;
 
+/// The last point of the segment p → q where `inside` still holds (p
+/// inside, q not), by bisection.
+fn last_inside(p: [f64; 2], q: [f64; 2], inside: &dyn Fn([f64; 2]) -> bool) -> [f64; 2] {
+    let (mut lo, mut hi) = (0.0, 1.0);
+    for _ in 0..EXIT_BISECTIONS {
+        let m = 0.5 * (lo + hi);
+        if inside(lerp(p, q, m)) { lo = m } else { hi = m }
+    }
+    lerp(p, q, lo)
+}
+
 /// One direction from `seed`: points after the seed, and how it ended.
 fn half(
     sampler: &Sampler,
@@ -136,12 +147,7 @@ fn half(
         };
         if !inside_domain(q) {
             // the last point inside, on the domain's edge
-            let (mut lo, mut hi) = (0.0, 1.0);
-            for _ in 0..EXIT_BISECTIONS {
-                let m = 0.5 * (lo + hi);
-                if inside_domain(lerp(p, q, m)) { lo = m } else { hi = m }
-            }
-            let b = lerp(p, q, lo);
+            let b = last_inside(p, q, &inside_domain);
             let sb = sampler.at(b);
             if let Inside::Region(r) = sb.inside {
                 out.push((b, sb.magnitude(), r));
@@ -150,12 +156,7 @@ fn half(
         }
         let sq = sampler.at(q);
         if !continues(sq.inside) {
-            let (mut lo, mut hi) = (0.0, 1.0);
-            for _ in 0..EXIT_BISECTIONS {
-                let m = 0.5 * (lo + hi);
-                if continues(sampler.at(lerp(p, q, m)).inside) { lo = m } else { hi = m }
-            }
-            let b = lerp(p, q, lo);
+            let b = last_inside(p, q, &|x| continues(sampler.at(x).inside));
             let sb = sampler.at(b);
             if let Inside::Region(r) = sb.inside {
                 out.push((b, sb.magnitude(), r));
