@@ -261,8 +261,9 @@ fn solve_scale(g: &dyn Fn(f64) -> f64, target: f64, s_max: f64) -> Option<f64> {
     Some(hi)
 }
 
-/// Largest scale searched: a million times the working level.
-const MAX_SCALE: f64 = 1e6;
+/// Largest scale searched: beyond any level a case can hold (potentials
+/// go down to 1e-6 kV, gaps up to a kilometre).
+const MAX_SCALE: f64 = 1e15;
 
 /// The inception scale of one line and the criterion that gives it.
 fn line_inception(line: &FieldLine, gas: &[Option<Gas>], own: &Gas, peak: f64) -> (Option<(f64, Criterion)>, f64) {

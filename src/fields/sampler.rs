@@ -84,6 +84,12 @@ impl<'a> Sampler<'a> {
         Sample { potential, e: [ex, ey], inside }
     }
 
+    /// An electrode owning a node of the cell that holds `at`, if any.
+    pub fn electrode_near(&self, at: [f64; 2]) -> Option<u32> {
+        let nodes = self.grid.cell_nodes(self.grid.locate(at));
+        nodes.iter().map(|n| self.layout.node_electrode[n.0]).find(|&e| e != crate::grid::NO_ELECTRODE)
+    }
+
     /// The domain [x min, x max, y min, y max] in m.
     pub fn domain(&self) -> [f64; 4] {
         let (x, y) = (&self.grid.x, &self.grid.y);

@@ -8,7 +8,8 @@
 //! electrode edges, where the grid is fine). A direction stops at an
 //! electrode, on entering a part the line may not cross (located by
 //! bisection to 1e-9 of a step), at the domain's edge, where the
-//! field vanishes, or after a bounded number of points.
+//! field reverses within a step (a zero-thickness foil) or vanishes, or
+//! after a bounded number of points.
 
 use super::{Inside, Sampler};
 
@@ -145,6 +146,19 @@ fn half(
             }
             break [p[0] + h * d2[0], p[1] + h * d2[1]];
         };
+        // The field reverses within the step: the line has reached a
+        // conductor with no cells (a zero-thickness foil) or a point where
+        // lines meet; it ends where the direction turns.
+        let ahead = |x: [f64; 2]| unit(sampler.at(x).e, sign).is_some_and(|d| d1[0] * d[0] + d1[1] * d[1] > 0.0);
+        if !ahead(q) {
+            let b = last_inside(p, q, &ahead);
+            let sb = sampler.at(b);
+            if let Inside::Region(r) = sb.inside {
+                out.push((b, sb.magnitude(), r));
+            }
+            let end = sampler.electrode_near(q).map_or(End::Stagnation, End::Electrode);
+            return (out, end);
+        }
         if !inside_domain(q) {
             // the last point inside, on the domain's edge
             let b = last_inside(p, q, &inside_domain);
