@@ -125,16 +125,14 @@ fn gases(case: &Case, layout: &Layout) -> Vec<Option<Gas>> {
         .collect()
 }
 
-/// Seeds of one region: its peak, then its strongest cells spread apart.
-fn seeds(sampler: &Sampler, region: u32, peak: [f64; 2]) -> Vec<[f64; 2]> {
-    let (grid, layout) = (sampler.grid(), sampler.layout());
-    let mut cells: Vec<(f64, [f64; 2])> = Vec::new();
+/// Seeds of one region (its cells given): its peak, then its strongest
+/// cells spread apart.
+fn seeds(sampler: &Sampler, own_cells: &[u32], peak: [f64; 2]) -> Vec<[f64; 2]> {
+    let grid = sampler.grid();
+    let mut cells: Vec<(f64, [f64; 2])> = Vec::with_capacity(own_cells.len());
     let (mut lo, mut hi) = ([f64::INFINITY; 2], [f64::NEG_INFINITY; 2]);
-    for (c, &r) in layout.cell_region.iter().enumerate() {
-        if r != region {
-            continue;
-        }
-        let (i, j) = grid.cell_ij(CellIx(c));
+    for &c in own_cells {
+        let (i, j) = grid.cell_ij(CellIx(c as usize));
         let centre = [0.5 * (grid.x[i] + grid.x[i + 1]), 0.5 * (grid.y[j] + grid.y[j + 1])];
         for k in 0..2 {
             lo[k] = lo[k].min(centre[k]);
@@ -296,15 +294,25 @@ struct Search<'a> {
     /// Peak field per unit of the solution's field (√2 for rms cases).
     peak: f64,
     sharp: Vec<[f64; 2]>,
+    /// The cells of each gas region (empty for other regions), in grid order.
+    cells: Vec<Vec<u32>>,
     config: &'a Config,
 }
 
 /// The inception of every gas part that has a discharge model and cells,
 /// in layout order.
 pub fn inception(case: &Case, sampler: &Sampler, fields: &Fields, config: &Config) -> Vec<GasInception> {
+    let gas = gases(case, sampler.layout());
+    let mut cells = vec![Vec::new(); gas.len()];
+    for (c, &r) in sampler.layout().cell_region.iter().enumerate() {
+        if gas.get(r as usize).is_some_and(|g| g.is_some()) {
+            cells[r as usize].push(c as u32);
+        }
+    }
     let search = Search {
         sampler,
-        gas: gases(case, sampler.layout()),
+        gas,
+        cells,
         peak: Values::Peak.factor_from(case.operation.values),
         sharp: crate::fields::sharp_points(case),
         config,
@@ -341,7 +349,7 @@ impl Search<'_> {
         let continues = |inside: Inside| matches!(inside, Inside::Region(k) if gas[k as usize].is_some());
         let mut best: Option<(f64, Criterion, FieldLine, f64)> = None;
         let mut longest: Option<(FieldLine, f64)> = None;
-        for seed in seeds(self.sampler, r as u32, f.e_max_at) {
+        for seed in seeds(self.sampler, &self.cells[r], f.e_max_at) {
             let Some(line) = trace(self.sampler, seed, &continues, &self.config.trace) else { continue };
             result.lines_traced += 1;
             // start at the high-field end (the first in a uniform field)
