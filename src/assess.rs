@@ -224,6 +224,12 @@ pub enum FindingKind {
         /// The limit, V/m.
         limit: f64,
     },
+    /// Under an impulse, the material has no impulse strength, so its
+    /// short-term (AC) strength was used as a peak value.
+    ImpulseStrengthMissing {
+        /// Material name.
+        material: String,
+    },
     /// An electrode, a solid and a gas or liquid meet.
     TripleJunction(crate::discharge::Junction),
     /// A user value lies outside the range published for its base material.
@@ -268,6 +274,7 @@ impl FindingKind {
             FindingKind::PdGridDependent { .. } => "pd-grid-dependent",
             FindingKind::TripleJunction(_) => "triple-junction",
             FindingKind::SurfaceStress { .. } => "surface-stress",
+            FindingKind::ImpulseStrengthMissing { .. } => "impulse-strength-missing",
         }
     }
 
@@ -279,7 +286,8 @@ impl FindingKind {
             | FindingKind::PdAtWorkingLevel { .. } => Severity::Fail,
             FindingKind::GenericMaterial { .. }
             | FindingKind::OperationNotStated
-            | FindingKind::DipoleSaturation(_) => Severity::Info,
+            | FindingKind::DipoleSaturation(_)
+            | FindingKind::ImpulseStrengthMissing { .. } => Severity::Info,
             FindingKind::TripleJunction(j) if !j.enhanced() => Severity::Info,
             _ => Severity::Warning,
         }
@@ -484,6 +492,7 @@ pub fn assess(inp: &Inputs) -> Assessment {
         let mut kinds: Vec<FindingKind> = Vec::new();
         if inception.is_none() {
             kinds.extend(strength_rule(m, f.e_max, strength, margin, case.safety_factor));
+            kinds.extend(impulse_rule(case, m));
         }
         // a gas part judged by inception has its level checked against the
         // self-check's grids instead (`inception_grid_rule`): its point peak
@@ -642,6 +651,15 @@ fn strength_rule(
         }
         _ => None,
     }
+}
+
+/// Under an impulse, a material judged by its AC strength (it has no
+/// impulse strength of its own).
+fn impulse_rule(case: &Case, m: &crate::materials::Material) -> Option<FindingKind> {
+    (case.operation.mode == crate::case::Mode::Impulse
+        && m.impulse_strength_v_per_m.is_none()
+        && m.strength_v_per_m.is_some())
+    .then(|| FindingKind::ImpulseStrengthMissing { material: m.name.clone() })
 }
 
 /// A part's peak against the self-check's coarser grids: singular (growing,

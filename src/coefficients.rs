@@ -86,6 +86,7 @@ pub fn states(case: &Case, layout: &Layout, conditions: Conditions) -> Vec<State
     let frequency_hz = match case.operation.mode {
         Mode::Static => 0.0,
         Mode::Ac => case.operation.frequency_hz,
+        Mode::Impulse => crate::case::IMPULSE_EQUIVALENT_FREQUENCY_HZ,
     };
     layout
         .regions
@@ -133,8 +134,21 @@ pub fn permittivity(material: &Material, state: &State) -> f64 {
 /// convention (V/m; `None` where the material has none), converted from the
 /// basis it was measured in. Strengths are not derated for the state (the
 /// assessment says where that matters).
+/// Under an impulse, a material's impulse strength where it has one, else
+/// its short-term (AC) strength as a peak value (conservative: impulse
+/// strengths are usually higher; `assess` says where it was used).
 pub fn strengths(case: &Case, layout: &Layout) -> Vec<Option<f64>> {
-    layout.regions.iter().map(|r| case.materials[r.material].strength_in(case.operation.values)).collect()
+    layout
+        .regions
+        .iter()
+        .map(|r| {
+            let m = &case.materials[r.material];
+            match case.operation.mode {
+                Mode::Impulse => m.impulse_strength_v_per_m.or_else(|| m.strength_in(case.operation.values)),
+                Mode::Static | Mode::Ac => m.strength_in(case.operation.values),
+            }
+        })
+        .collect()
 }
 
 /// Per-region and per-cut-cell coefficients of one evaluation.

@@ -255,3 +255,36 @@ fn a_warm_case_of_constant_materials_needs_no_second_solve() {
     assert_eq!(part(&r, "p").temperature_c, 60.0);
     assert!(r.findings.iter().any(|f| f.code == "dry-strength-used" && f.part.as_deref() == Some("p")));
 }
+
+/// Lightning impulse: potentials are peaks; a material's impulse strength
+/// (peak) sets its margin, else its AC strength as a peak value with an
+/// info finding. 1 mm of each layer in series at 100 kV peak: E_k = U/(ε_k·Σ
+/// d_j/ε_j) (series-capacitor formula, common practice): εr 4 and 2 give
+/// 33.33 and 66.67 kV/mm.
+#[test]
+fn impulse_mode_uses_impulse_strengths() {
+    let r = run("
+title: impulse
+operation: { mode: impulse }
+materials:
+  rated: { permittivity: 4.0, strength_kv_per_mm: 40, strength_basis: rms, impulse_strength_kv_per_mm: 120, source: test value }
+  plain: { permittivity: 2.0, strength_kv_per_mm: 60, strength_basis: rms, source: test value }
+stack:
+  form: planar
+  voltage_kv: 100
+  layers:
+    - { name: a, material: rated, thickness: 1 }
+    - { name: b, material: plain, thickness: 1 }
+");
+    assert_eq!(r.values, "peak");
+    assert_eq!(r.operation.mode, "impulse");
+    let (a, b) = (part(&r, "a"), part(&r, "b"));
+    assert!(rel(a.e_max_kv_per_mm, 100.0 / 3.0) < 1e-6);
+    assert!(rel(b.e_max_kv_per_mm, 200.0 / 3.0) < 1e-6);
+    // a: its impulse strength; b: 60 kV/mm rms as a peak, 60·√2
+    assert!(rel(a.strength_kv_per_mm.unwrap(), 120.0) < 1e-12);
+    assert!(rel(b.strength_kv_per_mm.unwrap(), 60.0 * 2f64.sqrt()) < 1e-12);
+    let missing: Vec<_> = r.findings.iter().filter(|f| f.code == "impulse-strength-missing").collect();
+    assert_eq!(missing.len(), 1);
+    assert_eq!(missing[0].part.as_deref(), Some("b"));
+}

@@ -134,7 +134,16 @@ pub enum Mode {
     Static,
     /// Sinusoidal AC at `frequency_hz`.
     Ac,
+    /// A standard lightning impulse (1.2/50 µs, IEC 60060-1): the
+    /// potentials are its peak values; the field is capacitive, with
+    /// permittivities taken at `IMPULSE_EQUIVALENT_FREQUENCY_HZ`.
+    Impulse,
 }
+
+/// The frequency at which permittivities are taken for an impulse: the
+/// bandwidth of its 1.2 µs front by the rise-time rule f ≈ 0.35/t_r
+/// (common practice), about 290 kHz.
+pub const IMPULSE_EQUIVALENT_FREQUENCY_HZ: f64 = 0.35 / 1.2e-6;
 
 /// The `operation:` of a case.
 #[derive(Debug, Clone, Copy, PartialEq)]

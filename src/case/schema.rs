@@ -73,6 +73,8 @@ pub enum ModeFile {
     Static,
     /// Sinusoidal AC.
     Ac,
+    /// A lightning impulse: potentials are the impulse's peak values.
+    Impulse,
 }
 
 /// `rms` or `peak`.
@@ -239,6 +241,8 @@ pub struct MaterialFile {
     pub permittivity_vs_temperature_c: Option<Vec<[f64; 2]>>,
     /// A Debye relaxation (frequency and temperature dependence).
     pub debye: Option<DebyeFile>,
+    /// Lightning-impulse (1.2/50 µs) breakdown strength in kV/mm, peak.
+    pub impulse_strength_kv_per_mm: Option<f64>,
     /// Townsend constants of a gas.
     pub townsend: Option<TownsendFile>,
     /// Streamer constants of a gas.
@@ -512,6 +516,7 @@ pub const KNOWN_KEYS: &[(&str, &[&str])] = &[
             "debye",
             "townsend",
             "streamer",
+            "impulse_strength_kv_per_mm",
         ],
     ),
     ("materials.*.townsend", &["a_per_pa_m", "b_v_per_pa_m", "gamma"]),

@@ -374,6 +374,21 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
         }
         None => base.and_then(|b| b.strength_kv_per_mm),
     };
+    let impulse_strength = f.impulse_strength_kv_per_mm;
+    if let Some(s) = impulse_strength {
+        let k = format!("{key}.impulse_strength_kv_per_mm");
+        if !(s.is_finite() && (limits::MIN_STRENGTH_KV_PER_MM..=limits::MAX_STRENGTH_KV_PER_MM).contains(&s)) {
+            ctx.err(
+                &k,
+                format!(
+                    "impulse strength {s} kV/mm is outside {} to {} kV/mm; strengths are in kV/mm (peak)",
+                    num(limits::MIN_STRENGTH_KV_PER_MM),
+                    num(limits::MAX_STRENGTH_KV_PER_MM)
+                ),
+            );
+            ok = false;
+        }
+    }
     let loss_tangent = match f.loss_tangent {
         Some(t) => {
             let k = format!("{key}.loss_tangent");
@@ -439,6 +454,7 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
         || f.permittivity_vs_temperature_c.is_some()
         || f.debye.is_some()
         || f.townsend.is_some()
+        || f.impulse_strength_kv_per_mm.is_some()
         || f.streamer.is_some();
     let source = match (&f.source, own_values, base) {
         (Some(s), _, _) if !s.trim().is_empty() => match source_text(s) {
@@ -492,6 +508,7 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
         model,
         strength_v_per_m: strength.map(units::kv_per_mm),
         strength_basis,
+        impulse_strength_v_per_m: impulse_strength.map(units::kv_per_mm),
         strength_thickness_m: if f.strength_kv_per_mm.is_some() {
             None
         } else {
@@ -1603,6 +1620,7 @@ fn operation(ctx: &mut Ctx, o: Option<&OperationFile>) -> Option<Operation> {
     let mode = match o.mode {
         None | Some(ModeFile::Static) => Mode::Static,
         Some(ModeFile::Ac) => Mode::Ac,
+        Some(ModeFile::Impulse) => Mode::Impulse,
     };
     let mut ok = true;
     let values = match (mode, o.values) {
@@ -1613,6 +1631,12 @@ fn operation(ctx: &mut Ctx, o: Option<&OperationFile>) -> Option<Operation> {
                 "a static field has instantaneous values, not rms ones; for power-frequency voltages stated rms write \
                  `mode: ac`",
             );
+            ok = false;
+            Values::Peak
+        }
+        (Mode::Impulse, None | Some(ValuesFile::Peak)) => Values::Peak,
+        (Mode::Impulse, Some(ValuesFile::Rms)) => {
+            ctx.err("operation.values", "an impulse is stated by its peak value, not an rms one; write `values: peak`");
             ok = false;
             Values::Peak
         }
@@ -1630,6 +1654,15 @@ fn operation(ctx: &mut Ctx, o: Option<&OperationFile>) -> Option<Operation> {
     let frequency_hz = match (mode, o.frequency_hz) {
         (Mode::Static, Some(_)) => {
             ctx.err("operation.frequency_hz", "applies to `mode: ac`; a static field has no frequency");
+            ok = false;
+            DEFAULT_FREQUENCY_HZ
+        }
+        (Mode::Impulse, Some(_)) => {
+            ctx.err(
+                "operation.frequency_hz",
+                "applies to `mode: ac`; an impulse is the standard 1.2/50 µs shape (permittivities are taken at \
+                 about 290 kHz, the bandwidth of its front)",
+            );
             ok = false;
             DEFAULT_FREQUENCY_HZ
         }

@@ -256,6 +256,11 @@ pub fn message(kind: &FindingKind, values: crate::units::Values) -> String {
             g3(to_mm(at[1])),
             field(*limit)
         ),
+        FindingKind::ImpulseStrengthMissing { material } => format!(
+            "{material} has no lightning-impulse strength, so its short-term (AC) strength was used as a peak value; \
+             impulse strengths are usually higher, so the margin is conservative. Give the datasheet value as \
+             `impulse_strength_kv_per_mm` (peak) under `materials:`."
+        ),
         FindingKind::TripleJunction(j) => format!(
             "an electrode, a solid and a {} meet at ({} mm, {} mm); {}",
             if j.fluid_is_gas { "gas" } else { "liquid" },
@@ -463,6 +468,7 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
             mode: match case.operation.mode {
                 Mode::Static => "static",
                 Mode::Ac => "ac",
+                Mode::Impulse => "impulse",
             },
             frequency_hz: (case.operation.mode == Mode::Ac).then_some(case.operation.frequency_hz),
             values: case.operation.values.name(),

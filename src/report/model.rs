@@ -156,9 +156,9 @@ pub struct PartOut {
 /// `operation`
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct OperationOut {
-    /// `static` or `ac`.
+    /// `static`, `ac` or `impulse`.
     pub mode: &'static str,
-    /// AC frequency (null when static).
+    /// AC frequency (null unless ac).
     pub frequency_hz: Option<f64>,
     /// `rms` or `peak`.
     pub values: &'static str,

@@ -83,6 +83,9 @@ fn values_sentence(r: &CheckReport) -> String {
             r.values,
             if r.values == "rms" { " (energies are time averages)" } else { "" }
         ),
+        ("impulse", _) => "peak — lightning impulse (1.2/50 µs): every voltage, field and strength below is a peak \
+                           value"
+            .to_string(),
         _ => format!(
             "peak — static field: every voltage, field and strength below is an instantaneous (peak) value{}",
             if r.operation.stated { "" } else { " (no `operation:` given)" }
