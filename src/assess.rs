@@ -231,7 +231,14 @@ pub enum FindingKind {
         material: String,
     },
     /// An electrode, a solid and a gas or liquid meet.
-    TripleJunction(crate::discharge::Junction),
+    TripleJunction {
+        /// Where and how strongly.
+        junction: crate::discharge::Junction,
+        /// The electrode's name.
+        electrode: String,
+        /// The solid part's name (the finding's part is the gas or liquid).
+        solid: String,
+    },
     /// A user value lies outside the range published for its base material.
     ValueOutOfRange {
         /// Material name.
@@ -272,7 +279,7 @@ impl FindingKind {
             FindingKind::TownsendOnly { .. } => "townsend-only",
             FindingKind::FieldLineTruncated => "field-line-truncated",
             FindingKind::PdGridDependent { .. } => "pd-grid-dependent",
-            FindingKind::TripleJunction(_) => "triple-junction",
+            FindingKind::TripleJunction { .. } => "triple-junction",
             FindingKind::SurfaceStress { .. } => "surface-stress",
             FindingKind::ImpulseStrengthMissing { .. } => "impulse-strength-missing",
         }
@@ -288,7 +295,7 @@ impl FindingKind {
             | FindingKind::OperationNotStated
             | FindingKind::DipoleSaturation(_)
             | FindingKind::ImpulseStrengthMissing { .. } => Severity::Info,
-            FindingKind::TripleJunction(j) if !j.enhanced() => Severity::Info,
+            FindingKind::TripleJunction { junction, .. } if !junction.enhanced() => Severity::Info,
             _ => Severity::Warning,
         }
     }
@@ -542,7 +549,11 @@ pub fn assess(inp: &Inputs) -> Assessment {
     }
     findings.extend(surface_rule(case, layout, fields));
     findings.extend(junctions.iter().map(|j| Finding {
-        kind: FindingKind::TripleJunction(j.clone()),
+        kind: FindingKind::TripleJunction {
+            junction: j.clone(),
+            electrode: layout.electrodes[j.electrode].name.clone(),
+            solid: layout.regions[j.solid].name.clone(),
+        },
         part: Some(layout.regions[j.fluid].name.clone()),
     }));
     if !case.operation.stated {

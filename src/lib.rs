@@ -314,17 +314,16 @@ impl Prepared {
             }
             _ => None,
         };
-        let discharge = self.discharge(&solution.phi, &f);
+        // one sampler (edge values) for the inception search and the junctions
+        let sampler = fields::Sampler::new(&self.case, &self.grid, &self.layout, &solution.phi);
+        let discharge = discharge::inception(&self.case, &sampler, &f, &discharge::Config::default());
+        let junctions = discharge::triple_junctions(&self.case, &sampler);
         if let Some(g) = discharge.iter().find(|g| g.scale.is_some_and(|s| !s.is_finite())) {
             return Err(Error::NonFinite {
                 file: self.file.clone(),
                 what: format!("the inception level of {}", self.layout.regions[g.region].name),
             });
         }
-        let junctions = {
-            let sampler = fields::Sampler::new(&self.case, &self.grid, &self.layout, &solution.phi);
-            discharge::triple_junctions(&self.case, &sampler)
-        };
         let check = self.self_check(&f, &discharge, options);
         let assessment = assess::assess(&assess::Inputs {
             case: &self.case,

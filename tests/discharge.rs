@@ -192,6 +192,18 @@ stack:
     assert_eq!(p.pd_criterion, Some("streamer"));
 }
 
+/// The background's point peak and inception level of each run.
+fn peaks_and_levels(runs: &[CheckReport]) -> (Vec<f64>, Vec<f64>) {
+    let peaks = runs.iter().map(|r| part(r, "background").e_max_kv_per_mm).collect();
+    let levels = runs.iter().map(|r| part(r, "background").pd_inception_kv.unwrap()).collect();
+    (peaks, levels)
+}
+
+/// Largest over smallest.
+fn spread(v: &[f64]) -> f64 {
+    v.iter().copied().fold(f64::MIN, f64::max) / v.iter().copied().fold(f64::MAX, f64::min)
+}
+
 fn edge(refine: u32) -> CheckReport {
     run(&format!(
         "
@@ -216,11 +228,9 @@ parts:
 #[test]
 fn inception_at_a_sharp_edge_settles_while_the_peak_grows() {
     let runs: Vec<CheckReport> = [2, 4, 8].into_iter().map(edge).collect();
-    let peaks: Vec<f64> = runs.iter().map(|r| part(r, "background").e_max_kv_per_mm).collect();
-    let levels: Vec<f64> = runs.iter().map(|r| part(r, "background").pd_inception_kv.unwrap()).collect();
+    let (peaks, levels) = peaks_and_levels(&runs);
     assert!(peaks[1] > 1.15 * peaks[0] && peaks[2] > 1.15 * peaks[1], "peaks {peaks:?}");
-    let spread = levels.iter().copied().fold(f64::MIN, f64::max) / levels.iter().copied().fold(f64::MAX, f64::min);
-    assert!(spread < 1.03, "levels {levels:?}");
+    assert!(spread(&levels) < 1.03, "levels {levels:?}");
     for r in &runs {
         let at = part(r, "background").pd_inception_at_mm.unwrap();
         let corner = [[32.0, 20.0], [48.0, 20.0]].iter().any(|c| (at[0] - c[0]).hypot(at[1] - c[1]) < 0.01);
@@ -391,11 +401,9 @@ parts:
 #[test]
 fn inception_at_a_foil_end_settles() {
     let runs: Vec<CheckReport> = [1, 2, 4].into_iter().map(foil).collect();
-    let peaks: Vec<f64> = runs.iter().map(|r| part(r, "background").e_max_kv_per_mm).collect();
-    let levels: Vec<f64> = runs.iter().map(|r| part(r, "background").pd_inception_kv.unwrap()).collect();
+    let (peaks, levels) = peaks_and_levels(&runs);
     assert!(peaks[2] > 1.8 * peaks[0], "peaks {peaks:?}");
-    let spread = levels.iter().copied().fold(f64::MIN, f64::max) / levels.iter().copied().fold(f64::MAX, f64::min);
-    assert!(spread < 1.03, "levels {levels:?}");
+    assert!(spread(&levels) < 1.03, "levels {levels:?}");
     for r in &runs {
         assert!(!r.findings.iter().any(|f| f.code == "field-line-truncated"));
     }

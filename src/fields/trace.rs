@@ -146,40 +146,33 @@ fn half(
             }
             break [p[0] + h * d2[0], p[1] + h * d2[1]];
         };
+        // a direction's last point: on the boundary it left by, where that
+        // lies in a region
+        let finish = |mut out: Vec<([f64; 2], f64, u32)>, b: [f64; 2], end: End| {
+            let sb = sampler.at(b);
+            if let Inside::Region(r) = sb.inside {
+                out.push((b, sb.magnitude(), r));
+            }
+            (out, end)
+        };
+        if !inside_domain(q) {
+            return finish(out, last_inside(p, q, &inside_domain), End::Domain);
+        }
+        let sq = sampler.at(q);
         // The field reverses within the step: the line has reached a
         // conductor with no cells (a zero-thickness foil) or a point where
         // lines meet; it ends where the direction turns.
-        let ahead = |x: [f64; 2]| unit(sampler.at(x).e, sign).is_some_and(|d| d1[0] * d[0] + d1[1] * d[1] > 0.0);
-        if !ahead(q) {
-            let b = last_inside(p, q, &ahead);
-            let sb = sampler.at(b);
-            if let Inside::Region(r) = sb.inside {
-                out.push((b, sb.magnitude(), r));
-            }
-            let end = sampler.electrode_near(q).map_or(End::Stagnation, End::Electrode);
-            return (out, end);
+        let forward = |e: [f64; 2]| unit(e, sign).is_some_and(|d| d1[0] * d[0] + d1[1] * d[1] > 0.0);
+        if !forward(sq.e) {
+            let b = last_inside(p, q, &|x| forward(sampler.at(x).e));
+            return finish(out, b, sampler.electrode_near(q).map_or(End::Stagnation, End::Electrode));
         }
-        if !inside_domain(q) {
-            // the last point inside, on the domain's edge
-            let b = last_inside(p, q, &inside_domain);
-            let sb = sampler.at(b);
-            if let Inside::Region(r) = sb.inside {
-                out.push((b, sb.magnitude(), r));
-            }
-            return (out, End::Domain);
-        }
-        let sq = sampler.at(q);
         if !continues(sq.inside) {
-            let b = last_inside(p, q, &|x| continues(sampler.at(x).inside));
-            let sb = sampler.at(b);
-            if let Inside::Region(r) = sb.inside {
-                out.push((b, sb.magnitude(), r));
-            }
             let end = match sq.inside {
                 Inside::Electrode(e) => End::Electrode(e),
                 Inside::Region(r) => End::Region(r),
             };
-            return (out, end);
+            return finish(out, last_inside(p, q, &|x| continues(sampler.at(x).inside)), end);
         }
         let Inside::Region(r) = sq.inside else { unreachable!("a continuing point lies in a region") };
         length += h;

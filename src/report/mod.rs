@@ -261,8 +261,8 @@ pub fn message(kind: &FindingKind, values: crate::units::Values) -> String {
              impulse strengths are usually higher, so the margin is conservative. Give the datasheet value as \
              `impulse_strength_kv_per_mm` (peak) under `materials:`."
         ),
-        FindingKind::TripleJunction(j) => format!(
-            "an electrode, a solid and a {} meet at ({} mm, {} mm); {}",
+        FindingKind::TripleJunction { junction: j, electrode, solid } => format!(
+            "electrode {electrode}, solid {solid} and this {} meet at ({} mm, {} mm); {}",
             if j.fluid_is_gas { "gas" } else { "liquid" },
             g3(to_mm(j.at[0])),
             g3(to_mm(j.at[1])),
