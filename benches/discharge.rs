@@ -30,8 +30,9 @@ fn main() {
     let case = hvstack::case::parse(&text, &path).expect("case parses");
     let prepared = hvstack::prepare(case, &path, &options).expect("case prepares");
     let solution = prepared.solve(&options.solve).expect("case solves");
-    let fields = prepared.fields(&prepared.service, &solution.phi);
-    let (trace, inception) = fastest(|| prepared.discharge(&solution.phi, &fields));
+    let fields = prepared.fields(&prepared.service, &solution.phi, solution.quadrature.as_deref());
+    let (trace, inception) =
+        fastest(|| prepared.discharge(&prepared.sampler(&solution.phi, solution.quadrature.as_deref()), &fields));
     let lines: usize = inception.iter().map(|g| g.lines_traced).sum();
     println!(
         "{path}: {} nodes; check {:.3} s; inception search {:.3} s on the fine grid ({lines} lines) = {:.1} % of the \

@@ -34,6 +34,7 @@
 //! (from any set of electrode potentials) from a stencil.
 
 use crate::case::{ElectrodeKind, Geometry};
+use crate::coefficients::Complex64;
 use crate::coefficients::{Coefficient, Coefficients};
 use crate::grid::{CONDUCTOR, CellIx, Grid, Layout, NO_ELECTRODE, NodeIx};
 use crate::solve::Matrix;
@@ -249,6 +250,42 @@ impl Stencil<f64> {
     /// charge enclosed (C, or C/m when planar).
     pub fn outflux(&self, grid: &Grid, phi: &[f64], nodes: impl Iterator<Item = NodeIx>) -> f64 {
         nodes.map(|n| self.neighbours(grid, n).map(|(m, g)| g * (phi[n.0] - phi[m.0])).sum::<f64>()).sum()
+    }
+}
+
+impl Stencil<Complex64> {
+    /// Stored energy of a phasor φ′ + jφ″: `½·Σ_edges Re G·(Δφ′² + Δφ″²)`
+    /// (J, or J/m; in the case's rms/peak convention).
+    pub fn energy_phasor(&self, grid: &Grid, re: &[f64], im: &[f64]) -> f64 {
+        let real = Stencil { gx: self.re(&self.gx), gy: self.re(&self.gy), cross: Vec::new() };
+        let mut w = real.energy(grid, re) + real.energy(grid, im);
+        for &(a, b, g) in self.cross.iter().filter(|c| c.0 < c.1) {
+            let (dr, di) = (re[a as usize] - re[b as usize], im[a as usize] - im[b as usize]);
+            w += 0.5 * g.re * (dr * dr + di * di);
+        }
+        w
+    }
+
+    fn re(&self, g: &[Complex64]) -> Vec<f64> {
+        g.iter().map(|g| g.re).collect()
+    }
+
+    /// Net complex flux `Σ G·(φn − φm)` leaving a set of nodes for the
+    /// phasor φ′ + jφ″: the complex charge I/(jω) (C, or C/m).
+    pub fn outflux_phasor(
+        &self,
+        grid: &Grid,
+        re: &[f64],
+        im: &[f64],
+        nodes: impl Iterator<Item = NodeIx>,
+    ) -> Complex64 {
+        nodes
+            .map(|n| {
+                self.neighbours(grid, n)
+                    .map(|(m, g)| g * Complex64::new(re[n.0] - re[m.0], im[n.0] - im[m.0]))
+                    .sum::<Complex64>()
+            })
+            .sum()
     }
 }
 
@@ -531,6 +568,20 @@ impl Pattern {
             }
         });
         data
+    }
+
+    /// The complex matrix of a complex stencil.
+    pub fn complex_matrix(&self, grid: &Grid, stencil: &Stencil<Complex64>) -> crate::solve::ComplexMatrix {
+        let n = self.unknowns();
+        let values = self.values(grid, stencil);
+        let structure = Matrix::new((n, n), self.indptr.clone(), self.indices.clone(), vec![0.0; self.indices.len()]);
+        crate::solve::ComplexMatrix::new(structure, &values)
+    }
+
+    /// Nodal potentials (in-phase and quadrature) from a complex solution;
+    /// fixed potentials are real (in phase).
+    pub fn expand_phasor(&self, u: &crate::solve::ComplexVector, potentials: &[f64]) -> (Vec<f64>, Vec<f64>) {
+        (self.expand(&u.re, potentials), self.expand(&u.im, &vec![0.0; potentials.len()]))
     }
 
     /// The matrix of a real stencil.

@@ -230,6 +230,18 @@ pub enum FindingKind {
         /// Material name.
         material: String,
     },
+    /// AC: the part's conduction current is comparable to its displacement
+    /// current (σ/(ωε) between `CROSSOVER_RANGE`'s ends).
+    ResistiveCapacitiveCrossover {
+        /// σ/(ωε0ε′).
+        ratio: f64,
+    },
+    /// AC: the part conducts far more than it polarises (σ/(ωε) above
+    /// `CROSSOVER_RANGE`): it carries little stress and sheds it.
+    ConductionDominated {
+        /// σ/(ωε0ε′).
+        ratio: f64,
+    },
     /// An electrode, a solid and a gas or liquid meet.
     TripleJunction {
         /// Where and how strongly.
@@ -282,6 +294,8 @@ impl FindingKind {
             FindingKind::TripleJunction { .. } => "triple-junction",
             FindingKind::SurfaceStress { .. } => "surface-stress",
             FindingKind::ImpulseStrengthMissing { .. } => "impulse-strength-missing",
+            FindingKind::ResistiveCapacitiveCrossover { .. } => "resistive-capacitive-crossover",
+            FindingKind::ConductionDominated { .. } => "conduction-dominated",
         }
     }
 
@@ -294,7 +308,8 @@ impl FindingKind {
             FindingKind::GenericMaterial { .. }
             | FindingKind::OperationNotStated
             | FindingKind::DipoleSaturation(_)
-            | FindingKind::ImpulseStrengthMissing { .. } => Severity::Info,
+            | FindingKind::ImpulseStrengthMissing { .. }
+            | FindingKind::ConductionDominated { .. } => Severity::Info,
             FindingKind::TripleJunction { junction, .. } if !junction.enhanced() => Severity::Info,
             _ => Severity::Warning,
         }
@@ -451,6 +466,8 @@ pub struct Inputs<'a> {
     pub discharge: &'a [crate::discharge::GasInception],
     /// Where electrodes, solids and gases or liquids meet.
     pub junctions: &'a [crate::discharge::Junction],
+    /// AC cases: the regions' loss coefficients.
+    pub ac: Option<&'a crate::coefficients::AcLosses>,
 }
 
 /// Part verdict from its margin.
@@ -466,7 +483,7 @@ pub fn part_verdict(margin: Option<f64>, has_strength: bool, safety_factor: f64)
 
 /// Judges the solved case (see [`Inputs`]).
 pub fn assess(inp: &Inputs) -> Assessment {
-    let Inputs { case, layout, permittivity, fields, check, reference, discharge, junctions } = *inp;
+    let Inputs { case, layout, permittivity, fields, check, reference, discharge, junctions, ac } = *inp;
     let working = working_level(layout);
     let states = crate::coefficients::states(case, layout, crate::coefficients::Conditions::Service);
     let strengths = crate::coefficients::strengths(case, layout);
@@ -512,6 +529,7 @@ pub fn assess(inp: &Inputs) -> Assessment {
         }
         let state = states[r];
         kinds.extend(state_findings(m, &state, strength.is_some()));
+        kinds.extend(ac.and_then(|a| conduction_rule(a.conduction_ratio[r])));
         findings.extend(kinds.into_iter().map(|kind| Finding { kind, part: part.clone() }));
         let eps = permittivity[r];
         let e2 = f.e_max * f.e_max;
@@ -671,6 +689,23 @@ fn impulse_rule(case: &Case, m: &crate::materials::Material) -> Option<FindingKi
         && m.impulse_strength_v_per_m.is_none()
         && m.strength_v_per_m.is_some())
     .then(|| FindingKind::ImpulseStrengthMissing { material: m.name.clone() })
+}
+
+/// σ/(ωε) between these, conduction and displacement currents are
+/// comparable: the stress split depends on frequency and on the
+/// conductivity (common practice: a decade either side of the crossover
+/// σ = ωε).
+pub const CROSSOVER_RANGE: (f64, f64) = (0.1, 10.0);
+
+/// AC: where a part lies between capacitive and resistive behaviour.
+fn conduction_rule(ratio: f64) -> Option<FindingKind> {
+    if ratio > CROSSOVER_RANGE.1 {
+        Some(FindingKind::ConductionDominated { ratio })
+    } else if ratio >= CROSSOVER_RANGE.0 {
+        Some(FindingKind::ResistiveCapacitiveCrossover { ratio })
+    } else {
+        None
+    }
 }
 
 /// A part's peak against the self-check's coarser grids: singular (growing,

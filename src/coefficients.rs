@@ -49,6 +49,25 @@ pub trait Coefficient:
     fn limit_cross(kappa: Self, hx: Self, hy: Self, factor: f64) -> Self;
 }
 
+/// A complex relative admittivity κ = ε′ − j·(ε″ + σ/(ωε0)): the AC
+/// coefficient with losses (div(κ∇φ) = 0 is div((σ + jωε0ε*)∇φ) = 0
+/// divided by jωε0).
+pub use num_complex::Complex64;
+
+impl Coefficient for Complex64 {
+    fn real(x: f64) -> Complex64 {
+        Complex64::new(x, 0.0)
+    }
+
+    /// The real form's bound on magnitudes: |κ| ≤ factor·2·√(|hx|·|hy|),
+    /// keeping the phase.
+    fn limit_cross(kappa: Complex64, hx: Complex64, hy: Complex64, factor: f64) -> Complex64 {
+        let limit = factor * 2.0 * (hx.norm() * hy.norm()).sqrt();
+        let m = kappa.norm();
+        if m > limit { kappa * (limit / m) } else { kappa }
+    }
+}
+
 impl Coefficient for f64 {
     fn real(x: f64) -> f64 {
         x
@@ -128,6 +147,97 @@ pub fn permittivity(material: &Material, state: &State) -> f64 {
         None => host,
         Some(w) => materials::mix(host, materials::water_permittivity(state.temperature_c), w.volume_fraction, w.rule),
     }
+}
+
+/// The complex relative admittivity κ = ε′ − j·(ε″ + σ/(ωε0)) of a
+/// material at an AC state: ε′ as [`permittivity`] (absorbed water mixed
+/// in), ε″ the material's dielectric loss (Debye relaxation, or ε′·tan δ:
+/// the host's loss tangent carried over to the wet mixture), σ its
+/// conductivity at the state's temperature (without field dependence,
+/// which only DC conduction models). Water's own ionic conduction is not
+/// added: a wet material's losses are its measured `loss_tangent` or
+/// conductivity.
+pub fn admittivity(material: &Material, state: &State) -> Complex64 {
+    let eps1 = permittivity(material, state);
+    let host = material.permittivity_at(state.temperature_c, state.frequency_hz);
+    let eps2 = material.loss_factor_at(state.temperature_c, state.frequency_hz) * eps1 / host;
+    let omega = 2.0 * std::f64::consts::PI * state.frequency_hz;
+    let sigma = material.conduction.map_or(0.0, |c| c.at(state.temperature_c, 0.0));
+    let conduction = if omega > 0.0 { sigma / (omega * crate::units::EPSILON_0) } else { 0.0 };
+    Complex64::new(eps1, -(eps2 + conduction))
+}
+
+/// Below this spread of effective loss tangents (−Im κ / Re κ) between
+/// the regions of an AC case, its field is solved as lossless: the
+/// magnitudes then differ from the complex solution by about the square of
+/// the spread (below 1e-4 relative; a two-layer series stack gives
+/// ½·Δ²·w(1 − w)), far under the discretisation error, and the losses are
+/// evaluated from the real field, exact to first order.
+pub const LOSSLESS_SPREAD: f64 = 0.01;
+
+/// The complex admittivity coefficients of an AC case under `conditions`.
+pub fn admittivities(case: &Case, grid: &Grid, layout: &Layout, conditions: Conditions) -> Coefficients<Complex64> {
+    let region = states(case, layout, conditions)
+        .iter()
+        .zip(&layout.regions)
+        .map(|(s, r)| admittivity(&case.materials[r.material], s))
+        .collect();
+    Coefficients::new(grid, case.geometry, layout, region)
+}
+
+/// The loss coefficients of an AC evaluation, per region.
+#[derive(Debug, Clone, PartialEq)]
+pub struct AcLosses {
+    /// Angular frequency ω, rad/s.
+    pub omega: f64,
+    /// Effective loss factor ε″ + σ/(ωε0) of each region (relative: −Im κ).
+    pub loss_factor: Vec<f64>,
+    /// σ/(ωε0ε′) of each region: conduction against displacement current.
+    pub conduction_ratio: Vec<f64>,
+}
+
+/// The loss coefficients of an AC case at its service state, from the
+/// regions' admittivities `kappa`.
+pub fn ac_losses(case: &Case, layout: &Layout, kappa: &[Complex64]) -> AcLosses {
+    let omega = 2.0 * std::f64::consts::PI * case.operation.frequency_hz;
+    let states = states(case, layout, Conditions::Service);
+    let conduction_ratio = layout
+        .regions
+        .iter()
+        .zip(&states)
+        .zip(kappa)
+        .map(|((r, s), k)| {
+            let sigma = case.materials[r.material].conduction.map_or(0.0, |c| c.at(s.temperature_c, 0.0));
+            sigma / (omega * crate::units::EPSILON_0 * k.re)
+        })
+        .collect();
+    AcLosses { omega, loss_factor: kappa.iter().map(|k| -k.im).collect(), conduction_ratio }
+}
+
+/// The effective loss tangent −Im κ / Re κ of a coefficient.
+pub fn effective_loss_tangent(kappa: Complex64) -> f64 {
+    -kappa.im / kappa.re
+}
+
+/// True when the regions' effective loss tangents differ by more than
+/// [`LOSSLESS_SPREAD`] (regions that own cells only), so that the field
+/// needs the complex solve.
+pub fn needs_complex_solve(layout: &Layout, region: &[Complex64]) -> bool {
+    let mut present = vec![false; region.len()];
+    for &r in &layout.cell_region {
+        if let Some(p) = present.get_mut(r as usize) {
+            *p = true;
+        }
+    }
+    let tans = region.iter().zip(&present).filter(|(_, p)| **p).map(|(k, _)| effective_loss_tangent(*k));
+    let (lo, hi) = tans.fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), t| (a.min(t), b.max(t)));
+    hi - lo > LOSSLESS_SPREAD
+}
+
+/// The magnitudes |κ| of complex coefficients, blended as real ones: the
+/// operator whose multigrid hierarchy preconditions the complex solve.
+pub fn magnitudes(grid: &Grid, geometry: Geometry, layout: &Layout, region: &[Complex64]) -> Coefficients<f64> {
+    Coefficients::new(grid, geometry, layout, region.iter().map(|k| k.norm()).collect())
 }
 
 /// The breakdown strength of each region's material in the case's rms/peak

@@ -75,6 +75,60 @@ pub struct RegionField {
     /// model of fitted inclusions; 0 for nodal peaks). The mesh self-check
     /// never reports less.
     pub e_max_floor: f64,
+    /// ∫|E|² dV over the region (V²·m, or V² per metre of depth or axial
+    /// length as the case normalises): the loss integral.
+    pub e_squared_volume: f64,
+}
+
+/// The dielectric loss of one region (SI).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RegionLoss {
+    /// Largest loss density, W/m³ (at the region's peak field).
+    pub density_max: f64,
+    /// Loss of the region: W, or W per metre of depth or of axial length as
+    /// the case normalises.
+    pub total: f64,
+}
+
+/// The dielectric (and conduction) losses of an AC field: the density
+/// p = ω·ε0·ε″·|E|² with rms values, ½·ω·ε0·ε″·|E|² with peak values
+/// (ε″ the effective loss factor ε″ + σ/(ωε0); the dielectric-heating law,
+/// e.g. von Hippel, *Dielectrics and Waves*, 1954), its largest value per
+/// region (at the peak field: ε″ is uniform in a region) and its integral.
+pub fn losses(fields: &Fields, ac: &crate::coefficients::AcLosses, values: crate::units::Values) -> Losses {
+    let per_rms = match values {
+        crate::units::Values::Rms => 1.0,
+        crate::units::Values::Peak => 0.5,
+    };
+    let regions: Vec<RegionLoss> = fields
+        .regions
+        .iter()
+        .zip(&ac.loss_factor)
+        .map(|(r, &e2)| {
+            let k = per_rms * ac.omega * crate::units::EPSILON_0 * e2;
+            RegionLoss { density_max: k * r.e_max * r.e_max, total: k * r.e_squared_volume }
+        })
+        .collect();
+    Losses { total: regions.iter().map(|r| r.total).sum(), regions }
+}
+
+/// The losses of every region and of the case.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Losses {
+    /// Per region (layout order).
+    pub regions: Vec<RegionLoss>,
+    /// Sum over the regions (W, W/m).
+    pub total: f64,
+}
+
+/// The quadrature part of an AC solution with losses and the complex
+/// stencil it was solved with.
+#[derive(Debug, Clone, Copy)]
+pub struct Quadrature<'a> {
+    /// φ″ at every node, V.
+    pub phi: &'a [f64],
+    /// The complex stencil of the solve.
+    pub stencil: &'a Stencil<crate::coefficients::Complex64>,
 }
 
 /// One electrode after the solve (SI, normalised as the case says).
@@ -280,6 +334,12 @@ fn extensive_scale(n: Normalisation) -> f64 {
 /// Computes every field result from the nodal potential `phi`.
 /// `permittivity` is the relative permittivity of each region at the
 /// evaluation's state (from the coefficient stage).
+/// With `quadrature` (an AC solution with losses: φ = φ′ + jφ″) every
+/// magnitude is the phasor magnitude √(|E′|² + |E″|²), energies sum both
+/// parts, and charges are the in-phase part of the complex flux (Re Q, so
+/// that ½·Σ V·Q is still the stored energy). Fitted inclusions are not
+/// used for phasors (their interface values need the complex contrast);
+/// their nodal peaks stand.
 pub fn compute(
     case: &Case,
     grid: &Grid,
@@ -287,9 +347,11 @@ pub fn compute(
     stencil: &Stencil,
     permittivity: &[f64],
     phi: &[f64],
+    quadrature: Option<Quadrature>,
 ) -> Fields {
     let geo = case.geometry;
     let ev = boundary_corrected_edges(grid, layout, geo, phi);
+    let evq = quadrature.map(|q| boundary_corrected_edges(grid, layout, geo, q.phi));
     let (nx, ny) = (grid.nx(), grid.ny());
     // Peaks are recovered from cells a single material fills: a cell cut by
     // a curved interface carries a blend of both sides' fields. Regions with
@@ -300,7 +362,10 @@ pub fn compute(
     }
     // Fitted inclusions replace their own nodal peaks, and those of the
     // cells around them, by fit and interface values (see `inclusion`).
-    let (fitted, fitted_peaks) = inclusion::fitted(case, grid, layout, permittivity, phi);
+    let (fitted, fitted_peaks) = match quadrature {
+        None => inclusion::fitted(case, grid, layout, permittivity, phi),
+        Some(_) => (vec![false; layout.regions.len()], Vec::new()),
+    };
     let mut near_inclusion = vec![false; grid.cells()];
     let band = inclusion::BAND_CELLS as isize;
     for (c, &r) in layout.cell_region.iter().enumerate() {
@@ -337,6 +402,7 @@ pub fn compute(
     let mut cells = vec![0usize; nreg];
     let mut vol = vec![0.0; nreg];
     let mut e_vol = vec![0.0; nreg];
+    let mut e2_vol = vec![0.0; nreg];
     let mut energy_cells = 0.0;
     for j in 0..ny - 1 {
         for i in 0..nx - 1 {
@@ -347,21 +413,32 @@ pub fn compute(
             }
             let r = r as usize;
             let (x0, x1, hy) = (grid.x[i], grid.x[i + 1], grid.y[j + 1] - grid.y[j]);
-            let g = 0.5 * (ev.gx[j * (nx - 1) + i] + ev.gx[(j + 1) * (nx - 1) + i]);
-            let ey = 0.5 * (ev.gy[j * nx + i] + ev.gy[j * nx + i + 1]);
             let xc = 0.5 * (x0 + x1);
-            let ex = g / weight(geo, xc).unwrap_or(1.0);
             let v = cell_volume(grid, geo, c);
-            let e = (ex * ex + ey * ey).sqrt();
+            // (|E|², ∫|E|² dV) of one part of the solution in this cell
+            let part = |ev: &EdgeValues| {
+                let g = 0.5 * (ev.gx[j * (nx - 1) + i] + ev.gx[(j + 1) * (nx - 1) + i]);
+                let ey = 0.5 * (ev.gy[j * nx + i] + ev.gy[j * nx + i + 1]);
+                let ex = g / weight(geo, xc).unwrap_or(1.0);
+                // ∫E_r² dV in closed form for the 1/r profile of a log-form cell
+                let int_ex2 = match geo {
+                    Geometry::Axisymmetric if is_log_form(x0) => 2.0 * PI * hy * g * g / radial_weight(x0, x1),
+                    _ => ex * ex * v,
+                };
+                (ex * ex + ey * ey, int_ex2 + ey * ey * v)
+            };
+            let (mut e2, mut int_e2) = part(&ev);
+            if let Some(q) = &evq {
+                let (a, b) = part(q);
+                e2 += a;
+                int_e2 += b;
+            }
+            let e = e2.sqrt();
             cells[r] += 1;
             vol[r] += v;
             e_vol[r] += e * v;
-            // ∫E_r² dV in closed form for the 1/r profile of a log-form cell
-            let int_ex2 = match geo {
-                Geometry::Axisymmetric if is_log_form(x0) => 2.0 * PI * hy * g * g / radial_weight(x0, x1),
-                _ => ex * ex * v,
-            };
-            energy_cells += 0.5 * eps[r] * (int_ex2 + ey * ey * v);
+            e2_vol[r] += int_e2;
+            energy_cells += 0.5 * eps[r] * int_e2;
         }
     }
 
@@ -401,10 +478,13 @@ pub fn compute(
                     |e: usize| (j > 0 && peak_region_of(e, j - 1) == r) || (j + 1 < ny && peak_region_of(e, j) == r);
                 let in_v =
                     |e: usize| (i > 0 && peak_region_of(i - 1, e) == r) || (i + 1 < nx && peak_region_of(i, e) == r);
-                let gx = recover(&grid.x, i, |e| ev.gx[j * (nx - 1) + e], in_h);
-                let ey = recover(&grid.y, j, |e| ev.gy[e * nx + i], in_v);
-                let ex = weight(geo, grid.x[i]).map_or(0.0, |w| gx / w);
-                let e = (ex * ex + ey * ey).sqrt();
+                let squared = |ev: &EdgeValues| {
+                    let gx = recover(&grid.x, i, |e| ev.gx[j * (nx - 1) + e], in_h);
+                    let ey = recover(&grid.y, j, |e| ev.gy[e * nx + i], in_v);
+                    let ex = weight(geo, grid.x[i]).map_or(0.0, |w| gx / w);
+                    ex * ex + ey * ey
+                };
+                let e = (squared(&ev) + evq.as_ref().map_or(0.0, squared)).sqrt();
                 let r = r as usize;
                 // ties (within rounding) keep the first node in grid order, so
                 // uniform fields report a stable location
@@ -419,9 +499,15 @@ pub fn compute(
     // Surface field of curved electrodes where each grid line meets them,
     // and the fitted inclusions' values.
     let mut floor = vec![0.0f64; nreg];
-    let surface = smooth_surface_fields(case, grid, layout, surface_fields(grid, layout, phi))
-        .into_iter()
-        .map(|(v, at, r)| (v, at, r, SURFACE_FLOOR));
+    let mut raw = surface_fields(grid, layout, phi);
+    if let Some(q) = quadrature {
+        // the same crossings in the same order: combine the two parts
+        for (r, q) in raw.iter_mut().zip(surface_fields(grid, layout, q.phi)) {
+            r.0 = r.0.hypot(q.0);
+        }
+    }
+    let surface =
+        smooth_surface_fields(case, grid, layout, raw).into_iter().map(|(v, at, r)| (v, at, r, SURFACE_FLOOR));
     for (value, at, r, f) in surface.chain(fitted_peaks) {
         if value > e_max[r] * (1.0 + TIE) || e_max_at[r][0].is_nan() {
             e_max[r] = e_max[r].max(value);
@@ -439,6 +525,7 @@ pub fn compute(
             e_mean: if vol[r] > 0.0 { e_vol[r] / vol[r] } else { 0.0 },
             at_sharp_edge: e_max[r] > 0.0 && near_any(grid, e_max_at[r], &sharp),
             e_max_floor: floor[r],
+            e_squared_volume: extensive_scale(case.normalisation) * e2_vol[r],
         })
         .collect();
 
@@ -459,7 +546,11 @@ pub fn compute(
                 ElectrodeKind::Fixed { potential_v } => potential_v,
                 ElectrodeKind::Floating => 0.0,
             }),
-            charge: scale * stencil.outflux(grid, phi, nodes.iter().copied()),
+            charge: scale
+                * match quadrature {
+                    None => stencil.outflux(grid, phi, nodes.iter().copied()),
+                    Some(q) => q.stencil.outflux_phasor(grid, phi, q.phi, nodes.iter().copied()).re,
+                },
         })
         .collect();
     // Charges far below the largest one are solver round-off (a floating
@@ -471,7 +562,7 @@ pub fn compute(
         }
     }
 
-    let sampler = Sampler { grid, layout, geometry: geo, phi, ev };
+    let sampler = Sampler { grid, layout, geometry: geo, phi, ev, quadrature: quadrature.map(|q| q.phi).zip(evq) };
     let probes = case.probes.iter().map(|p| probe(&sampler, p.at)).collect();
     let lines = case.lines.iter().map(|l| line_field(&sampler, l.from, l.to, l.points)).collect();
     let e_scale = e_max.iter().copied().fold(0.0, f64::max);
@@ -479,7 +570,11 @@ pub fn compute(
     Fields {
         regions,
         electrodes,
-        energy: scale * stencil.energy(grid, phi),
+        energy: scale
+            * match quadrature {
+                None => stencil.energy(grid, phi),
+                Some(q) => q.stencil.energy_phasor(grid, phi, q.phi),
+            },
         energy_from_cells: scale * energy_cells,
         probes,
         gap: gap(grid, layout, &members),

@@ -133,12 +133,32 @@ pub enum Error {
 pub struct Evaluation {
     /// Which state.
     pub conditions: Conditions,
-    /// Relative permittivity of every region and cut cell.
+    /// Relative permittivity ε′ of every region and cut cell.
     pub coefficients: Coefficients<f64>,
-    /// Edge conductances.
+    /// Edge conductances of ε′.
     pub stencil: Stencil,
-    /// The linear system.
+    /// The real system: the one solved, or for an AC case with losses the
+    /// operator of the magnitudes |κ| whose multigrid hierarchy
+    /// preconditions the complex solve.
     pub system: System,
+    /// AC cases: each region's losses.
+    pub ac: Option<coefficients::AcLosses>,
+    /// AC cases whose losses change the field (loss tangents that differ by
+    /// more than `coefficients::LOSSLESS_SPREAD`): the complex system.
+    pub lossy: Option<Lossy>,
+}
+
+/// The complex system of an AC case with losses.
+#[derive(Debug, Clone)]
+pub struct Lossy {
+    /// Complex relative admittivity κ of every region and cut cell.
+    pub coefficients: Coefficients<coefficients::Complex64>,
+    /// Complex edge admittances.
+    pub stencil: Stencil<coefficients::Complex64>,
+    /// The complex symmetric matrix.
+    pub matrix: solve::ComplexMatrix,
+    /// Its right-hand side.
+    pub rhs: solve::ComplexVector,
 }
 
 /// A case made ready to solve: geometry (grid, layout, factors, pattern)
@@ -169,8 +189,10 @@ pub struct Prepared {
 /// The solved potential.
 #[derive(Debug, Clone)]
 pub struct Solution {
-    /// Potential at every node in V.
+    /// Potential at every node in V (the in-phase part of an AC phasor).
     pub phi: Vec<f64>,
+    /// AC with losses: the quadrature part of the phasor at every node, V.
+    pub quadrature: Option<Vec<f64>>,
     /// What the solver did.
     pub report: SolveReport,
     /// The dry-reference potential and its solve, when the case has one.
@@ -202,9 +224,22 @@ fn prepare_evaluations(case: Case, file: &str, grid: Grid, with_reference: bool)
         .map_err(|source| Error::Assemble { file: file.into(), source })?;
     let evaluation = |conditions: Conditions, coefficients: Coefficients<f64>, stencil: Stencil| {
         let system = pattern.system(&grid, &stencil, &potentials);
-        Evaluation { conditions, coefficients, stencil, system }
+        Evaluation { conditions, coefficients, stencil, system, ac: None, lossy: None }
     };
-    let service = evaluation(Conditions::Service, coefficients, stencil);
+    let mut service = evaluation(Conditions::Service, coefficients, stencil);
+    if case.operation.mode == case::Mode::Ac {
+        let kappa = coefficients::admittivities(&case, &grid, &layout, Conditions::Service);
+        service.ac = Some(coefficients::ac_losses(&case, &layout, &kappa.region));
+        if coefficients::needs_complex_solve(&layout, &kappa.region) {
+            let magnitude = coefficients::magnitudes(&grid, case.geometry, &layout, &kappa.region);
+            let stencil_m = Stencil::new(&grid, &layout, &factors, &magnitude);
+            service.system = pattern.system(&grid, &stencil_m, &potentials);
+            let stencil = Stencil::new(&grid, &layout, &factors, &kappa);
+            let matrix = pattern.complex_matrix(&grid, &stencil);
+            let rhs = solve::ComplexVector::from_values(&pattern.rhs(&grid, &stencil, &potentials));
+            service.lossy = Some(Lossy { coefficients: kappa, stencil, matrix, rhs });
+        }
+    }
     // A case whose materials do not change with its conditions (constant
     // permittivities in a warm environment) needs no second solve.
     let reference = if with_reference {
@@ -225,7 +260,17 @@ impl Prepared {
     pub fn solve(&self, config: &SolverConfig) -> Result<Solution, Error> {
         let fail = |source| Error::Solve { file: self.file.clone(), source };
         let mut solver = solve::Solver::new(&self.service.system.matrix, config);
-        let (u, report) = solver.solve(&self.service.system.rhs).map_err(fail)?;
+        let (u, quadrature, report) = match &self.service.lossy {
+            None => {
+                let (u, report) = solver.solve(&self.service.system.rhs).map_err(fail)?;
+                (u, None, report)
+            }
+            Some(lossy) => {
+                let (u, report) = solver.solve_complex(&lossy.matrix, &lossy.rhs, None).map_err(fail)?;
+                let (_, im) = self.pattern.expand_phasor(&u, &self.potentials);
+                (u.re, Some(im), report)
+            }
+        };
         let reference = match &self.reference {
             Some(r) => {
                 // The dry reference gives comparison peaks, which need far
@@ -238,12 +283,28 @@ impl Prepared {
             }
             None => None,
         };
-        Ok(Solution { phi: self.pattern.expand(&u, &self.potentials), report, reference })
+        Ok(Solution { phi: self.pattern.expand(&u, &self.potentials), quadrature, report, reference })
     }
 
-    /// Fields of a potential solved at an evaluation.
-    pub fn fields(&self, evaluation: &Evaluation, phi: &[f64]) -> fields::Fields {
-        fields::compute(&self.case, &self.grid, &self.layout, &evaluation.stencil, &evaluation.coefficients.region, phi)
+    /// Fields of a potential solved at an evaluation (`quadrature`: the
+    /// quadrature part of an AC solution with losses).
+    pub fn fields(&self, evaluation: &Evaluation, phi: &[f64], quadrature: Option<&[f64]>) -> fields::Fields {
+        let quadrature =
+            evaluation.lossy.as_ref().zip(quadrature).map(|(l, q)| fields::Quadrature { phi: q, stencil: &l.stencil });
+        fields::compute(
+            &self.case,
+            &self.grid,
+            &self.layout,
+            &evaluation.stencil,
+            &evaluation.coefficients.region,
+            phi,
+            quadrature,
+        )
+    }
+
+    /// The field sampler of a solution.
+    pub fn sampler<'a>(&'a self, phi: &'a [f64], quadrature: Option<&'a [f64]>) -> fields::Sampler<'a> {
+        fields::Sampler::phasor(&self.case, &self.grid, &self.layout, phi, quadrature)
     }
 
     /// The mesh self-check: the case solved again on grids √2 and 2 times
@@ -274,8 +335,8 @@ impl Prepared {
             let mut config = options.solve;
             config.options.rel_tol = config.options.rel_tol.max(SELF_CHECK_TOLERANCE);
             let s = p.solve(&config).ok()?;
-            let f = p.fields(&p.service, &s.phi);
-            let d = p.discharge(&s.phi, &f);
+            let f = p.fields(&p.service, &s.phi, s.quadrature.as_deref());
+            let d = p.discharge(&p.sampler(&s.phi, s.quadrature.as_deref()), &f);
             coarser.push((p.grid.nodes(), f.regions, d));
         }
         let nodes = [self.grid.nodes(), coarser[0].0, coarser[1].0];
@@ -291,9 +352,8 @@ impl Prepared {
 
     /// Partial-discharge inception of every gas part with a discharge
     /// model, from field lines of the solved potential.
-    pub fn discharge(&self, phi: &[f64], fields: &fields::Fields) -> Vec<discharge::GasInception> {
-        let sampler = fields::Sampler::new(&self.case, &self.grid, &self.layout, phi);
-        discharge::inception(&self.case, &sampler, fields, &discharge::Config::default())
+    pub fn discharge(&self, sampler: &fields::Sampler, fields: &fields::Fields) -> Vec<discharge::GasInception> {
+        discharge::inception(&self.case, sampler, fields, &discharge::Config::default())
     }
 
     /// Fields, inception, self-check and assessment of a solution; an error
@@ -303,20 +363,20 @@ impl Prepared {
             Some(what) => Err(Error::NonFinite { file: self.file.clone(), what }),
             None => Ok(()),
         };
-        let f = self.fields(&self.service, &solution.phi);
+        let f = self.fields(&self.service, &solution.phi, solution.quadrature.as_deref());
         non_finite(&f)?;
         let reference = match (&self.reference, &solution.reference) {
             (Some(ev), Some((phi, _))) => {
-                let rf = self.fields(ev, phi);
+                let rf = self.fields(ev, phi, None);
                 non_finite(&rf)?;
-                let rd = self.discharge(phi, &rf);
+                let rd = self.discharge(&self.sampler(phi, None), &rf);
                 Some((ev, rf, rd))
             }
             _ => None,
         };
         // one sampler (edge values) for the inception search and the junctions
-        let sampler = fields::Sampler::new(&self.case, &self.grid, &self.layout, &solution.phi);
-        let discharge = discharge::inception(&self.case, &sampler, &f, &discharge::Config::default());
+        let sampler = self.sampler(&solution.phi, solution.quadrature.as_deref());
+        let discharge = self.discharge(&sampler, &f);
         let junctions = discharge::triple_junctions(&self.case, &sampler);
         if let Some(g) = discharge.iter().find(|g| g.scale.is_some_and(|s| !s.is_finite())) {
             return Err(Error::NonFinite {
@@ -338,8 +398,10 @@ impl Prepared {
             }),
             discharge: &discharge,
             junctions: &junctions,
+            ac: self.service.ac.as_ref(),
         });
-        Ok(Evaluated { fields: f, discharge, check, assessment })
+        let losses = self.service.ac.as_ref().map(|ac| fields::losses(&f, ac, self.case.operation.values));
+        Ok(Evaluated { fields: f, discharge, check, assessment, losses })
     }
 
     /// The result model; `seconds` is the solve time measured by the caller.
@@ -356,6 +418,9 @@ impl Prepared {
                 mesh_check: e.check.as_ref(),
                 assessment: &e.assessment,
                 reference_solve: solution.reference.as_ref().map(|r| &r.1),
+                losses: e.losses.as_ref(),
+                ac: self.service.ac.as_ref(),
+                lossy: self.service.lossy.is_some(),
             },
             seconds,
         ))
@@ -373,6 +438,8 @@ pub struct Evaluated {
     pub check: Option<meshcheck::MeshCheck>,
     /// The judgement.
     pub assessment: assess::Assessment,
+    /// AC cases: the losses of every region.
+    pub losses: Option<fields::Losses>,
 }
 
 /// Runs the whole pipeline on case text (solve time reported as 0).

@@ -2,19 +2,10 @@
 //! series divider, uniform gaps, cavities, corona on a wire, pressure,
 //! sharp edges and triple junctions. Every check value names its source.
 
-use hvstack::report::{CheckReport, PartOut};
+mod common;
 
-fn run(yaml: &str) -> CheckReport {
-    hvstack::check(yaml, "test.yaml", &hvstack::Options::default()).expect("case evaluates")
-}
-
-fn part<'a>(r: &'a CheckReport, name: &str) -> &'a PartOut {
-    r.parts.iter().find(|p| p.name == name).unwrap_or_else(|| panic!("no part {name}"))
-}
-
-fn rel(a: f64, b: f64) -> f64 {
-    ((a - b) / b).abs()
-}
+use common::{part, rel, run};
+use hvstack::report::CheckReport;
 
 fn has(r: &CheckReport, code: &str, part: &str) -> bool {
     r.findings.iter().any(|f| f.code == code && f.part.as_deref() == Some(part))

@@ -3,20 +3,11 @@
 //! convention and the dipole-alignment check. Every check value names its
 //! source beside it.
 
-use hvstack::report::{CheckReport, PartOut};
+mod common;
+
+use common::{part, rel, run};
+use hvstack::report::CheckReport;
 use proptest::prelude::*;
-
-fn run(yaml: &str) -> CheckReport {
-    hvstack::check(yaml, "service.yaml", &hvstack::Options::default()).expect("case evaluates")
-}
-
-fn part<'a>(r: &'a CheckReport, name: &str) -> &'a PartOut {
-    r.parts.iter().find(|p| p.name == name).unwrap_or_else(|| panic!("no part {name}"))
-}
-
-fn rel(a: f64, b: f64) -> f64 {
-    ((a - b) / b).abs()
-}
 
 /// A dry 1 mm film of εr 2.3 over 1 mm of an εr 3.6 host holding 5 vol%
 /// water at 20 °C, 10 kV across: the wet layer's permittivity rises to 4.670

@@ -58,8 +58,10 @@ fn multigrid_and_jacobi_give_the_same_results_on_every_demo_case() {
         let p = path.to_str().unwrap();
         let amg = report(p, PreconditionerChoice::Amg(AmgOptions::default()));
         let jac = report(p, PreconditionerChoice::Jacobi);
-        assert!(amg["solve"]["method"].as_str().unwrap().starts_with("pcg+amg"), "{p}");
-        assert!(jac["solve"]["method"].as_str().unwrap().starts_with("pcg+jacobi"), "{p}");
+        // real systems by CG, AC with losses by COCG
+        let method = |r: &serde_json::Value| r["solve"]["method"].as_str().unwrap().to_string();
+        assert!(["pcg+amg", "cocg+amg"].iter().any(|m| method(&amg).starts_with(m)), "{p}");
+        assert!(["pcg+jacobi", "cocg+jacobi"].iter().any(|m| method(&jac).starts_with(m)), "{p}");
         agree(&amg, &jac, 1e-6, "");
     }
 }

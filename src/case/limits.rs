@@ -61,6 +61,18 @@ pub const MAX_STRENGTH_KV_PER_MM: f64 = 1e4;
 pub const MIN_STRENGTH_KV_PER_MM: f64 = 1e-3;
 /// Largest loss tangent.
 pub const MAX_LOSS_TANGENT: f64 = 100.0;
+/// Conductivities accepted, S/m: from the best insulators (about 1e-20)
+/// to semiconducting screens (about 1e3).
+pub const CONDUCTIVITY_RANGE_S_PER_M: (f64, f64) = (1e-22, 1e4);
+/// Temperature coefficients α of conductivity accepted, 1/K (insulation
+/// lies near 0.02–0.15 /K, from memory).
+pub const CONDUCTIVITY_TEMPERATURE_RANGE_PER_K: (f64, f64) = (-0.5, 0.5);
+/// Field coefficients β of conductivity accepted, mm/kV (XLPE near
+/// 0.03–0.1 mm/kV, from memory).
+pub const CONDUCTIVITY_FIELD_RANGE_MM_PER_KV: (f64, f64) = (0.0, 2.0);
+/// Thermal conductivities accepted, W/(m·K) (gases about 0.01, aluminium
+/// nitride about 300).
+pub const THERMAL_CONDUCTIVITY_RANGE_W_PER_M_K: (f64, f64) = (1e-3, 500.0);
 /// Temperatures accepted, °C (cryogenic gas insulation aside, insulation
 /// runs between these; the water fit holds over 0–100 °C only).
 pub const TEMPERATURE_RANGE_C: (f64, f64) = (-100.0, 400.0);

@@ -247,6 +247,16 @@ pub struct MaterialFile {
     pub townsend: Option<TownsendFile>,
     /// Streamer constants of a gas.
     pub streamer: Option<StreamerFile>,
+    /// Volume conductivity σ0 in S/m at `reference_temperature_c`.
+    pub conductivity_s_per_m: Option<f64>,
+    /// Temperature at which `conductivity_s_per_m` holds, °C (default 20).
+    pub reference_temperature_c: Option<f64>,
+    /// α in σ = σ0·exp(α·(T − T_ref))·exp(β·E), 1/K.
+    pub conductivity_temperature_per_k: Option<f64>,
+    /// β in σ = σ0·exp(α·(T − T_ref))·exp(β·E), mm/kV (default 0).
+    pub conductivity_field_mm_per_kv: Option<f64>,
+    /// Thermal conductivity in W/(m·K).
+    pub thermal_conductivity_w_per_m_k: Option<f64>,
 }
 
 /// `class:` values.
@@ -517,6 +527,11 @@ pub const KNOWN_KEYS: &[(&str, &[&str])] = &[
             "townsend",
             "streamer",
             "impulse_strength_kv_per_mm",
+            "conductivity_s_per_m",
+            "reference_temperature_c",
+            "conductivity_temperature_per_k",
+            "conductivity_field_mm_per_kv",
+            "thermal_conductivity_w_per_m_k",
         ],
     ),
     ("materials.*.townsend", &["a_per_pa_m", "b_v_per_pa_m", "gamma"]),

@@ -198,6 +198,18 @@ impl Ctx<'_> {
         true
     }
 
+    /// A finite value within `range` (inclusive), named `what` in `unit`.
+    fn within(&mut self, key: &str, v: f64, range: (f64, f64), what: &str, unit: &str) -> bool {
+        if !self.finite(key, v) {
+            return false;
+        }
+        if !(range.0..=range.1).contains(&v) {
+            self.err(key, format!("{what} {} {unit} is outside {} to {} {unit}", num(v), num(range.0), num(range.1)));
+            return false;
+        }
+        true
+    }
+
     /// A percentage from 0 to 100.
     fn percent(&mut self, key: &str, v: f64) -> bool {
         if !self.finite(key, v) {
@@ -455,7 +467,12 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
         || f.debye.is_some()
         || f.townsend.is_some()
         || f.impulse_strength_kv_per_mm.is_some()
-        || f.streamer.is_some();
+        || f.streamer.is_some()
+        || f.conductivity_s_per_m.is_some()
+        || f.reference_temperature_c.is_some()
+        || f.conductivity_temperature_per_k.is_some()
+        || f.conductivity_field_mm_per_kv.is_some()
+        || f.thermal_conductivity_w_per_m_k.is_some();
     let source = match (&f.source, own_values, base) {
         (Some(s), _, _) if !s.trim().is_empty() => match source_text(s) {
             Ok(s) => s,
@@ -501,6 +518,21 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
     }
     let gas = gas_model(ctx, &key, f, base, class);
     ok &= gas.is_ok();
+    let conduction = conduction(ctx, &key, f, base);
+    ok &= conduction.is_ok();
+    let thermal = match f.thermal_conductivity_w_per_m_k {
+        Some(k) => {
+            ok &= ctx.within(
+                &format!("{key}.thermal_conductivity_w_per_m_k"),
+                k,
+                limits::THERMAL_CONDUCTIVITY_RANGE_W_PER_M_K,
+                "thermal conductivity",
+                "W/(m·K)",
+            );
+            Some(k)
+        }
+        None => base.map(|b| b.thermal_conductivity_w_per_m_k),
+    };
     ok.then(|| Material {
         name: name.to_string(),
         class,
@@ -521,7 +553,91 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
         generic: !own_values,
         out_of_range,
         gas: gas.ok().flatten(),
+        conduction: conduction.ok().flatten(),
+        thermal_conductivity_w_per_m_k: thermal,
     })
+}
+
+/// The volume conduction of a user material: its own keys over its base's
+/// values (σ0 at 20 °C and the base's coefficients).
+fn conduction(
+    ctx: &mut Ctx,
+    key: &str,
+    f: &MaterialFile,
+    base: Option<&materials::LibraryEntry>,
+) -> Result<Option<materials::Conduction>, ()> {
+    let inherited = base.and_then(|b| b.conduction).map(|c| materials::Conduction {
+        sigma0_s_per_m: c.sigma_s_per_m,
+        reference_temperature_c: materials::REFERENCE_TEMPERATURE_C,
+        alpha_per_k: c.temperature_per_k,
+        beta_m_per_v: c.field_mm_per_kv / units::kv_per_mm(1.0),
+    });
+    let coefficients_given = f.reference_temperature_c.is_some()
+        || f.conductivity_temperature_per_k.is_some()
+        || f.conductivity_field_mm_per_kv.is_some();
+    let Some(sigma0) = f.conductivity_s_per_m.or_else(|| {
+        // a base's σ0 holds at its own reference temperature only
+        if f.reference_temperature_c.is_some() { None } else { inherited.map(|c| c.sigma0_s_per_m) }
+    }) else {
+        if coefficients_given {
+            ctx.err(
+                &format!("{key}.conductivity_s_per_m"),
+                "conductivity coefficients need the conductivity they modify: add `conductivity_s_per_m` (S/m at \
+                 `reference_temperature_c`)",
+            );
+            return Err(());
+        }
+        return Ok(None);
+    };
+    let mut ok = true;
+    if f.conductivity_s_per_m.is_some() {
+        ok &= ctx.within(
+            &format!("{key}.conductivity_s_per_m"),
+            sigma0,
+            limits::CONDUCTIVITY_RANGE_S_PER_M,
+            "conductivity",
+            "S/m",
+        );
+    }
+    let t_ref = f.reference_temperature_c.unwrap_or(materials::REFERENCE_TEMPERATURE_C);
+    if f.reference_temperature_c.is_some() {
+        ok &= ctx.temperature(&format!("{key}.reference_temperature_c"), t_ref);
+    }
+    let alpha = match f.conductivity_temperature_per_k {
+        Some(a) => {
+            ok &= ctx.within(
+                &format!("{key}.conductivity_temperature_per_k"),
+                a,
+                limits::CONDUCTIVITY_TEMPERATURE_RANGE_PER_K,
+                "temperature coefficient of conductivity",
+                "1/K",
+            );
+            a
+        }
+        None => inherited.map_or(0.0, |c| c.alpha_per_k),
+    };
+    let beta = match f.conductivity_field_mm_per_kv {
+        Some(b) => {
+            ok &= ctx.within(
+                &format!("{key}.conductivity_field_mm_per_kv"),
+                b,
+                limits::CONDUCTIVITY_FIELD_RANGE_MM_PER_KV,
+                "field coefficient of conductivity",
+                "mm/kV",
+            );
+            b / units::kv_per_mm(1.0)
+        }
+        None => inherited.map_or(0.0, |c| c.beta_m_per_v),
+    };
+    if !ok {
+        return Err(());
+    }
+    Ok(Some(materials::Conduction {
+        sigma0_s_per_m: sigma0,
+        reference_temperature_c: t_ref,
+        alpha_per_k: alpha,
+        beta_m_per_v: beta,
+    }))
 }
 
 /// The discharge model of a user material: its own `townsend:` and

@@ -36,6 +36,14 @@ impl Sample {
 /// bilinear in the cell that holds the point, each field component linear
 /// between the two cell edges along its direction (the edge values of the
 /// module docs, second order at edge midpoints). Built once per solution.
+///
+/// An AC solution with losses is a phasor φ′ + jφ″ (in-phase and
+/// quadrature parts); then a sample's field is the phasor magnitude
+/// |E| = √(|E′|² + |E″|²) (in the case's rms/peak convention: exact as an
+/// rms value, an upper bound of the instantaneous peak, reached when the
+/// field is linearly polarised), directed along the axis of the field's
+/// ellipse (the direction of its largest instantaneous value), and the
+/// potential is the phasor magnitude signed as its in-phase part.
 #[derive(Debug, Clone)]
 pub struct Sampler<'a> {
     pub(super) grid: &'a Grid,
@@ -43,6 +51,26 @@ pub struct Sampler<'a> {
     pub(super) geometry: Geometry,
     pub(super) phi: &'a [f64],
     pub(super) ev: EdgeValues,
+    /// The quadrature part of a phasor solution and its edge values.
+    pub(super) quadrature: Option<(&'a [f64], EdgeValues)>,
+}
+
+/// The axis of the ellipse traced by Re((a + j·b)·e^{jωt}): the
+/// instantaneous vector of largest magnitude, a·cos θ + b·sin θ with
+/// tan 2θ = 2a·b/(|a|² − |b|²), scaled to the phasor magnitude
+/// √(|a|² + |b|²) and signed to point along `a`.
+pub fn ellipse_axis(a: [f64; 2], b: [f64; 2]) -> [f64; 2] {
+    let (aa, bb, ab) = (a[0] * a[0] + a[1] * a[1], b[0] * b[0] + b[1] * b[1], a[0] * b[0] + a[1] * b[1]);
+    let theta = 0.5 * (2.0 * ab).atan2(aa - bb);
+    let (c, s) = (theta.cos(), theta.sin());
+    let v = [a[0] * c + b[0] * s, a[1] * c + b[1] * s];
+    let n = v[0].hypot(v[1]);
+    if n == 0.0 {
+        return [0.0, 0.0];
+    }
+    let sign = if v[0] * a[0] + v[1] * a[1] < 0.0 { -1.0 } else { 1.0 };
+    let m = (aa + bb).sqrt() * sign / n;
+    [v[0] * m, v[1] * m]
 }
 
 impl<'a> Sampler<'a> {
@@ -54,7 +82,56 @@ impl<'a> Sampler<'a> {
             geometry: case.geometry,
             phi,
             ev: boundary_corrected_edges(grid, layout, case.geometry, phi),
+            quadrature: None,
         }
+    }
+
+    /// Prepares the edge values of a phasor φ′ + jφ″ (`quadrature` = φ″;
+    /// `None` for a real solution).
+    pub fn phasor(
+        case: &Case,
+        grid: &'a Grid,
+        layout: &'a Layout,
+        phi: &'a [f64],
+        quadrature: Option<&'a [f64]>,
+    ) -> Self {
+        let mut s = Sampler::new(case, grid, layout, phi);
+        s.quadrature = quadrature.map(|q| (q, boundary_corrected_edges(grid, layout, case.geometry, q)));
+        s
+    }
+
+    /// The in-phase and (for a phasor) quadrature field components at `at`,
+    /// V/m, and the cell holding it.
+    pub fn parts(&self, at: [f64; 2]) -> ([f64; 2], Option<[f64; 2]>) {
+        let c = self.cell_of(at);
+        let e = self.field_in(c, at, &self.ev);
+        (e, self.quadrature.as_ref().map(|(_, q)| self.field_in(c, at, q)))
+    }
+
+    fn cell_of(&self, at: [f64; 2]) -> crate::grid::CellIx {
+        let (grid, layout) = (self.grid, self.layout);
+        grid.cells_touching(at).find(|c| layout.cell_region[c.0] != CONDUCTOR).unwrap_or_else(|| grid.locate(at))
+    }
+
+    fn field_in(&self, c: crate::grid::CellIx, at: [f64; 2], ev: &EdgeValues) -> [f64; 2] {
+        let grid = self.grid;
+        let (i, j) = grid.cell_ij(c);
+        let nx = grid.nx();
+        let s = ((at[0] - grid.x[i]) / (grid.x[i + 1] - grid.x[i])).clamp(0.0, 1.0);
+        let t = ((at[1] - grid.y[j]) / (grid.y[j + 1] - grid.y[j])).clamp(0.0, 1.0);
+        let g = (1.0 - t) * ev.gx[j * (nx - 1) + i] + t * ev.gx[(j + 1) * (nx - 1) + i];
+        let ex = weight(self.geometry, at[0]).map_or(0.0, |w| g / w);
+        let ey = (1.0 - s) * ev.gy[j * nx + i] + s * ev.gy[j * nx + i + 1];
+        [ex, ey]
+    }
+
+    fn potential_in(&self, c: crate::grid::CellIx, at: [f64; 2], phi: &[f64]) -> f64 {
+        let grid = self.grid;
+        let (i, j) = grid.cell_ij(c);
+        let s = ((at[0] - grid.x[i]) / (grid.x[i + 1] - grid.x[i])).clamp(0.0, 1.0);
+        let t = ((at[1] - grid.y[j]) / (grid.y[j + 1] - grid.y[j])).clamp(0.0, 1.0);
+        let [a, b, cc, d] = grid.cell_nodes(c).map(|n| phi[n.0]);
+        (1.0 - t) * ((1.0 - s) * a + s * b) + t * ((1.0 - s) * cc + s * d)
     }
 
     /// The field at `at` (m); points outside the domain are clamped to it.
@@ -63,18 +140,18 @@ impl<'a> Sampler<'a> {
     /// side: of the cells that touch it, the first that is not inside an
     /// electrode.
     pub fn at(&self, at: [f64; 2]) -> Sample {
-        let (grid, layout, phi, ev) = (self.grid, self.layout, self.phi, &self.ev);
-        let c =
-            grid.cells_touching(at).find(|c| layout.cell_region[c.0] != CONDUCTOR).unwrap_or_else(|| grid.locate(at));
-        let (i, j) = grid.cell_ij(c);
-        let nx = grid.nx();
-        let s = ((at[0] - grid.x[i]) / (grid.x[i + 1] - grid.x[i])).clamp(0.0, 1.0);
-        let t = ((at[1] - grid.y[j]) / (grid.y[j + 1] - grid.y[j])).clamp(0.0, 1.0);
-        let [a, b, cc, d] = grid.cell_nodes(c).map(|n| phi[n.0]);
-        let potential = (1.0 - t) * ((1.0 - s) * a + s * b) + t * ((1.0 - s) * cc + s * d);
-        let g = (1.0 - t) * ev.gx[j * (nx - 1) + i] + t * ev.gx[(j + 1) * (nx - 1) + i];
-        let ex = weight(self.geometry, at[0]).map_or(0.0, |w| g / w);
-        let ey = (1.0 - s) * ev.gy[j * nx + i] + s * ev.gy[j * nx + i + 1];
+        let (grid, layout) = (self.grid, self.layout);
+        let c = self.cell_of(at);
+        let in_phase = self.potential_in(c, at, self.phi);
+        let e = self.field_in(c, at, &self.ev);
+        let (potential, [ex, ey]) = match &self.quadrature {
+            None => (in_phase, e),
+            Some((q, qev)) => {
+                let quad = self.potential_in(c, at, q);
+                let sign = if in_phase < 0.0 { -1.0 } else { 1.0 };
+                (sign * in_phase.hypot(quad), ellipse_axis(e, self.field_in(c, at, qev)))
+            }
+        };
         let r = layout.cell_region[c.0];
         let inside = if r == CONDUCTOR {
             Inside::Electrode(layout.node_electrode[grid.cell_nodes(c)[0].0])

@@ -72,6 +72,9 @@ pub(super) fn surfaces(
         let e_t = if e_t < floor { 0.0 } else { e_t };
         offer_to(&mut out, regions, e_t, at)
     };
+    // |value| of an edge, both parts of a phasor combined
+    let quadrature = sampler.quadrature.as_ref().map(|q| &q.1);
+    let edge = |value: &dyn Fn(&EdgeValues) -> f64| value(ev).hypot(quadrature.map_or(0.0, value));
     let region = |i: usize, j: usize| {
         let c = grid.cell(i, j).0;
         if cut[c] { CONDUCTOR } else { layout.cell_region[c] }
@@ -81,7 +84,7 @@ pub(super) fn surfaces(
         for i in 0..nx - 1 {
             if let Some(p) = pair(region(i, j - 1), region(i, j)) {
                 let xm = 0.5 * (grid.x[i] + grid.x[i + 1]);
-                let e = weight(case.geometry, xm).map_or(0.0, |w| ev.gx[j * (nx - 1) + i] / w).abs();
+                let e = weight(case.geometry, xm).map_or(0.0, |w| edge(&|v| v.gx[j * (nx - 1) + i]) / w);
                 offer(p, e, [xm, grid.y[j]]);
             }
         }
@@ -91,7 +94,7 @@ pub(super) fn surfaces(
         for i in 1..nx - 1 {
             if let Some(p) = pair(region(i - 1, j), region(i, j)) {
                 let ym = 0.5 * (grid.y[j] + grid.y[j + 1]);
-                offer(p, ev.gy[j * nx + i].abs(), [grid.x[i], ym]);
+                offer(p, edge(&|v| v.gy[j * nx + i]), [grid.x[i], ym]);
             }
         }
     }
@@ -105,10 +108,12 @@ pub(super) fn surfaces(
         let Some(p) = pair(a, b) else { continue };
         let (i, j) = grid.cell_ij(crate::grid::CellIx(c.cell as usize));
         let centre = [0.5 * (grid.x[i] + grid.x[i + 1]), 0.5 * (grid.y[j] + grid.y[j + 1])];
-        let e = sampler.at(centre).e;
-        let en = e[0] * n[0] + e[1] * n[1];
-        let t = [e[0] - en * n[0], e[1] - en * n[1]];
-        offer(p, t[0].hypot(t[1]), centre);
+        let tangential = |e: [f64; 2]| {
+            let en = e[0] * n[0] + e[1] * n[1];
+            (e[0] - en * n[0]).hypot(e[1] - en * n[1])
+        };
+        let (e, q) = sampler.parts(centre);
+        offer(p, tangential(e).hypot(q.map_or(0.0, tangential)), centre);
     }
     out
 }

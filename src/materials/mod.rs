@@ -60,7 +60,43 @@ pub struct LibraryEntry {
     pub permittivity_range: (f64, f64),
     /// Range of short-term strength in kV/mm published for it.
     pub strength_range: Option<(f64, f64)>,
+    /// Volume conductivity at 20 °C and its temperature and field
+    /// coefficients (DC conduction and AC conduction losses).
+    pub conduction: Option<LibraryConduction>,
+    /// Thermal conductivity in W/(m·K).
+    pub thermal_conductivity_w_per_m_k: f64,
+    /// Where the conduction and thermal values come from.
+    pub conduction_source: &'static str,
 }
+
+/// Conduction values of a library entry, in the units of the case file.
+#[derive(Debug, Clone, Copy)]
+pub struct LibraryConduction {
+    /// σ0 at 20 °C, S/m.
+    pub sigma_s_per_m: f64,
+    /// α in σ = σ0·exp(α·(T − 20 °C)), 1/K.
+    pub temperature_per_k: f64,
+    /// β in σ ∝ exp(β·E), mm/kV.
+    pub field_mm_per_kv: f64,
+}
+
+/// Conductivities of insulation scatter by orders of magnitude with
+/// formulation, moisture, ageing and the time after energising (the
+/// absorption current); these are screening values only.
+const CONDUCTION_FROM_MEMORY: &str = "conductivity and thermal conductivity: typical values, from memory — verify \
+                                      with measurements of the material";
+
+/// Thermal conductivity from the thermal resistivity of IEC 60287-2-1
+/// (2015), table 1 (3.5 K·m/W for PE, XLPE and EPR, 5.0 K·m/W for impregnated
+/// paper); conductivity from memory.
+const THERMAL_IEC_60287: &str = "thermal conductivity from the thermal resistivity of IEC 60287-2-1 (2015) table 1; \
+                                 conductivity and its coefficients typical values, from memory — verify with \
+                                 measurements of the material";
+
+/// Pure water's conductivity from its self-ionisation (0.055 µS/cm at
+/// 25 °C, common practice for ultrapure water).
+const WATER_CONDUCTION: &str = "pure water 5.5 µS/m (self-ionisation, common practice for ultrapure water); \
+                                service water conducts far more; thermal conductivity 0.6 W/(m·K) from memory";
 
 const FROM_MEMORY: &str = "typical value, from memory — verify with the datasheet";
 
@@ -75,6 +111,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: Some(10.0),
         density_kg_per_m3: 1.204,
         loss_tangent: Some(0.0),
+        conduction: Some(LibraryConduction { sigma_s_per_m: 1e-14, temperature_per_k: 0.0, field_mm_per_kv: 0.0 }),
+        thermal_conductivity_w_per_m_k: 0.026,
+        conduction_source: CONDUCTION_FROM_MEMORY,
         source: "strength ≈3 kV/mm for centimetre gaps at 1 bar and 20 °C (Glossary of Meteorology, \
                  American Meteorological Society, 'electrical breakdown'); short gaps withstand more \
                  (Paschen); permittivity from memory",
@@ -90,6 +129,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: None,
         density_kg_per_m3: 1.165,
         loss_tangent: Some(0.0),
+        conduction: Some(LibraryConduction { sigma_s_per_m: 1e-14, temperature_per_k: 0.0, field_mm_per_kv: 0.0 }),
+        thermal_conductivity_w_per_m_k: 0.026,
+        conduction_source: CONDUCTION_FROM_MEMORY,
         source: "about 1.0–1.15 × air at 1 bar; typical value, from memory — verify",
         permittivity_range: (1.0, 1.001),
         strength_range: Some((2.5, 10.0)),
@@ -103,6 +145,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: None,
         density_kg_per_m3: 6.1,
         loss_tangent: Some(0.0),
+        conduction: Some(LibraryConduction { sigma_s_per_m: 1e-14, temperature_per_k: 0.0, field_mm_per_kv: 0.0 }),
+        thermal_conductivity_w_per_m_k: 0.013,
+        conduction_source: CONDUCTION_FROM_MEMORY,
         source: "critical E/p ≈ 8.9 kV/(mm·bar), here at 1 bar absolute; scale with pressure; \
                  typical value, from memory — verify",
         permittivity_range: (1.0, 1.003),
@@ -117,6 +162,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: Some(2.5),
         density_kg_per_m3: 880.0,
         loss_tangent: Some(0.005),
+        conduction: Some(LibraryConduction { sigma_s_per_m: 1e-13, temperature_per_k: 0.06, field_mm_per_kv: 0.0 }),
+        thermal_conductivity_w_per_m_k: 0.13,
+        conduction_source: CONDUCTION_FROM_MEMORY,
         source: "IEC 60156 2.5 mm test cell: new treated oil > 70 kV (28 kV/mm), below 30 kV \
                  (12 kV/mm) it needs treatment; the conservative 12 kV/mm is used because large \
                  oil volumes withstand less than the test cell; permittivity from memory",
@@ -132,6 +180,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: Some(2.5),
         density_kg_per_m3: 920.0,
         loss_tangent: Some(0.02),
+        conduction: Some(LibraryConduction { sigma_s_per_m: 1e-12, temperature_per_k: 0.06, field_mm_per_kv: 0.0 }),
+        thermal_conductivity_w_per_m_k: 0.17,
+        conduction_source: CONDUCTION_FROM_MEMORY,
         source: "breakdown voltage similar to mineral oil in the same test cell (Jing et al., IEEE \
                  Trans. Dielectr. Electr. Insul., 2014); taken equal to mineral-oil; permittivity \
                  from memory",
@@ -147,6 +198,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: None,
         density_kg_per_m3: 1100.0,
         loss_tangent: Some(0.003),
+        conduction: Some(LibraryConduction { sigma_s_per_m: 1e-14, temperature_per_k: 0.1, field_mm_per_kv: 0.0 }),
+        thermal_conductivity_w_per_m_k: 0.2,
+        conduction_source: THERMAL_IEC_60287,
         source: FROM_MEMORY,
         permittivity_range: (3.0, 4.0),
         strength_range: Some((20.0, 80.0)),
@@ -160,6 +214,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: Some(1.5),
         density_kg_per_m3: 1200.0,
         loss_tangent: Some(0.005),
+        conduction: Some(LibraryConduction { sigma_s_per_m: 1e-14, temperature_per_k: 0.1, field_mm_per_kv: 0.0 }),
+        thermal_conductivity_w_per_m_k: 0.2,
+        conduction_source: CONDUCTION_FROM_MEMORY,
         source: "oil-impregnated pressboard, 1–2 mm; typical value, from memory — verify with the \
                  datasheet",
         permittivity_range: (3.5, 4.8),
@@ -174,6 +231,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: None,
         density_kg_per_m3: 930.0,
         loss_tangent: Some(0.0002),
+        conduction: Some(LibraryConduction { sigma_s_per_m: 1e-16, temperature_per_k: 0.084, field_mm_per_kv: 0.0 }),
+        thermal_conductivity_w_per_m_k: 0.286,
+        conduction_source: THERMAL_IEC_60287,
         source: FROM_MEMORY,
         permittivity_range: (2.2, 2.4),
         strength_range: Some((20.0, 100.0)),
@@ -187,6 +247,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: None,
         density_kg_per_m3: 920.0,
         loss_tangent: Some(0.0003),
+        conduction: Some(LibraryConduction { sigma_s_per_m: 1e-16, temperature_per_k: 0.084, field_mm_per_kv: 0.0645 }),
+        thermal_conductivity_w_per_m_k: 0.286,
+        conduction_source: THERMAL_IEC_60287,
         source: "cable-scale short-term strength 30–50 kV/mm, lower end taken; typical value, from \
                  memory — verify with the datasheet",
         permittivity_range: (2.2, 2.5),
@@ -201,6 +264,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: None,
         density_kg_per_m3: 1250.0,
         loss_tangent: Some(0.005),
+        conduction: Some(LibraryConduction { sigma_s_per_m: 1e-15, temperature_per_k: 0.08, field_mm_per_kv: 0.0 }),
+        thermal_conductivity_w_per_m_k: 0.2,
+        conduction_source: THERMAL_IEC_60287,
         source: FROM_MEMORY,
         permittivity_range: (2.5, 3.6),
         strength_range: Some((15.0, 50.0)),
@@ -214,6 +280,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: Some(1.5),
         density_kg_per_m3: 1150.0,
         loss_tangent: Some(0.003),
+        conduction: Some(LibraryConduction { sigma_s_per_m: 1e-13, temperature_per_k: 0.05, field_mm_per_kv: 0.0 }),
+        thermal_conductivity_w_per_m_k: 0.25,
+        conduction_source: CONDUCTION_FROM_MEMORY,
         source: "1–2 mm sheet; typical value, from memory — verify with the datasheet",
         permittivity_range: (2.7, 4.6),
         strength_range: Some((10.0, 35.0)),
@@ -227,6 +296,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: Some(1.5),
         density_kg_per_m3: 1200.0,
         loss_tangent: Some(0.01),
+        conduction: Some(LibraryConduction { sigma_s_per_m: 1e-15, temperature_per_k: 0.1, field_mm_per_kv: 0.0 }),
+        thermal_conductivity_w_per_m_k: 0.2,
+        conduction_source: CONDUCTION_FROM_MEMORY,
         source: "unfilled cast epoxy, 1–2 mm; typical value, from memory — verify with the datasheet",
         permittivity_range: (3.3, 4.2),
         strength_range: Some((10.0, 45.0)),
@@ -240,6 +312,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: Some(2.5),
         density_kg_per_m3: 1800.0,
         loss_tangent: Some(0.01),
+        conduction: Some(LibraryConduction { sigma_s_per_m: 1e-15, temperature_per_k: 0.1, field_mm_per_kv: 0.0 }),
+        thermal_conductivity_w_per_m_k: 0.8,
+        conduction_source: CONDUCTION_FROM_MEMORY,
         source: "silica-filled cast epoxy, 2–3 mm; typical value, from memory — verify with the \
                  datasheet",
         permittivity_range: (3.5, 6.5),
@@ -254,6 +329,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: None,
         density_kg_per_m3: 2200.0,
         loss_tangent: Some(0.0002),
+        conduction: Some(LibraryConduction { sigma_s_per_m: 1e-18, temperature_per_k: 0.05, field_mm_per_kv: 0.0 }),
+        thermal_conductivity_w_per_m_k: 0.25,
+        conduction_source: CONDUCTION_FROM_MEMORY,
         source: FROM_MEMORY,
         permittivity_range: (2.0, 2.2),
         strength_range: Some((15.0, 200.0)),
@@ -267,6 +345,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: Some(0.025),
         density_kg_per_m3: 1420.0,
         loss_tangent: Some(0.002),
+        conduction: Some(LibraryConduction { sigma_s_per_m: 1e-16, temperature_per_k: 0.05, field_mm_per_kv: 0.0 }),
+        thermal_conductivity_w_per_m_k: 0.12,
+        conduction_source: CONDUCTION_FROM_MEMORY,
         source: "film about 25 µm thick (ASTM D149 short-time method); falls with thickness; \
                  typical value, from memory — verify with the datasheet",
         permittivity_range: (3.0, 3.6),
@@ -281,6 +362,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: None,
         density_kg_per_m3: 2800.0,
         loss_tangent: Some(0.0002),
+        conduction: Some(LibraryConduction { sigma_s_per_m: 1e-14, temperature_per_k: 0.05, field_mm_per_kv: 0.0 }),
+        thermal_conductivity_w_per_m_k: 0.5,
+        conduction_source: CONDUCTION_FROM_MEMORY,
         source: "thin muscovite splittings; typical value, from memory — verify",
         permittivity_range: (5.0, 8.0),
         strength_range: Some((30.0, 200.0)),
@@ -294,6 +378,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: None,
         density_kg_per_m3: 2400.0,
         loss_tangent: Some(0.015),
+        conduction: Some(LibraryConduction { sigma_s_per_m: 1e-12, temperature_per_k: 0.05, field_mm_per_kv: 0.0 }),
+        thermal_conductivity_w_per_m_k: 1.5,
+        conduction_source: CONDUCTION_FROM_MEMORY,
         source: FROM_MEMORY,
         permittivity_range: (5.0, 7.5),
         strength_range: Some((10.0, 30.0)),
@@ -307,6 +394,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: Some(2.0),
         density_kg_per_m3: 3900.0,
         loss_tangent: Some(0.0003),
+        conduction: Some(LibraryConduction { sigma_s_per_m: 1e-14, temperature_per_k: 0.05, field_mm_per_kv: 0.0 }),
+        thermal_conductivity_w_per_m_k: 25.0,
+        conduction_source: CONDUCTION_FROM_MEMORY,
         source: "1–3 mm; typical value, from memory — verify with the datasheet",
         permittivity_range: (8.5, 10.5),
         strength_range: Some((8.0, 35.0)),
@@ -320,6 +410,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: None,
         density_kg_per_m3: 2230.0,
         loss_tangent: Some(0.005),
+        conduction: Some(LibraryConduction { sigma_s_per_m: 1e-12, temperature_per_k: 0.08, field_mm_per_kv: 0.0 }),
+        thermal_conductivity_w_per_m_k: 1.0,
+        conduction_source: CONDUCTION_FROM_MEMORY,
         source: "borosilicate; 10–40 kV/mm, strongly dependent on thickness and temperature; \
                  typical value, from memory — verify",
         permittivity_range: (4.0, 8.0),
@@ -334,6 +427,9 @@ pub const LIBRARY: &[LibraryEntry] = &[
         strength_thickness_mm: None,
         density_kg_per_m3: 998.2,
         loss_tangent: None,
+        conduction: Some(LibraryConduction { sigma_s_per_m: 5.5e-06, temperature_per_k: 0.02, field_mm_per_kv: 0.0 }),
+        thermal_conductivity_w_per_m_k: 0.6,
+        conduction_source: WATER_CONDUCTION,
         source: "εr 80.10 at 20 °C (Malmberg & Maryott, J. Res. NBS 56, 1956); conducting at power \
                  frequency, not an insulator",
         permittivity_range: (55.0, 88.0),
@@ -550,6 +646,34 @@ pub struct Material {
     /// How a gas starts to discharge (gases only; `None` for a gas without
     /// constants, which is then judged by its point strength alone).
     pub gas: Option<gas::GasModel>,
+    /// Volume conduction, where known.
+    pub conduction: Option<Conduction>,
+    /// Thermal conductivity in W/(m·K), where known.
+    pub thermal_conductivity_w_per_m_k: Option<f64>,
+}
+
+/// Volume conduction of an insulation:
+/// σ(T, E) = σ0·exp(α·(T − T_ref))·exp(β·E), the empirical form used for
+/// HVDC cable insulation (common practice; the coefficients are fits to
+/// measurements over a limited range).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Conduction {
+    /// σ0 at the reference temperature, S/m.
+    pub sigma0_s_per_m: f64,
+    /// Reference temperature T_ref, °C.
+    pub reference_temperature_c: f64,
+    /// α, 1/K.
+    pub alpha_per_k: f64,
+    /// β, m/V.
+    pub beta_m_per_v: f64,
+}
+
+impl Conduction {
+    /// σ at `t_c` °C and field magnitude `e_v_per_m`, S/m.
+    pub fn at(&self, t_c: f64, e_v_per_m: f64) -> f64 {
+        self.sigma0_s_per_m
+            * (self.alpha_per_k * (t_c - self.reference_temperature_c) + self.beta_m_per_v * e_v_per_m).exp()
+    }
 }
 
 /// The conditions of library strengths: dry, at 20 °C.
@@ -575,6 +699,13 @@ impl Material {
             generic: true,
             out_of_range: Vec::new(),
             gas: gas::library_model(entry.name),
+            conduction: entry.conduction.map(|c| Conduction {
+                sigma0_s_per_m: c.sigma_s_per_m,
+                reference_temperature_c: REFERENCE_TEMPERATURE_C,
+                alpha_per_k: c.temperature_per_k,
+                beta_m_per_v: c.field_mm_per_kv / units::kv_per_mm(1.0),
+            }),
+            thermal_conductivity_w_per_m_k: Some(entry.thermal_conductivity_w_per_m_k),
         }
     }
 
@@ -586,6 +717,16 @@ impl Material {
             PermittivityModel::Table(points) => interpolate(points, t_c),
             PermittivityModel::Debye(d) => d.at(f_hz, t_c).0,
             PermittivityModel::Water => water_permittivity(t_c),
+        }
+    }
+
+    /// The dielectric loss factor ε″ (relative, conduction excluded) at
+    /// `t_c` °C and `f_hz`: the Debye relaxation's where the material has
+    /// one, else ε′·tan δ with the material's loss tangent (0 without one).
+    pub fn loss_factor_at(&self, t_c: f64, f_hz: f64) -> f64 {
+        match &self.model {
+            PermittivityModel::Debye(d) => d.at(f_hz, t_c).1,
+            _ => self.permittivity_at(t_c, f_hz) * self.loss_tangent.unwrap_or(0.0),
         }
     }
 

@@ -49,6 +49,12 @@ pub struct Inputs<'a> {
     pub assessment: &'a Assessment,
     /// The dry-reference solve, when there was one.
     pub reference_solve: Option<&'a SolveReport>,
+    /// AC cases: the losses of every region.
+    pub losses: Option<&'a crate::fields::Losses>,
+    /// AC cases: the regions' loss coefficients.
+    pub ac: Option<&'a crate::coefficients::AcLosses>,
+    /// The AC field was solved with its losses (complex).
+    pub lossy: bool,
 }
 
 fn verdict(v: Verdict) -> VerdictOut {
@@ -60,6 +66,14 @@ fn verdict(v: Verdict) -> VerdictOut {
 }
 
 /// Units of extensive results: (capacitance, charge, energy).
+/// The unit of an extensive loss.
+fn loss_unit(n: Normalisation) -> &'static str {
+    match n {
+        Normalisation::PerMetreDepth | Normalisation::PerMetreAxial { .. } => "W/m",
+        Normalisation::Whole => "W",
+    }
+}
+
 fn extensive_units(n: Normalisation) -> (&'static str, &'static str, &'static str, &'static str) {
     match n {
         Normalisation::PerMetreDepth => ("pF/m", "nC/m", "J/m", "per metre of depth"),
@@ -256,6 +270,18 @@ pub fn message(kind: &FindingKind, values: crate::units::Values) -> String {
             g3(to_mm(at[1])),
             field(*limit)
         ),
+        FindingKind::ResistiveCapacitiveCrossover { ratio } => format!(
+            "conduction and displacement currents are comparable here (σ/(ωε) = {}): the part's share of the stress \
+             depends on the frequency and on its conductivity, which scatters by orders of magnitude and rises \
+             steeply with temperature and moisture. Repeat the check with the conductivity ten times lower and \
+             higher, or measure it at the service temperature.",
+            g3(*ratio)
+        ),
+        FindingKind::ConductionDominated { ratio } => format!(
+            "the part conducts far more than it polarises at this frequency (σ/(ωε) = {}): it carries little of \
+             the stress, sheds it onto its neighbours, and its conduction loss heats it.",
+            g3(*ratio)
+        ),
         FindingKind::ImpulseStrengthMissing { material } => format!(
             "{material} has no lightning-impulse strength, so its short-term (AC) strength was used as a peak value; \
              impulse strengths are usually higher, so the margin is conservative. Give the datasheet value as \
@@ -370,7 +396,21 @@ fn verdict_word(v: Verdict) -> &'static str {
 /// Builds the result model. `seconds` is the solve's wall time, measured by
 /// the caller.
 pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
-    let Inputs { case, grid, layout, solve, fields, discharge, mesh_check, assessment, reference_solve } = *inp;
+    let Inputs {
+        case,
+        grid,
+        layout,
+        solve,
+        fields,
+        discharge,
+        mesh_check,
+        assessment,
+        reference_solve,
+        losses,
+        ac,
+        lossy,
+    } = *inp;
+    let loss_unit = loss_unit(case.normalisation);
     let (c_unit, q_unit, w_unit, per) = extensive_units(case.normalisation);
     let (min_step, max_step) = grid.step_range();
     let parts = assessment
@@ -412,6 +452,9 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
                 e_max_coarser_grids_kv_per_mm: check.map(|c| [to_kv_per_mm(c.e_max[1]), to_kv_per_mm(c.e_max[2])]),
                 e_max_observed_order: check.and_then(|c| c.order),
                 e_max_grows_with_refinement: check.is_some_and(|c| c.growing),
+                loss_density_max_w_per_m3: losses.map(|l| l.regions[p.region].density_max),
+                loss: losses.map(|l| Quantity { value: l.regions[p.region].total, unit: loss_unit }),
+                sigma_over_omega_epsilon: ac.map(|a| a.conduction_ratio[p.region]),
             }
         })
         .collect();
@@ -473,6 +516,7 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
             frequency_hz: (case.operation.mode == Mode::Ac).then_some(case.operation.frequency_hz),
             values: case.operation.values.name(),
             stated: case.operation.stated,
+            field_with_losses: (case.operation.mode == Mode::Ac).then_some(lossy),
         },
         environment: EnvironmentOut {
             temperature_c: case.environment.temperature_c,
@@ -507,6 +551,7 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
         },
         capacitance: assessment.capacitance.map(|c| Quantity { value: to_pf(c.from_charge), unit: c_unit }),
         energy: Quantity { value: fields.energy, unit: w_unit },
+        dielectric_loss: losses.map(|l| Quantity { value: l.total, unit: loss_unit }),
         field_concentration: assessment.concentration.map(|c| ConcentrationOut {
             e_max_kv_per_mm: to_kv_per_mm(c.e_max),
             gap_mm: to_mm(c.gap),

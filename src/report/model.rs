@@ -151,6 +151,15 @@ pub struct PartOut {
     pub e_max_observed_order: Option<f64>,
     /// The peak keeps growing under refinement (a singular edge or corner).
     pub e_max_grows_with_refinement: bool,
+    /// AC: largest dielectric and conduction loss density, W/m³ (at the
+    /// part's peak field; null unless ac).
+    pub loss_density_max_w_per_m3: Option<f64>,
+    /// AC: the part's loss (W, or W per metre of depth or axial length; null
+    /// unless ac).
+    pub loss: Option<Quantity>,
+    /// AC: conduction against displacement current, σ/(ωε0εr) (null unless
+    /// ac).
+    pub sigma_over_omega_epsilon: Option<f64>,
 }
 
 /// `operation`
@@ -164,6 +173,10 @@ pub struct OperationOut {
     pub values: &'static str,
     /// False when the case gave no `operation:` (the static default).
     pub stated: bool,
+    /// AC: true when the field was solved with the losses (complex
+    /// admittivities; fields are phasor magnitudes), false when the loss
+    /// tangents differ too little to change it (null unless ac).
+    pub field_with_losses: Option<bool>,
 }
 
 /// `environment`
@@ -283,6 +296,10 @@ pub struct CheckReport {
     pub capacitance: Option<Quantity>,
     /// Stored electrostatic energy.
     pub energy: Quantity,
+    /// AC: total dielectric and conduction loss of the case (absent unless
+    /// ac).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub dielectric_loss: Option<Quantity>,
     /// Field concentration (electrodes at different potentials only).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub field_concentration: Option<ConcentrationOut>,

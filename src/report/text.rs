@@ -77,11 +77,16 @@ fn wrap(out: &mut String, first: &str, text: &str) {
 fn values_sentence(r: &CheckReport) -> String {
     match (r.operation.mode, r.operation.frequency_hz) {
         ("ac", Some(f)) => format!(
-            "{} — AC at {} Hz: every voltage, field and strength below is an {} value{}",
+            "{} — AC at {} Hz: every voltage, field and strength below is an {} value{}{}",
             r.values,
             f,
             r.values,
-            if r.values == "rms" { " (energies are time averages)" } else { "" }
+            if r.values == "rms" { " (energies are time averages)" } else { "" },
+            if r.operation.field_with_losses == Some(true) {
+                "; solved with losses: fields are phasor magnitudes, charges their in-phase part"
+            } else {
+                ""
+            }
         ),
         ("impulse", _) => "peak — lightning impulse (1.2/50 µs): every voltage, field and strength below is a peak \
                            value"
@@ -297,6 +302,23 @@ pub fn render_text(r: &CheckReport) -> String {
         let _ = writeln!(o, "capacitance  {} {} (from the electrode charge)", sig4(c.value), c.unit);
     }
     let _ = writeln!(o, "energy       {} {}", sig4(r.energy.value), r.energy.unit);
+    if let Some(l) = &r.dielectric_loss {
+        let _ = writeln!(o, "losses       {} {} (dielectric and conduction, all parts)", sig4(l.value), l.unit);
+        let rows = r
+            .parts
+            .iter()
+            .map(|p| {
+                vec![
+                    p.name.clone(),
+                    opt(p.loss_density_max_w_per_m3),
+                    p.loss.as_ref().map_or("—".into(), |q| sig4(q.value)),
+                    opt(p.sigma_over_omega_epsilon),
+                ]
+            })
+            .collect();
+        let head = format!("loss {}", l.unit);
+        let _ = writeln!(o, "{}", table(&["part", "loss density max W/m³", &head, "σ/(ωε)"], rows, &[1, 2, 3]));
+    }
 
     if !r.probes.is_empty() {
         let _ = writeln!(o, "\nprobes");

@@ -9,6 +9,7 @@
 //! claims convergence first, CG restarts from the true residual.
 
 mod amg;
+pub mod complex;
 mod kernels;
 
 pub use amg::{Amg, AmgError, AmgOptions};
@@ -92,6 +93,8 @@ pub fn from_row_blocks(rows: usize, cols: usize, blocks: Vec<RowBlock>) -> Matri
 /// The sparse matrix type of the solvers: CSR with 32-bit column indices
 /// (half the index traffic of `usize`; up to 4·10⁹ unknowns).
 pub type Matrix = sprs::CsMatI<f64, u32, usize>;
+
+pub use complex::{ComplexMatrix, ComplexVector};
 
 /// Tolerances and limits of one solve.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -243,6 +246,51 @@ impl<'a> Solver<'a> {
     }
 }
 
+impl Solver<'_> {
+    /// Solves the complex symmetric system a·x = b (AC with losses) by COCG,
+    /// preconditioned by this setup: the solver's matrix is the real
+    /// operator with the magnitudes of the complex coefficients, on the
+    /// pattern of `a`. Falls back to Jacobi as the real solve does.
+    pub fn solve_complex(
+        &mut self,
+        a: &ComplexMatrix,
+        b: &ComplexVector,
+        x0: Option<&ComplexVector>,
+    ) -> Result<(ComplexVector, SolveReport), SolveError> {
+        let opts = self.config.options;
+        // a complex iteration costs two preconditioner applications and a
+        // product of twice the values
+        let capped = |cost_per_iteration: f64| SolveOptions {
+            max_iterations: opts
+                .max_iterations
+                .min(((WORK_LIMIT / (cost_per_iteration * a.nnz().max(1) as f64)) as usize).max(MIN_ITERATIONS)),
+            ..opts
+        };
+        let (jacobi_opts, amg_opts) = (capped(4.0), capped(2.0 * AMG_ITERATION_COST + 2.0));
+        let magnitude = self.matrix;
+        let fallback = |reason: String| {
+            let (x, mut rep) = complex::cocg(a, b, x0, &mut Jacobi::new(magnitude), &jacobi_opts, None)?;
+            rep.method = format!("cocg+jacobi (fallback: {reason})");
+            Ok((x, rep))
+        };
+        match &mut self.amg {
+            None => complex::cocg(a, b, x0, &mut Jacobi::new(magnitude), &jacobi_opts, None),
+            Some(Err(e)) => fallback(format!("multigrid setup failed: {e}")),
+            Some(Ok(amg)) => match complex::cocg(a, b, x0, amg, &amg_opts, Some(STALL_WINDOW)) {
+                Ok((x, mut rep)) => {
+                    rep.method = format!(
+                        "cocg+amg of |κ| ({} levels, operator complexity {:.2})",
+                        amg.depth(),
+                        amg.operator_complexity()
+                    );
+                    Ok((x, rep))
+                }
+                Err(e) => fallback(format!("multigrid-preconditioned COCG failed: {e}")),
+            },
+        }
+    }
+}
+
 impl Default for SolveOptions {
     fn default() -> Self {
         // 1e-10 leaves the discretisation error (≥ 1e-6 on practical grids)
@@ -287,6 +335,16 @@ pub enum SolveError {
         "the system matrix is not positive definite (iteration {iteration}); this is a bug, please report the case"
     )]
     NotPositiveDefinite {
+        /// Iteration at which it showed.
+        iteration: usize,
+    },
+    /// The complex symmetric recurrence broke down (its bilinear form
+    /// vanished).
+    #[error(
+        "the complex (AC with losses) solve broke down at iteration {iteration}; this is a bug or an extreme case, \
+         please report it"
+    )]
+    Breakdown {
         /// Iteration at which it showed.
         iteration: usize,
     },
