@@ -96,20 +96,23 @@ pub struct RegionLoss {
 /// e.g. von Hippel, *Dielectrics and Waves*, 1954), its largest value per
 /// region (at the peak field: ε″ is uniform in a region) and its integral.
 pub fn losses(fields: &Fields, ac: &crate::coefficients::AcLosses, values: crate::units::Values) -> Losses {
+    let regions: Vec<RegionLoss> = fields
+        .regions
+        .iter()
+        .zip(loss_coefficients(ac, values))
+        .map(|(r, k)| RegionLoss { density_max: k * r.e_max * r.e_max, total: k * r.e_squared_volume })
+        .collect();
+    Losses { total: regions.iter().map(|r| r.total).sum(), regions }
+}
+
+/// Each region's loss density per squared field, W/m³ per (V/m)²:
+/// ω·ε0·ε″ with rms values, ½·ω·ε0·ε″ with peak values.
+pub fn loss_coefficients(ac: &crate::coefficients::AcLosses, values: crate::units::Values) -> Vec<f64> {
     let per_rms = match values {
         crate::units::Values::Rms => 1.0,
         crate::units::Values::Peak => 0.5,
     };
-    let regions: Vec<RegionLoss> = fields
-        .regions
-        .iter()
-        .zip(&ac.loss_factor)
-        .map(|(r, &e2)| {
-            let k = per_rms * ac.omega * crate::units::EPSILON_0 * e2;
-            RegionLoss { density_max: k * r.e_max * r.e_max, total: k * r.e_squared_volume }
-        })
-        .collect();
-    Losses { total: regions.iter().map(|r| r.total).sum(), regions }
+    ac.loss_factor.iter().map(|e2| per_rms * ac.omega * crate::units::EPSILON_0 * e2).collect()
 }
 
 /// The losses of every region and of the case.

@@ -2,7 +2,7 @@
 //! PNG), the HTML review page, the JSON result, a CSV per sampling line and
 //! a VTK file. The binary writes the files; nothing here touches the disk.
 
-use crate::picture::{self, MapConfig, MapInputs, png::PictureError};
+use crate::picture::{self, MapConfig, MapInputs, Shade, png::PictureError};
 use crate::report::{self, CheckReport, html::PageInputs};
 use crate::{Prepared, Solution};
 
@@ -70,12 +70,28 @@ pub fn files(
     report: &CheckReport,
     case_file: &str,
 ) -> Result<Vec<ReviewFile>, ReviewError> {
-    let map = picture::build(
-        &MapInputs { case: &prepared.case, grid: &prepared.grid, layout: &prepared.layout, phi: &solution.phi, report },
-        &MapConfig::default(),
-    );
-    let svg = picture::svg::render(&map);
+    let map_of = |shade| {
+        picture::build(
+            &MapInputs {
+                case: &prepared.case,
+                grid: &prepared.grid,
+                layout: &prepared.layout,
+                phi: &solution.phi,
+                quadrature: solution.quadrature.as_deref(),
+                report,
+                shade,
+            },
+            &MapConfig::default(),
+        )
+    };
+    let svg = picture::svg::render(&map_of(Shade::Field));
     let png = picture::png::render(&svg, PNG_ZOOM)?;
+    let loss_coefficients =
+        prepared.service.ac.as_ref().map(|ac| crate::fields::loss_coefficients(ac, prepared.case.operation.values));
+    let mut extra_maps = Vec::new();
+    if let Some(per_e2) = &loss_coefficients {
+        extra_maps.push(("loss-map", "loss density map", map_of(Shade::LossDensity { per_e2 })));
+    }
     let mut json = serde_json::to_vec_pretty(report)?;
     json.push(b'\n');
     let mut out = vec![
@@ -88,6 +104,18 @@ pub fn files(
             bytes: crate::export::vtk(&prepared.case, &prepared.grid, &prepared.layout, &solution.phi).into_bytes(),
         },
     ];
+    let mut extra_svgs = Vec::new();
+    for (stem, what, map) in extra_maps {
+        let svg = picture::svg::render(&map);
+        let png = picture::png::render(&svg, PNG_ZOOM)?;
+        out.push(ReviewFile {
+            name: format!("{stem}.svg"),
+            what: format!("{what} (vector)"),
+            bytes: svg.clone().into_bytes(),
+        });
+        out.push(ReviewFile { name: format!("{stem}.png"), what: format!("{what} (picture)"), bytes: png });
+        extra_svgs.push(svg);
+    }
     let line_files = line_file_names(report.lines.iter().map(|l| l.name.as_str()));
     for (l, name) in report.lines.iter().zip(&line_files) {
         let bytes = report::line_csv(l).map_err(|source| ReviewError::Csv { line: l.name.clone(), source })?;
@@ -102,6 +130,7 @@ pub fn files(
         report,
         case_file,
         map_svg: &svg,
+        extra_map_svgs: &extra_svgs,
         files: &listed,
         line_files: &line_files,
     });

@@ -66,6 +66,8 @@ fn review_folder_has_every_file() {
             "fields.vtk",
             "index.html",
             "line-radial.csv",
+            "loss-map.png",
+            "loss-map.svg",
             "result.json"
         ]
     );

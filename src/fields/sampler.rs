@@ -161,6 +161,12 @@ impl<'a> Sampler<'a> {
         Sample { potential, e: [ex, ey], inside }
     }
 
+    /// A nodal quantity (one value per grid node, e.g. a temperature)
+    /// interpolated bilinearly at `at`, in the cell the field is taken from.
+    pub fn interpolate(&self, nodal: &[f64], at: [f64; 2]) -> f64 {
+        self.potential_in(self.cell_of(at), at, nodal)
+    }
+
     /// An electrode owning a node of the cell that holds `at`, if any.
     pub fn electrode_near(&self, at: [f64; 2]) -> Option<u32> {
         let nodes = self.grid.cell_nodes(self.grid.locate(at));

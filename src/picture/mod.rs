@@ -31,15 +31,35 @@ impl Default for MapConfig {
     }
 }
 
-/// |E| sampled at pixel centres, row 0 at the top (largest y).
+/// The shaded quantity sampled at pixel centres, row 0 at the top
+/// (largest y).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Raster {
     /// Columns.
     pub width: usize,
     /// Rows.
     pub height: usize,
-    /// |E| in kV/mm, row-major; NaN inside electrodes.
-    pub e_kv_per_mm: Vec<f64>,
+    /// Values in the map's unit (`Shading::unit`), row-major; NaN inside
+    /// electrodes.
+    pub values: Vec<f64>,
+}
+
+/// What the colours of a map show.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Shade<'a> {
+    /// |E| in kV/mm (the phasor magnitude for AC with losses).
+    Field,
+    /// AC loss density in W/m³: each region's coefficient (W/m³ per
+    /// (V/m)², from `fields::RegionLoss::per_e2`) times |E|².
+    LossDensity {
+        /// Coefficient of each region (layout order).
+        per_e2: &'a [f64],
+    },
+    /// Temperature in °C from nodal values.
+    Temperature {
+        /// Temperature at every node, °C.
+        nodal_c: &'a [f64],
+    },
 }
 
 /// One equipotential level.
@@ -71,8 +91,8 @@ pub struct Peak {
     pub part: String,
     /// Where, in mm.
     pub at_mm: [f64; 2],
-    /// Peak |E| in kV/mm.
-    pub e_kv_per_mm: f64,
+    /// The part's largest value in the map's unit.
+    pub value: f64,
 }
 
 /// A label placed on the map.
@@ -82,6 +102,19 @@ pub struct Label {
     pub text: String,
     /// Anchor in mm.
     pub at_mm: [f64; 2],
+}
+
+/// The words of a shaded quantity.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Shading {
+    /// Colour-bar title, e.g. "|E| (kV/mm rms)".
+    pub bar_title: String,
+    /// Caption under the map title.
+    pub caption: String,
+    /// Unit of the values, e.g. "kV/mm rms".
+    pub unit: String,
+    /// The map's short name ("field", "loss density", "temperature").
+    pub name: &'static str,
 }
 
 /// Everything a field map shows, in report units.
@@ -97,11 +130,14 @@ pub struct FieldMap {
     pub extent_mm: [f64; 4],
     /// Plot area in pixels (width, height); the mm scale is the same on both axes.
     pub plot_px: [f64; 2],
-    /// The |E| raster.
+    /// What is shaded: the colour bar's title, the caption under the
+    /// title, and the unit of the peak labels.
+    pub shading: Shading,
+    /// The shaded raster.
     pub raster: Raster,
-    /// Top of the colour scale in kV/mm (bottom is 0).
-    pub scale_top_kv_per_mm: f64,
-    /// Ticks on the colour bar in kV/mm.
+    /// Bottom and top of the colour scale in the map's unit.
+    pub scale: [f64; 2],
+    /// Ticks on the colour bar in the map's unit.
     pub scale_ticks: Vec<f64>,
     /// Ticks along x and y in mm.
     pub axis_ticks: [Vec<f64>; 2],
@@ -130,10 +166,14 @@ pub struct MapInputs<'a> {
     pub grid: &'a Grid,
     /// The painted layout.
     pub layout: &'a Layout,
-    /// Nodal potential in V.
+    /// Nodal potential in V (the in-phase part of an AC phasor).
     pub phi: &'a [f64],
+    /// The quadrature part of an AC phasor with losses, V.
+    pub quadrature: Option<&'a [f64]>,
     /// The result (peaks, verdict, names).
     pub report: &'a CheckReport,
+    /// What the colours show.
+    pub shade: Shade<'a>,
 }
 
 /// A "nice" number near `v` (1, 2, 2.5 or 5 times a power of ten), at or
@@ -236,9 +276,12 @@ fn elide(s: &str, max: usize) -> String {
     }
 }
 
+/// A part's largest value of the shaded quantity, from its result.
+type PeakOf = dyn Fn(&crate::report::PartOut) -> Option<f64>;
+
 /// Computes a field map.
 pub fn build(inp: &MapInputs, config: &MapConfig) -> FieldMap {
-    let MapInputs { case, grid, layout, phi, report } = *inp;
+    let MapInputs { case, grid, layout, phi, quadrature, report, shade } = *inp;
     let d = case.domain;
     let extent_mm = [to_mm(d.x0), to_mm(d.x1), to_mm(d.y0), to_mm(d.y1)];
     let (w_mm, h_mm) = (extent_mm[1] - extent_mm[0], extent_mm[3] - extent_mm[2]);
@@ -246,22 +289,58 @@ pub fn build(inp: &MapInputs, config: &MapConfig) -> FieldMap {
     let plot_px = [w_mm * px_per_mm, h_mm * px_per_mm];
     let (width, height) = (plot_px[0].round().max(1.0) as usize, plot_px[1].round().max(1.0) as usize);
 
-    let sampler = Sampler::new(case, grid, layout, phi);
-    let mut e = Vec::with_capacity(width * height);
+    let sampler = Sampler::phasor(case, grid, layout, phi, quadrature);
+    let mut values = Vec::with_capacity(width * height);
     for row in 0..height {
         let y = d.y1 - (row as f64 + 0.5) / height as f64 * d.height();
         for col in 0..width {
             let x = d.x0 + (col as f64 + 0.5) / width as f64 * d.width();
             let s = sampler.at([x, y]);
-            e.push(match s.inside {
-                Inside::Electrode(_) => f64::NAN,
-                Inside::Region(_) => to_kv_per_mm(s.magnitude()),
+            values.push(match (s.inside, shade) {
+                (Inside::Electrode(_), _) => f64::NAN,
+                (Inside::Region(_), Shade::Field) => to_kv_per_mm(s.magnitude()),
+                (Inside::Region(r), Shade::LossDensity { per_e2 }) => per_e2[r as usize] * s.magnitude().powi(2),
+                (Inside::Region(_), Shade::Temperature { nodal_c }) => sampler.interpolate(nodal_c, [x, y]),
             });
         }
     }
-
-    let peak_top = report.parts.iter().map(|p| p.e_max_kv_per_mm).fold(0.0, f64::max);
-    let scale_top = nice(peak_top, true);
+    let (shading, peak_of): (Shading, &PeakOf) = match shade {
+        Shade::Field => (
+            Shading {
+                bar_title: format!("|E| (kV/mm {})", report.values),
+                caption: format!("|E| in kV/mm {} with equipotentials", report.values),
+                unit: format!("kV/mm {}", report.values),
+                name: "field",
+            },
+            &|p| Some(p.e_max_kv_per_mm),
+        ),
+        Shade::LossDensity { .. } => (
+            Shading {
+                bar_title: "loss (W/m³)".into(),
+                caption: "dielectric and conduction loss density in W/m³ with equipotentials".into(),
+                unit: "W/m³".into(),
+                name: "loss density",
+            },
+            &|p| p.loss_density_max_w_per_m3,
+        ),
+        Shade::Temperature { .. } => (
+            Shading {
+                bar_title: "T (°C)".into(),
+                caption: "temperature in °C with equipotentials".into(),
+                unit: "°C".into(),
+                name: "temperature",
+            },
+            &|p| p.temperature_range_c.map(|r| r[1]),
+        ),
+    };
+    let finite = values.iter().copied().filter(|v| v.is_finite());
+    let (lo, hi) = finite.fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| (a.min(v), b.max(v)));
+    let scale = match shade {
+        Shade::Field => [0.0, nice(report.parts.iter().map(|p| p.e_max_kv_per_mm).fold(0.0, f64::max), true)],
+        Shade::LossDensity { .. } => [0.0, nice(hi.max(f64::MIN_POSITIVE), true)],
+        Shade::Temperature { .. } if hi > lo => [nice(lo, false).min(lo), nice(hi, true)],
+        Shade::Temperature { .. } => [lo.floor() - 1.0, hi.ceil() + 1.0],
+    };
 
     let fixed: Vec<f64> = layout
         .electrodes
@@ -307,12 +386,14 @@ pub fn build(inp: &MapInputs, config: &MapConfig) -> FieldMap {
         .parts
         .iter()
         .enumerate()
-        .filter(|(_, p)| p.e_max_kv_per_mm > 0.0)
-        .map(|(k, p)| Peak {
-            number: k + 1,
-            part: elide(&p.name, MAP_NAME_CHARS),
-            at_mm: p.e_max_at_mm,
-            e_kv_per_mm: p.e_max_kv_per_mm,
+        .filter(|(_, p)| p.e_max_kv_per_mm > 0.0 && matches!(shade, Shade::Field | Shade::LossDensity { .. }))
+        .filter_map(|(k, p)| {
+            peak_of(p).map(|value| Peak {
+                number: k + 1,
+                part: elide(&p.name, MAP_NAME_CHARS),
+                at_mm: p.e_max_at_mm,
+                value,
+            })
         })
         .collect();
 
@@ -322,9 +403,10 @@ pub fn build(inp: &MapInputs, config: &MapConfig) -> FieldMap {
         axisymmetric: case.geometry == Geometry::Axisymmetric,
         extent_mm,
         plot_px,
-        raster: Raster { width, height, e_kv_per_mm: e },
-        scale_top_kv_per_mm: scale_top,
-        scale_ticks: ticks(0.0, scale_top, 5),
+        shading,
+        raster: Raster { width, height, values },
+        scale_ticks: ticks(scale[0], scale[1], 5),
+        scale,
         axis_ticks: [
             ticks(extent_mm[0], extent_mm[1], (plot_px[0] / 90.0).round().max(2.0) as usize),
             ticks(extent_mm[2], extent_mm[3], (plot_px[1] / 70.0).round().max(2.0) as usize),

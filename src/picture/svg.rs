@@ -94,12 +94,18 @@ fn raster_uri(map: &FieldMap) -> String {
     let levels = 255usize;
     let mut palette = vec![[255u8, 255, 255]];
     palette.extend((0..levels).map(|k| table[k * (colour::STEPS - 1) / (levels - 1)]));
-    let top = map.scale_top_kv_per_mm;
+    let [bottom, top] = map.scale;
     let index: Vec<u8> = map
         .raster
-        .e_kv_per_mm
+        .values
         .iter()
-        .map(|&v| if v.is_nan() { 0 } else { 1 + ((v / top).clamp(0.0, 1.0) * (levels - 1) as f64).round() as u8 })
+        .map(|&v| {
+            if v.is_nan() {
+                0
+            } else {
+                1 + (((v - bottom) / (top - bottom)).clamp(0.0, 1.0) * (levels - 1) as f64).round() as u8
+            }
+        })
         .collect();
     let png = super::png::indexed(map.raster.width, map.raster.height, &index, &palette);
     use base64::Engine;
@@ -122,7 +128,7 @@ pub fn render(map: &FieldMap) -> String {
         .set("height", height)
         .set("viewBox", (0, 0, width, height))
         .set("font-family", FONT)
-        .add(Title::new(format!("{}: |E| and equipotentials", map.title)))
+        .add(Title::new(format!("{}: {} and equipotentials", map.title, map.shading.name)))
         .add(Rectangle::new().set("width", width).set("height", height).set("fill", "#ffffff"));
 
     // Definitions: plot clip and the colour-bar gradient (bottom = 0).
@@ -141,7 +147,7 @@ pub fn render(map: &FieldMap) -> String {
         LEFT,
         43.0,
         12.0,
-        &format!("|E| in kV/mm {} with equipotentials · verdict: {}", map.values, map.verdict),
+        &format!("{} · verdict: {}", map.shading.caption, map.verdict),
     ));
 
     // Field raster, drawn on a light grey that shows through at electrodes.
@@ -321,21 +327,18 @@ pub fn render(map: &FieldMap) -> String {
     // Colour bar.
     let bx = LEFT + pw + 26.0;
     let bh = ph.clamp(120.0, 320.0);
-    let mut bar = Group::new()
-        .set("id", "colour-bar")
-        .add(text(bx, TOP - 8.0, 11.0, &format!("|E| (kV/mm {})", map.values)))
-        .add(
-            Rectangle::new()
-                .set("x", bx)
-                .set("y", TOP)
-                .set("width", 16)
-                .set("height", round1(bh))
-                .set("fill", "url(#hv-scale)")
-                .set("stroke", "#444a50")
-                .set("stroke-width", 0.8),
-        );
+    let mut bar = Group::new().set("id", "colour-bar").add(text(bx, TOP - 8.0, 11.0, &map.shading.bar_title)).add(
+        Rectangle::new()
+            .set("x", bx)
+            .set("y", TOP)
+            .set("width", 16)
+            .set("height", round1(bh))
+            .set("fill", "url(#hv-scale)")
+            .set("stroke", "#444a50")
+            .set("stroke-width", 0.8),
+    );
     for &t in &map.scale_ticks {
-        let y = TOP + bh * (1.0 - t / map.scale_top_kv_per_mm);
+        let y = TOP + bh * (1.0 - (t - map.scale[0]) / (map.scale[1] - map.scale[0]));
         bar = bar
             .add(
                 Line::new()
@@ -364,7 +367,7 @@ pub fn render(map: &FieldMap) -> String {
             LEFT + 18.0,
             y,
             12.0,
-            &format!("{}: peak in {}, {} kV/mm {}", p.number, p.part, g3(p.e_kv_per_mm), map.values),
+            &format!("{}: peak in {}, {} {}", p.number, p.part, g3(p.value), map.shading.unit),
         ));
     }
     if !map.discharge_lines.is_empty() {

@@ -15,6 +15,8 @@ pub struct PageInputs<'a> {
     pub case_file: &'a str,
     /// The field map as SVG markup (inlined).
     pub map_svg: &'a str,
+    /// Further maps (loss density, temperature) shown after the field map.
+    pub extra_map_svgs: &'a [String],
     /// Other files of the review folder, linked from the page: (file name, what it holds).
     pub files: &'a [(String, String)],
     /// The CSV file of each sampling line, in line order.
@@ -195,6 +197,9 @@ pub fn render_page(inp: &PageInputs) -> String {
                 }
                 h2 { "Field map" }
                 figure { (PreEscaped(inp.map_svg)) }
+                @for m in inp.extra_map_svgs {
+                    figure { (PreEscaped(m)) }
+                }
                 h2 { "Parts" }
                 p.meta { "Margin = typical breakdown strength ÷ peak field (gas parts: partial-discharge inception ÷ \
                     working level); the required safety factor is " (sig4(r.safety_factor)) "." }

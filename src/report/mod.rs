@@ -455,6 +455,7 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
                 loss_density_max_w_per_m3: losses.map(|l| l.regions[p.region].density_max),
                 loss: losses.map(|l| Quantity { value: l.regions[p.region].total, unit: loss_unit }),
                 sigma_over_omega_epsilon: ac.map(|a| a.conduction_ratio[p.region]),
+                temperature_range_c: None,
             }
         })
         .collect();

@@ -160,6 +160,9 @@ pub struct PartOut {
     /// AC: conduction against displacement current, σ/(ωε0εr) (null unless
     /// ac).
     pub sigma_over_omega_epsilon: Option<f64>,
+    /// DC with a thermal solve: the part's lowest and highest temperature,
+    /// °C (null otherwise).
+    pub temperature_range_c: Option<[f64; 2]>,
 }
 
 /// `operation`
