@@ -177,7 +177,9 @@ impl<T: Coefficient> Stencil<T> {
             }
             match layout.cut_cells.binary_search_by_key(&(c.0 as u32), |k| k.cell) {
                 Ok(k) => Some(coefficients.cut[k].0),
-                Err(_) => Some([coefficients.region[r as usize]; 4]),
+                Err(_) => {
+                    Some([coefficients.cells.as_ref().map_or_else(|| coefficients.region[r as usize], |v| v[c.0]); 4])
+                }
             }
         });
         for b in &layout.boundary_edges {
@@ -370,6 +372,26 @@ pub fn constraints(layout: &Layout) -> Vec<Constraint> {
             }
         })
         .collect()
+}
+
+/// The constraints of the DC thermal problem: electrodes with a
+/// temperature are fixed at it (by electrode index into the returned
+/// values, °C), the others are isothermal bodies of unknown temperature
+/// with no net heat flow (a group, as a floating electrode); other nodes
+/// are free. `None` when no electrode has a temperature.
+pub fn thermal_constraints(layout: &Layout, temperature_c: &[Option<f64>]) -> Option<(Vec<Constraint>, Vec<f64>)> {
+    temperature_c.iter().any(Option::is_some).then(|| {
+        let constraints = layout
+            .node_electrode
+            .iter()
+            .map(|&e| match e {
+                NO_ELECTRODE => Constraint::Free,
+                e if temperature_c[e as usize].is_some() => Constraint::Fixed(e),
+                e => Constraint::Group(e),
+            })
+            .collect();
+        (constraints, temperature_c.iter().map(|t| t.unwrap_or(0.0)).collect())
+    })
 }
 
 /// The electrode potentials of a painted case in V, by electrode index (0
@@ -614,6 +636,16 @@ impl Pattern {
     /// The system of a real stencil for the given fixed potentials.
     pub fn system(&self, grid: &Grid, stencil: &Stencil<f64>, potentials: &[f64]) -> System {
         System { matrix: self.matrix(grid, stencil), rhs: self.rhs(grid, stencil, potentials) }
+    }
+
+    /// Adds nodal sources (one value per grid node) to a right-hand side:
+    /// each unknown's row gets the sources of its nodes.
+    pub fn add_sources(&self, b: &mut [f64], nodal: &[f64]) {
+        for (n, d) in self.dofs.iter().enumerate() {
+            if let Dof::Unknown(k) = *d {
+                b[k] += nodal[n];
+            }
+        }
     }
 
     /// Nodal potentials from the solved unknowns and the fixed potentials.

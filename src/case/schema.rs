@@ -75,6 +75,8 @@ pub enum ModeFile {
     Ac,
     /// A lightning impulse: potentials are the impulse's peak values.
     Impulse,
+    /// Steady DC: the field of resistive conduction.
+    Dc,
 }
 
 /// `rms` or `peak`.
@@ -243,6 +245,8 @@ pub struct MaterialFile {
     pub debye: Option<DebyeFile>,
     /// Lightning-impulse (1.2/50 µs) breakdown strength in kV/mm, peak.
     pub impulse_strength_kv_per_mm: Option<f64>,
+    /// DC breakdown strength in kV/mm.
+    pub dc_strength_kv_per_mm: Option<f64>,
     /// Townsend constants of a gas.
     pub townsend: Option<TownsendFile>,
     /// Streamer constants of a gas.
@@ -287,6 +291,9 @@ pub struct StackFile {
     pub length: Option<f64>,
     /// Layers from the energised face outward.
     pub layers: Vec<LayerFile>,
+    /// `mode: dc` only: temperatures of the energised and the earthed face,
+    /// °C (boundary values of the thermal solve).
+    pub face_temperatures_c: Option<[f64; 2]>,
 }
 
 /// `stack.form:` values.
@@ -527,6 +534,7 @@ pub const KNOWN_KEYS: &[(&str, &[&str])] = &[
             "townsend",
             "streamer",
             "impulse_strength_kv_per_mm",
+            "dc_strength_kv_per_mm",
             "conductivity_s_per_m",
             "reference_temperature_c",
             "conductivity_temperature_per_k",
@@ -538,7 +546,7 @@ pub const KNOWN_KEYS: &[(&str, &[&str])] = &[
     ("materials.*.streamer", &["critical_v_per_pa_m", "b", "n", "from_pa_m"]),
     ("materials.*.strength_at", &["temperature_c", "water_volume_pct"]),
     ("materials.*.debye", &["eps_inf", "delta_eps", "tau_s", "activation_ev"]),
-    ("stack", &["form", "voltage_kv", "width", "inner_radius", "length", "layers"]),
+    ("stack", &["form", "voltage_kv", "width", "inner_radius", "length", "layers", "face_temperatures_c"]),
     ("stack.layers[]", &["name", "material", "thickness", "temperature_c", "water"]),
     ("stack.layers[].water", &["volume_pct", "mass_pct", "rule"]),
     ("parts[]", &["name", "material", "electrode", "shape", "temperature_c", "water"]),

@@ -387,13 +387,17 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
         None => base.and_then(|b| b.strength_kv_per_mm),
     };
     let impulse_strength = f.impulse_strength_kv_per_mm;
-    if let Some(s) = impulse_strength {
-        let k = format!("{key}.impulse_strength_kv_per_mm");
-        if !(s.is_finite() && (limits::MIN_STRENGTH_KV_PER_MM..=limits::MAX_STRENGTH_KV_PER_MM).contains(&s)) {
+    let dc_strength = f.dc_strength_kv_per_mm;
+    for (value, name, what) in
+        [(impulse_strength, "impulse_strength_kv_per_mm", "impulse"), (dc_strength, "dc_strength_kv_per_mm", "DC")]
+    {
+        if let Some(s) = value
+            && !(s.is_finite() && (limits::MIN_STRENGTH_KV_PER_MM..=limits::MAX_STRENGTH_KV_PER_MM).contains(&s))
+        {
             ctx.err(
-                &k,
+                &format!("{key}.{name}"),
                 format!(
-                    "impulse strength {s} kV/mm is outside {} to {} kV/mm; strengths are in kV/mm (peak)",
+                    "{what} strength {s} kV/mm is outside {} to {} kV/mm; strengths are in kV/mm (peak)",
                     num(limits::MIN_STRENGTH_KV_PER_MM),
                     num(limits::MAX_STRENGTH_KV_PER_MM)
                 ),
@@ -467,6 +471,7 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
         || f.debye.is_some()
         || f.townsend.is_some()
         || f.impulse_strength_kv_per_mm.is_some()
+        || f.dc_strength_kv_per_mm.is_some()
         || f.streamer.is_some()
         || f.conductivity_s_per_m.is_some()
         || f.reference_temperature_c.is_some()
@@ -541,6 +546,7 @@ fn user_material(ctx: &mut Ctx, name: &str, f: &MaterialFile) -> Option<Material
         strength_v_per_m: strength.map(units::kv_per_mm),
         strength_basis,
         impulse_strength_v_per_m: impulse_strength.map(units::kv_per_mm),
+        dc_strength_v_per_m: dc_strength.map(units::kv_per_mm),
         strength_thickness_m: if f.strength_kv_per_mm.is_some() {
             None
         } else {
@@ -1045,6 +1051,16 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
     let loc = ctx.loc;
     let position = |key: &str| loc.find(key).map_or((None, None), |(l, c)| (Some(l), Some(c)));
     let (line, column) = position("stack");
+    let mut face_t = [None, None];
+    if let Some(t) = s.face_temperatures_c {
+        let mut good = true;
+        for v in t {
+            good &= ctx.temperature("stack.face_temperatures_c", v);
+        }
+        if good {
+            face_t = [Some(t[0]), Some(t[1])];
+        }
+    }
     let electrode = |name: &str, r: Rect, potential_v: f64| Part {
         name: name.to_string(),
         role: Role::Electrode(ElectrodeKind::Fixed { potential_v }),
@@ -1052,7 +1068,7 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
         key: "stack".to_string(),
         line,
         column,
-        service: Service::default(),
+        service: Service { temperature_c: if potential_v != 0.0 { face_t[0] } else { face_t[1] }, water: None },
     };
     match s.form {
         StackForm::Planar => {
@@ -1531,6 +1547,26 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
     else {
         return (None, ctx.diags);
     };
+    if operation.mode != Mode::Dc {
+        for p in parts.iter().filter(|p| matches!(p.role, Role::Electrode(_)) && p.service.temperature_c.is_some()) {
+            let key = if p.key == "stack" {
+                "stack.face_temperatures_c".to_string()
+            } else {
+                format!("{}.temperature_c", p.key)
+            };
+            ctx.err(
+                &key,
+                format!(
+                    "electrode '{}': an electrode temperature drives the thermal solve of `operation: {{ mode: dc }}`; \
+                     in other modes give temperatures to the insulating parts",
+                    p.name
+                ),
+            );
+        }
+        if !ctx.diags.is_empty() {
+            return (None, ctx.diags);
+        }
+    }
     let mut refine_boxes = refine_boxes;
     refine_boxes.extend(curved_boxes(&parts, &grid));
     let case = Case {
@@ -1644,10 +1680,8 @@ fn service(
 ) -> Option<Service> {
     let mut ok = true;
     if let Some(t) = temperature {
-        if material.is_none() {
-            ctx.err(&format!("{key}.temperature_c"), "applies to insulating parts, not to electrodes");
-            return None;
-        }
+        // an electrode's temperature is a boundary value of the DC thermal
+        // solve (checked against the mode once the case is read)
         ok &= ctx.temperature(&format!("{key}.temperature_c"), t);
     }
     let Some(w) = water else { return ok.then_some(Service { temperature_c: temperature, water: None }) };
@@ -1737,6 +1771,7 @@ fn operation(ctx: &mut Ctx, o: Option<&OperationFile>) -> Option<Operation> {
         None | Some(ModeFile::Static) => Mode::Static,
         Some(ModeFile::Ac) => Mode::Ac,
         Some(ModeFile::Impulse) => Mode::Impulse,
+        Some(ModeFile::Dc) => Mode::Dc,
     };
     let mut ok = true;
     let values = match (mode, o.values) {
@@ -1753,6 +1788,15 @@ fn operation(ctx: &mut Ctx, o: Option<&OperationFile>) -> Option<Operation> {
         (Mode::Impulse, None | Some(ValuesFile::Peak)) => Values::Peak,
         (Mode::Impulse, Some(ValuesFile::Rms)) => {
             ctx.err("operation.values", "an impulse is stated by its peak value, not an rms one; write `values: peak`");
+            ok = false;
+            Values::Peak
+        }
+        (Mode::Dc, None | Some(ValuesFile::Peak)) => Values::Peak,
+        (Mode::Dc, Some(ValuesFile::Rms)) => {
+            ctx.err(
+                "operation.values",
+                "a DC voltage is stated by its steady value; write `values: peak` (or leave `values` out)",
+            );
             ok = false;
             Values::Peak
         }
@@ -1779,6 +1823,11 @@ fn operation(ctx: &mut Ctx, o: Option<&OperationFile>) -> Option<Operation> {
                 "applies to `mode: ac`; an impulse is the standard 1.2/50 µs shape (permittivities are taken at \
                  about 290 kHz, the bandwidth of its front)",
             );
+            ok = false;
+            DEFAULT_FREQUENCY_HZ
+        }
+        (Mode::Dc, Some(_)) => {
+            ctx.err("operation.frequency_hz", "applies to `mode: ac`; a DC field has no frequency");
             ok = false;
             DEFAULT_FREQUENCY_HZ
         }

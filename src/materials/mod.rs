@@ -629,6 +629,8 @@ pub struct Material {
     pub strength_basis: Values,
     /// Lightning-impulse strength (peak) in V/m, where given.
     pub impulse_strength_v_per_m: Option<f64>,
+    /// DC strength in V/m, where given.
+    pub dc_strength_v_per_m: Option<f64>,
     /// Specimen thickness of the strength value in m, where known.
     pub strength_thickness_m: Option<f64>,
     /// Conditions up to which the strength holds (library values: dry at 20 °C).
@@ -691,6 +693,7 @@ impl Material {
             strength_v_per_m: entry.strength_kv_per_mm.map(units::kv_per_mm),
             strength_basis: entry.strength_basis,
             impulse_strength_v_per_m: None,
+            dc_strength_v_per_m: None,
             strength_thickness_m: entry.strength_thickness_mm.map(units::mm),
             strength_conditions: DRY_AT_REFERENCE,
             density_kg_per_m3: Some(entry.density_kg_per_m3),

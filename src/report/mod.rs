@@ -55,6 +55,8 @@ pub struct Inputs<'a> {
     pub ac: Option<&'a crate::coefficients::AcLosses>,
     /// The AC field was solved with its losses (complex).
     pub lossy: bool,
+    /// DC cases: reversal and capacitive peaks, temperatures, time constants.
+    pub dc: Option<&'a crate::conduction::DcResults>,
 }
 
 fn verdict(v: Verdict) -> VerdictOut {
@@ -282,6 +284,25 @@ pub fn message(kind: &FindingKind, values: crate::units::Values) -> String {
              the stress, sheds it onto its neighbours, and its conduction loss heats it.",
             g3(*ratio)
         ),
+        FindingKind::FieldInversion { resistive_fraction, capacitive_fraction } => format!(
+            "under DC the peak stress sits where the potential is {} % of the way up, against {} % in the capacitive \
+             field: the conductivities (temperature, field) moved the stress to the other side of the insulation \
+             (field inversion). Check the low-voltage side's interfaces and the whole temperature range of service.",
+            g3(100.0 * resistive_fraction),
+            g3(100.0 * capacitive_fraction)
+        ),
+        FindingKind::ReversalStress { e_reversal, strength } => format!(
+            "just after a polarity reversal the field reaches {} here (the resistive field with twice the \
+             capacitive change superposed), against a strength of {} and the safety factor; this matters where the \
+             system reverses polarity (line-commutated converters).",
+            field(*e_reversal),
+            field(*strength)
+        ),
+        FindingKind::DcStrengthMissing { material } => format!(
+            "{material} has no DC strength, so its short-term AC strength was used as a peak value; DC strengths \
+             are usually higher but fall with temperature and space charge. Give the datasheet value as \
+             `dc_strength_kv_per_mm` under `materials:`."
+        ),
         FindingKind::ImpulseStrengthMissing { material } => format!(
             "{material} has no lightning-impulse strength, so its short-term (AC) strength was used as a peak value; \
              impulse strengths are usually higher, so the margin is conservative. Give the datasheet value as \
@@ -409,6 +430,7 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
         losses,
         ac,
         lossy,
+        dc,
     } = *inp;
     let loss_unit = loss_unit(case.normalisation);
     let (c_unit, q_unit, w_unit, per) = extensive_units(case.normalisation);
@@ -455,7 +477,10 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
                 loss_density_max_w_per_m3: losses.map(|l| l.regions[p.region].density_max),
                 loss: losses.map(|l| Quantity { value: l.regions[p.region].total, unit: loss_unit }),
                 sigma_over_omega_epsilon: ac.map(|a| a.conduction_ratio[p.region]),
-                temperature_range_c: None,
+                temperature_range_c: dc.and_then(|d| d.temperature[p.region]),
+                e_max_capacitive_kv_per_mm: dc.map(|d| to_kv_per_mm(d.capacitive_e_max[p.region])),
+                reversal_e_max_kv_per_mm: dc.map(|d| to_kv_per_mm(d.reversal_e_max[p.region])),
+                time_constant_s: dc.and_then(|d| d.time_constant[p.region]),
             }
         })
         .collect();
@@ -513,11 +538,13 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
                 Mode::Static => "static",
                 Mode::Ac => "ac",
                 Mode::Impulse => "impulse",
+                Mode::Dc => "dc",
             },
             frequency_hz: (case.operation.mode == Mode::Ac).then_some(case.operation.frequency_hz),
             values: case.operation.values.name(),
             stated: case.operation.stated,
             field_with_losses: (case.operation.mode == Mode::Ac).then_some(lossy),
+            dc_iterations: dc.map(|d| d.iterations),
         },
         environment: EnvironmentOut {
             temperature_c: case.environment.temperature_c,

@@ -163,12 +163,23 @@ pub struct PartOut {
     /// DC with a thermal solve: the part's lowest and highest temperature,
     /// °C (null otherwise).
     pub temperature_range_c: Option<[f64; 2]>,
+    /// DC: the peak of the capacitive field of the same potentials (just
+    /// after switching on), kV/mm (null unless dc).
+    pub e_max_capacitive_kv_per_mm: Option<f64>,
+    /// DC: the peak field just after the polarity reverses from +U to −U:
+    /// the resistive field plus twice the capacitive change (superposition),
+    /// kV/mm (null unless dc).
+    pub reversal_e_max_kv_per_mm: Option<f64>,
+    /// DC: the time constant ε/σ of the capacitive-to-resistive transition
+    /// over the part's temperature range, [shortest, longest], s (null
+    /// unless dc).
+    pub time_constant_s: Option<[f64; 2]>,
 }
 
 /// `operation`
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct OperationOut {
-    /// `static`, `ac` or `impulse`.
+    /// `static`, `ac`, `dc` or `impulse`.
     pub mode: &'static str,
     /// AC frequency (null unless ac).
     pub frequency_hz: Option<f64>,
@@ -180,6 +191,8 @@ pub struct OperationOut {
     /// admittivities; fields are phasor magnitudes), false when the loss
     /// tangents differ too little to change it (null unless ac).
     pub field_with_losses: Option<bool>,
+    /// DC: iterations of the conduction (and thermal) solve (null unless dc).
+    pub dc_iterations: Option<usize>,
 }
 
 /// `environment`

@@ -88,6 +88,9 @@ fn values_sentence(r: &CheckReport) -> String {
                 ""
             }
         ),
+        ("dc", _) => "peak — steady DC: every voltage, field and strength below is the steady (peak) value; the field \
+                      is set by the conductivities"
+            .to_string(),
         ("impulse", _) => "peak — lightning impulse (1.2/50 µs): every voltage, field and strength below is a peak \
                            value"
             .to_string(),
@@ -302,6 +305,39 @@ pub fn render_text(r: &CheckReport) -> String {
         let _ = writeln!(o, "capacitance  {} {} (from the electrode charge)", sig4(c.value), c.unit);
     }
     let _ = writeln!(o, "energy       {} {}", sig4(r.energy.value), r.energy.unit);
+    if let Some(n) = r.operation.dc_iterations {
+        let _ = writeln!(
+            o,
+            "\nDC conduction (steady state after {n} iterations; capacitive = just after switching on; reversal = just \
+             after the polarity reverses, superposition)"
+        );
+        let range = |v: Option<[f64; 2]>, scale: f64| {
+            v.map_or("—".into(), |[a, b]| format!("{} – {}", sig4(a * scale), sig4(b * scale)))
+        };
+        let rows = r
+            .parts
+            .iter()
+            .map(|p| {
+                vec![
+                    p.name.clone(),
+                    sig4(p.e_max_kv_per_mm),
+                    opt(p.e_max_capacitive_kv_per_mm),
+                    opt(p.reversal_e_max_kv_per_mm),
+                    range(p.temperature_range_c, 1.0),
+                    range(p.time_constant_s, 1.0 / 3600.0),
+                ]
+            })
+            .collect();
+        let _ = writeln!(
+            o,
+            "{}",
+            table(
+                &["part", "E max kV/mm", "capacitive kV/mm", "reversal kV/mm", "T °C", "ε/σ h"],
+                rows,
+                &[1, 2, 3, 4, 5]
+            )
+        );
+    }
     if let Some(l) = &r.dielectric_loss {
         let _ = writeln!(o, "losses       {} {} (dielectric and conduction, all parts)", sig4(l.value), l.unit);
         let rows = r
