@@ -355,4 +355,98 @@ pub struct DcResults {
     pub time_constant: Vec<Option<[f64; 2]>>,
     /// Picard iterations taken.
     pub iterations: usize,
+    /// Charge accumulated on each interface between two insulating parts.
+    pub interfaces: Vec<InterfaceCharge>,
+}
+
+/// The charge a DC field accumulates on one interface between two parts
+/// (where σ/ε differs on the two sides: ρs = ε2·E2n − ε1·E1n).
+#[derive(Debug, Clone, PartialEq)]
+pub struct InterfaceCharge {
+    /// The two regions (layout order, lower index first).
+    pub regions: [usize; 2],
+    /// Net charge, C (or C/m as the case normalises).
+    pub charge: f64,
+    /// Mean surface density: charge over the interface's area, C/m².
+    pub density_mean: f64,
+}
+
+/// Interface charges below this fraction of the largest |charge| of the
+/// case's electrodes are round-off and count as zero.
+const INTERFACE_CHARGE_RESOLUTION: f64 = 1e-7;
+
+/// The charge on every interface between two insulating regions: the Gauss
+/// flux of D = ε·E out of the dual cells of the free nodes whose cells
+/// belong to exactly those two regions (the band around the interface: its
+/// net flux is the charge enclosed, however the interface cuts the cells),
+/// with the interface's area from the cell faces between the two regions.
+/// `stencil` is the permittivity stencil; `electrode_charge` the largest
+/// electrode |charge| (for the round-off floor), `scale` the case's
+/// normalisation of extensive results.
+pub fn interface_charges(
+    grid: &Grid,
+    geometry: Geometry,
+    layout: &Layout,
+    stencil: &Stencil,
+    phi: &[f64],
+    electrode_charge: f64,
+    scale: f64,
+) -> Vec<InterfaceCharge> {
+    use std::collections::BTreeMap;
+    let (nx, ny) = (grid.nx(), grid.ny());
+    let region = |i: usize, j: usize| layout.cell_region[grid.cell(i, j).0];
+    let pair =
+        |a: u32, b: u32| (a != b && a != CONDUCTOR && b != CONDUCTOR).then(|| [a.min(b) as usize, a.max(b) as usize]);
+    let mut charge: BTreeMap<[usize; 2], f64> = BTreeMap::new();
+    for j in 0..ny {
+        for i in 0..nx {
+            let n = grid.node(i, j);
+            if layout.node_electrode[n.0] != crate::grid::NO_ELECTRODE {
+                continue;
+            }
+            let mut present: Vec<u32> =
+                [(i.wrapping_sub(1), j.wrapping_sub(1)), (i, j.wrapping_sub(1)), (i.wrapping_sub(1), j), (i, j)]
+                    .iter()
+                    .filter(|&&(a, b)| a < nx - 1 && b < ny - 1)
+                    .map(|&(a, b)| region(a, b))
+                    .collect();
+            present.sort_unstable();
+            present.dedup();
+            if let [a, b] = present[..]
+                && let Some(p) = pair(a, b)
+            {
+                *charge.entry(p).or_default() += stencil.outflux(grid, phi, std::iter::once(n));
+            }
+        }
+    }
+    let mut area: BTreeMap<[usize; 2], f64> = BTreeMap::new();
+    for j in 0..ny - 1 {
+        for i in 0..nx - 1 {
+            let (x0, x1, hy) = (grid.x[i], grid.x[i + 1], grid.y[j + 1] - grid.y[j]);
+            if j > 0
+                && let Some(p) = pair(region(i, j - 1), region(i, j))
+            {
+                *area.entry(p).or_default() += match geometry {
+                    Geometry::Planar => x1 - x0,
+                    Geometry::Axisymmetric => PI * (x1 * x1 - x0 * x0),
+                };
+            }
+            if i > 0
+                && let Some(p) = pair(region(i - 1, j), region(i, j))
+            {
+                *area.entry(p).or_default() += match geometry {
+                    Geometry::Planar => hy,
+                    Geometry::Axisymmetric => 2.0 * PI * x0 * hy,
+                };
+            }
+        }
+    }
+    charge
+        .into_iter()
+        .map(|(regions, q)| {
+            let q = if q.abs() <= INTERFACE_CHARGE_RESOLUTION * electrode_charge { 0.0 } else { q };
+            let a = area.get(&regions).copied().unwrap_or(0.0);
+            InterfaceCharge { regions, charge: scale * q, density_mean: if a > 0.0 { q / a } else { 0.0 } }
+        })
+        .collect()
 }

@@ -327,7 +327,7 @@ fn cell_volume(grid: &Grid, geometry: Geometry, c: CellIx) -> f64 {
 }
 
 /// Scale applied to extensive results (charge, energy).
-fn extensive_scale(n: Normalisation) -> f64 {
+pub fn extensive_scale(n: Normalisation) -> f64 {
     match n {
         Normalisation::PerMetreAxial { length_m } => 1.0 / length_m,
         Normalisation::PerMetreDepth | Normalisation::Whole => 1.0,

@@ -411,6 +411,16 @@ impl Prepared {
             ),
             temperature,
             iterations: state.iterations,
+            interfaces: conduction::interface_charges(
+                &self.grid,
+                self.case.geometry,
+                &self.layout,
+                &self.service.stencil,
+                phi,
+                f.electrodes.iter().map(|e| e.charge.abs()).fold(0.0, f64::max)
+                    / fields::extensive_scale(self.case.normalisation),
+                fields::extensive_scale(self.case.normalisation),
+            ),
         }
     }
 
@@ -467,7 +477,14 @@ impl Prepared {
             dc: dc.as_ref(),
         });
         let losses = self.service.ac.as_ref().map(|ac| fields::losses(&f, ac, self.case.operation.values));
-        Ok(Evaluated { fields: f, discharge, check, assessment, losses, dc })
+        let phase_deg = solution.quadrature.as_ref().map(|_| {
+            f.regions
+                .iter()
+                .enumerate()
+                .map(|(r, rf)| if rf.e_max > 0.0 { sampler.phase_deg(rf.e_max_at, r as u32) } else { 0.0 })
+                .collect()
+        });
+        Ok(Evaluated { fields: f, discharge, check, assessment, losses, dc, phase_deg })
     }
 
     /// The result model; `seconds` is the solve time measured by the caller.
@@ -488,6 +505,7 @@ impl Prepared {
                 ac: self.service.ac.as_ref(),
                 lossy: self.service.lossy.is_some(),
                 dc: e.dc.as_ref(),
+                phase_deg: e.phase_deg.as_deref(),
             },
             seconds,
         ))
@@ -509,6 +527,9 @@ pub struct Evaluated {
     pub losses: Option<fields::Losses>,
     /// DC cases: reversal, capacitive peaks, temperatures, time constants.
     pub dc: Option<conduction::DcResults>,
+    /// AC with losses: the phase of each region's peak field against the
+    /// applied voltage, degrees.
+    pub phase_deg: Option<Vec<f64>>,
 }
 
 /// Runs the whole pipeline on case text (solve time reported as 0).

@@ -92,6 +92,9 @@ pub fn files(
     if let Some(per_e2) = &loss_coefficients {
         extra_maps.push(("loss-map", "loss density map", map_of(Shade::LossDensity { per_e2 })));
     }
+    if let Some(nodal_c) = solution.dc.as_ref().and_then(|d| d.temperature.as_deref()) {
+        extra_maps.push(("temperature-map", "temperature map", map_of(Shade::Temperature { nodal_c })));
+    }
     let mut json = serde_json::to_vec_pretty(report)?;
     json.push(b'\n');
     let mut out = vec![

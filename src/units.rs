@@ -62,6 +62,11 @@ pub fn to_nc(value_c: f64) -> f64 {
     value_c * 1e9
 }
 
+/// Coulombs to microcoulombs (surface densities: C/m² to µC/m²).
+pub fn to_uc(value_c: f64) -> f64 {
+    value_c * 1e6
+}
+
 /// Whether voltages, fields and strengths are rms or peak values.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Values {

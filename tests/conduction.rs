@@ -121,6 +121,12 @@ stack:
     let tau = part(&r, "a").time_constant_s.unwrap();
     assert!(rel(tau[0] / 3600.0, 56.6) < 2e-3 && tau[0] == tau[1], "{tau:?}");
     assert!(part(&r, "a").temperature_range_c.is_none(), "no thermal solve without electrode temperatures");
+    // the interface accumulates ρs = ε0·(εb·Eb − εa·Ea) = 8.854e-12·(4.6·1e6 − 2.3·1e7) = −162.9 µC/m²
+    // (Gauss's law at the interface, common practice): −1629 nC per metre of the 10 mm width
+    let i = &r.interface_charges[0];
+    assert_eq!(i.parts, ["a".to_string(), "b".to_string()]);
+    assert!(rel(i.density_mean_uc_per_m2, -162.9) < 1e-3, "{}", i.density_mean_uc_per_m2);
+    assert!(rel(i.charge.value, -1629.0) < 1e-3, "{}", i.charge.value);
 }
 
 /// A field-dependent conductivity σ = σ0·exp(β·E) in one of two series

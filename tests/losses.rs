@@ -47,6 +47,12 @@ fn a_conducting_layer_sheds_its_stress_by_the_complex_divider() {
     assert!(rel(a.e_max_kv_per_mm, 4.472) < 2e-4, "{}", a.e_max_kv_per_mm);
     assert!(rel(b.e_max_kv_per_mm, 6.325) < 2e-4, "{}", b.e_max_kv_per_mm);
     assert!(rel(b.sigma_over_omega_epsilon.unwrap(), 1.0) < 1e-9);
+    // phases against the applied voltage: arg(κb/(κa + κb)) = −26.57° and
+    // arg(κa/(κa + κb)) = +18.43° (same series admittances)
+    let (ka, kb) = (Complex64::new(4.0, 0.0), Complex64::new(2.0, -2.0));
+    let phase = |k: Complex64| (k / (ka + kb)).arg().to_degrees();
+    assert!((a.e_max_phase_deg.unwrap() - phase(kb)).abs() < 0.05, "{:?} vs {}", a.e_max_phase_deg, phase(kb));
+    assert!((b.e_max_phase_deg.unwrap() - phase(ka)).abs() < 0.05, "{:?} vs {}", b.e_max_phase_deg, phase(ka));
     assert!(codes(&r, "b").contains(&"resistive-capacitive-crossover".to_string()));
     assert!(!codes(&r, "a").iter().any(|c| c.contains("crossover") || c.contains("conduction")));
     // the conducting layer's loss σ·E² (Joule heating, common practice)

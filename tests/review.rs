@@ -350,3 +350,18 @@ fn console_check_catches_a_page_that_logs() {
     let (_, console) = render_in_browser(&page, &tmp.path().join("bad.png"));
     assert!(console.iter().any(|l| l.contains("broken")), "{console:?}");
 }
+
+/// A DC case with a thermal solve gets a temperature map whose colour bar
+/// spans the solved range (the demo's conductor and screen, 70 and 50 °C),
+/// and the review page shows it.
+#[test]
+fn a_dc_case_with_temperatures_has_a_temperature_map() {
+    let (_t, dir, out) = review_of("cases/hvdc-cable-loaded.yaml");
+    assert_eq!(out.status.code(), Some(1), "review verdict: {}", String::from_utf8_lossy(&out.stderr));
+    let svg = read(&dir.join("temperature-map.svg"));
+    assert!(svg.contains("T (°C)"), "colour bar title");
+    assert!(svg.contains(">\n50\n<") && svg.contains(">\n70\n<"), "ticks at the range ends");
+    assert!(dir.join("temperature-map.png").exists());
+    let page = read(&dir.join("index.html"));
+    assert!(page.contains("temperature in °C"), "the page shows the temperature map");
+}

@@ -108,6 +108,32 @@ impl<'a> Sampler<'a> {
         (e, self.quadrature.as_ref().map(|(_, q)| self.field_in(c, at, q)))
     }
 
+    /// [`Sampler::parts`] taken in a cell of `region` that touches `at`
+    /// where there is one (a point on an interface belongs to both sides).
+    pub fn parts_in(&self, at: [f64; 2], region: u32) -> ([f64; 2], Option<[f64; 2]>) {
+        let c = self
+            .grid
+            .cells_touching(at)
+            .find(|c| self.layout.cell_region[c.0] == region)
+            .unwrap_or_else(|| self.cell_of(at));
+        let e = self.field_in(c, at, &self.ev);
+        (e, self.quadrature.as_ref().map(|(_, q)| self.field_in(c, at, q)))
+    }
+
+    /// The phase of the field at `at` in `region` against the (real) fixed
+    /// potentials, degrees: of the component along the axis of its ellipse
+    /// (0 for a real solution).
+    pub fn phase_deg(&self, at: [f64; 2], region: u32) -> f64 {
+        match self.parts_in(at, region) {
+            (_, None) => 0.0,
+            (e, Some(q)) => {
+                let u = ellipse_axis(e, q);
+                let (a, b) = (e[0] * u[0] + e[1] * u[1], q[0] * u[0] + q[1] * u[1]);
+                if a == 0.0 && b == 0.0 { 0.0 } else { b.atan2(a).to_degrees() }
+            }
+        }
+    }
+
     fn cell_of(&self, at: [f64; 2]) -> crate::grid::CellIx {
         let (grid, layout) = (self.grid, self.layout);
         grid.cells_touching(at).find(|c| layout.cell_region[c.0] != CONDUCTOR).unwrap_or_else(|| grid.locate(at))

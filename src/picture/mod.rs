@@ -338,7 +338,11 @@ pub fn build(inp: &MapInputs, config: &MapConfig) -> FieldMap {
     let scale = match shade {
         Shade::Field => [0.0, nice(report.parts.iter().map(|p| p.e_max_kv_per_mm).fold(0.0, f64::max), true)],
         Shade::LossDensity { .. } => [0.0, nice(hi.max(f64::MIN_POSITIVE), true)],
-        Shade::Temperature { .. } if hi > lo => [nice(lo, false).min(lo), nice(hi, true)],
+        Shade::Temperature { .. } if hi > lo => {
+            // whole steps of a round size around the range
+            let step = nice((hi - lo) / 5.0, true);
+            [(lo / step).floor() * step, (hi / step).ceil() * step]
+        }
         Shade::Temperature { .. } => [lo.floor() - 1.0, hi.ceil() + 1.0],
     };
 

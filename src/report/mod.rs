@@ -57,6 +57,8 @@ pub struct Inputs<'a> {
     pub lossy: bool,
     /// DC cases: reversal and capacitive peaks, temperatures, time constants.
     pub dc: Option<&'a crate::conduction::DcResults>,
+    /// AC with losses: the phase of each region's peak field, degrees.
+    pub phase_deg: Option<&'a [f64]>,
 }
 
 fn verdict(v: Verdict) -> VerdictOut {
@@ -431,6 +433,7 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
         ac,
         lossy,
         dc,
+        phase_deg,
     } = *inp;
     let loss_unit = loss_unit(case.normalisation);
     let (c_unit, q_unit, w_unit, per) = extensive_units(case.normalisation);
@@ -477,6 +480,7 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
                 loss_density_max_w_per_m3: losses.map(|l| l.regions[p.region].density_max),
                 loss: losses.map(|l| Quantity { value: l.regions[p.region].total, unit: loss_unit }),
                 sigma_over_omega_epsilon: ac.map(|a| a.conduction_ratio[p.region]),
+                e_max_phase_deg: phase_deg.map(|v| v[p.region]),
                 temperature_range_c: dc.and_then(|d| d.temperature[p.region]),
                 e_max_capacitive_kv_per_mm: dc.map(|d| to_kv_per_mm(d.capacitive_e_max[p.region])),
                 reversal_e_max_kv_per_mm: dc.map(|d| to_kv_per_mm(d.reversal_e_max[p.region])),
@@ -596,6 +600,18 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
                 at_mm: s.at.map(to_mm),
             })
             .collect(),
+        interface_charges: dc
+            .map(|d| {
+                d.interfaces
+                    .iter()
+                    .map(|i| model::InterfaceChargeOut {
+                        parts: i.regions.map(|r| layout.regions[r].name.clone()),
+                        charge: Quantity { value: to_nc(i.charge), unit: q_unit },
+                        density_mean_uc_per_m2: crate::units::to_uc(i.density_mean),
+                    })
+                    .collect()
+            })
+            .unwrap_or_default(),
         surface_tangential_limit_kv_per_mm: case.surface_tangential_limit.map(to_kv_per_mm),
         pd_inception_kv: assessment.pd_inception.map(to_kv),
         pd_inception_margin: case.pd_inception_margin,

@@ -160,6 +160,9 @@ pub struct PartOut {
     /// AC: conduction against displacement current, σ/(ωε0εr) (null unless
     /// ac).
     pub sigma_over_omega_epsilon: Option<f64>,
+    /// AC solved with losses: the phase of the peak field against the
+    /// applied voltage, degrees (null otherwise).
+    pub e_max_phase_deg: Option<f64>,
     /// DC with a thermal solve: the part's lowest and highest temperature,
     /// °C (null otherwise).
     pub temperature_range_c: Option<[f64; 2]>,
@@ -325,6 +328,10 @@ pub struct CheckReport {
     /// Solid–gas and solid–liquid surfaces with their largest tangential
     /// field, in the case's convention.
     pub surfaces: Vec<SurfaceOut>,
+    /// DC: the charge accumulated on each interface between two insulating
+    /// parts (absent unless dc).
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub interface_charges: Vec<InterfaceChargeOut>,
     /// The case's limit on the tangential field (null: none given).
     pub surface_tangential_limit_kv_per_mm: Option<f64>,
     /// The lowest `pd_inception_kv` over the gas parts (null without gas
@@ -353,6 +360,17 @@ pub struct CheckReport {
     pub hvstack_version: &'static str,
     /// SHA-256 of the case file's bytes (hex), empty for cases built in code.
     pub case_sha256: String,
+}
+
+/// DC: one interface's accumulated charge.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct InterfaceChargeOut {
+    /// The two parts.
+    pub parts: [String; 2],
+    /// Net charge (nC, or nC/m).
+    pub charge: Quantity,
+    /// Mean surface charge density, µC/m².
+    pub density_mean_uc_per_m2: f64,
 }
 
 /// One solid–fluid surface.

@@ -337,6 +337,21 @@ pub fn render_text(r: &CheckReport) -> String {
                 &[1, 2, 3, 4, 5]
             )
         );
+        if !r.interface_charges.is_empty() {
+            let rows = r
+                .interface_charges
+                .iter()
+                .map(|i| {
+                    vec![
+                        format!("{} | {}", i.parts[0], i.parts[1]),
+                        sig4(i.charge.value),
+                        sig4(i.density_mean_uc_per_m2),
+                    ]
+                })
+                .collect();
+            let head = format!("charge {}", r.interface_charges[0].charge.unit);
+            let _ = writeln!(o, "{}", table(&["interface", &head, "mean µC/m²"], rows, &[1, 2]));
+        }
     }
     if let Some(l) = &r.dielectric_loss {
         let _ = writeln!(o, "losses       {} {} (dielectric and conduction, all parts)", sig4(l.value), l.unit);
@@ -349,11 +364,16 @@ pub fn render_text(r: &CheckReport) -> String {
                     opt(p.loss_density_max_w_per_m3),
                     p.loss.as_ref().map_or("—".into(), |q| sig4(q.value)),
                     opt(p.sigma_over_omega_epsilon),
+                    p.e_max_phase_deg.map_or("—".into(), |v| format!("{v:.1}")),
                 ]
             })
             .collect();
         let head = format!("loss {}", l.unit);
-        let _ = writeln!(o, "{}", table(&["part", "loss density max W/m³", &head, "σ/(ωε)"], rows, &[1, 2, 3]));
+        let _ = writeln!(
+            o,
+            "{}",
+            table(&["part", "loss density max W/m³", &head, "σ/(ωε)", "phase of E max °"], rows, &[1, 2, 3, 4])
+        );
     }
 
     if !r.probes.is_empty() {
