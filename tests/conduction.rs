@@ -206,3 +206,33 @@ stack:
     let e = hvstack::check(text, "nosigma.yaml", &hvstack::Options::default()).expect_err("refused");
     assert!(e.to_string().contains("odd has no conductivity"), "{e}");
 }
+
+/// Electrodes drawn as parts carry `temperature_c`: a 2 mm slab between
+/// plates at 80 °C (energised, y = 0) and 40 °C (earthed, y = 2 mm), σ =
+/// σ0·exp(0.02·(T − 20)). Steady heat conduction gives a linear T(y), so
+/// J = σ·E constant gives E(y) = U·a·e^(−a·y)/(1 − e^(−a·d)) with
+/// a = α·dT/dy (1D closed form, derived from J = σE and common practice):
+/// the peak is at the cold plate.
+#[test]
+fn drawn_electrodes_carry_temperatures() {
+    let r = run("
+title: hot and cold plates
+geometry: planar
+domain: { x: [0, 10], y: [-1, 3] }
+operation: { mode: dc }
+background: slab
+materials:
+  slab: { permittivity: 3, conductivity_s_per_m: 1e-15, conductivity_temperature_per_k: 0.02,
+          thermal_conductivity_w_per_m_k: 0.2, source: check value }
+parts:
+  - { name: hot plate, electrode: { potential_kv: 10 }, temperature_c: 80, shape: { rect: { x: [0, 10], y: [-1, 0] } } }
+  - { name: cold plate, electrode: { potential_kv: 0 }, temperature_c: 40, shape: { rect: { x: [0, 10], y: [2, 3] } } }
+");
+    let a = 0.02 * (40.0 - 80.0) / 2.0; // per mm
+    let e = |y: f64| 10.0 * a * (-a * y).exp() / (1.0 - (-a * 2.0f64).exp());
+    let slab = part(&r, "background");
+    assert!(rel(slab.e_max_kv_per_mm, e(2.0)) < 2e-3, "{} vs {}", slab.e_max_kv_per_mm, e(2.0));
+    assert!((slab.e_max_at_mm[1] - 2.0).abs() < 1e-9, "{:?}", slab.e_max_at_mm);
+    let [lo, hi] = slab.temperature_range_c.unwrap();
+    assert!((lo - 40.0).abs() < 1e-6 && (hi - 80.0).abs() < 1e-6, "{lo} {hi}");
+}
