@@ -265,7 +265,7 @@ pub const LIBRARY: &[LibraryEntry] = &[
         density_kg_per_m3: 1250.0,
         loss_tangent: Some(0.005),
         conduction: Some(LibraryConduction { sigma_s_per_m: 1e-15, temperature_per_k: 0.08, field_mm_per_kv: 0.0 }),
-        thermal_conductivity_w_per_m_k: 0.2,
+        thermal_conductivity_w_per_m_k: 0.286,
         conduction_source: THERMAL_IEC_60287,
         source: FROM_MEMORY,
         permittivity_range: (2.5, 3.6),
@@ -776,6 +776,10 @@ mod tests {
             assert!(e.permittivity >= 1.0, "{}", e.name);
             assert!(e.strength_kv_per_mm.is_none_or(|s| s > 0.0), "{}", e.name);
             assert!(!e.source.is_empty());
+            // conduction values within what a case may state, with a source
+            let (lo, hi) = crate::case::limits::CONDUCTIVITY_RANGE_S_PER_M;
+            assert!(e.conduction.is_none_or(|c| (lo..=hi).contains(&c.sigma_s_per_m)), "{}", e.name);
+            assert!(e.thermal_conductivity_w_per_m_k > 0.0 && !e.conduction_source.is_empty(), "{}", e.name);
         }
     }
 

@@ -687,6 +687,11 @@ pub fn materials() -> Vec<MaterialOut> {
             source: e.source,
             permittivity_range: [e.permittivity_range.0, e.permittivity_range.1],
             strength_range_kv_per_mm: e.strength_range.map(|r| [r.0, r.1]),
+            conductivity_s_per_m: e.conduction.map(|c| c.sigma_s_per_m),
+            conductivity_temperature_per_k: e.conduction.map(|c| c.temperature_per_k),
+            conductivity_field_mm_per_kv: e.conduction.map(|c| c.field_mm_per_kv),
+            thermal_conductivity_w_per_m_k: e.thermal_conductivity_w_per_m_k,
+            conduction_source: e.conduction_source,
         })
         .collect()
 }

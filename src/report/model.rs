@@ -452,4 +452,14 @@ pub struct MaterialOut {
     pub permittivity_range: [f64; 2],
     /// Range of strength published for it.
     pub strength_range_kv_per_mm: Option<[f64; 2]>,
+    /// Volume conductivity at 20 °C, S/m.
+    pub conductivity_s_per_m: Option<f64>,
+    /// Its temperature coefficient α, 1/K.
+    pub conductivity_temperature_per_k: Option<f64>,
+    /// Its field coefficient β, mm/kV.
+    pub conductivity_field_mm_per_kv: Option<f64>,
+    /// Thermal conductivity, W/(m·K).
+    pub thermal_conductivity_w_per_m_k: f64,
+    /// Source of the conduction and thermal values.
+    pub conduction_source: &'static str,
 }

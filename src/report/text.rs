@@ -455,9 +455,24 @@ pub fn render_materials(list: &[MaterialOut]) -> String {
         .collect();
     let head = ["material", "class", "εr", "εr range", "strength kV/mm", "at mm", "range", "tan δ"];
     let _ = writeln!(o, "{}", table(&head, rows, &[2, 3, 4, 5, 6, 7]));
+    let rows = list
+        .iter()
+        .map(|m| {
+            vec![
+                m.name.to_string(),
+                opt(m.conductivity_s_per_m),
+                opt(m.conductivity_temperature_per_k),
+                opt(m.conductivity_field_mm_per_kv),
+                sig4(m.thermal_conductivity_w_per_m_k),
+            ]
+        })
+        .collect();
+    let head = ["material", "σ at 20 °C S/m", "α 1/K", "β mm/kV", "k W/(m·K)"];
+    let _ = writeln!(o, "\nconduction (AC losses, DC fields) and heat\n{}", table(&head, rows, &[1, 2, 3, 4]));
     let _ = writeln!(o, "\nsources");
     for m in list {
         wrap(&mut o, &format!("  {:<22}", m.name), m.source);
+        wrap(&mut o, &format!("  {:<22}", ""), m.conduction_source);
     }
     let _ = writeln!(o);
     wrap(
