@@ -158,9 +158,26 @@ fn xpby(z: &ComplexVector, beta: Complex64, p: &mut ComplexVector) {
         });
 }
 
-fn precondition(m: &mut impl Preconditioner, r: &ComplexVector, z: &mut ComplexVector) {
-    m.apply(&r.re, &mut z.re);
-    m.apply(&r.im, &mut z.im);
+/// z = M⁻¹·r for both parts, through the preconditioner's two-part path
+/// (`buffers` holds the interleaved parts between calls).
+fn precondition(
+    m: &mut impl Preconditioner,
+    r: &ComplexVector,
+    z: &mut ComplexVector,
+    buffers: &mut (Vec<kernels::Pair>, Vec<kernels::Pair>),
+) {
+    let (ri, zi) = buffers;
+    ri.par_iter_mut()
+        .zip(r.re.par_iter().zip(r.im.par_iter()))
+        .with_min_len(kernels::CHUNK)
+        .for_each(|(p, (a, b))| *p = kernels::Pair([*a, *b]));
+    m.apply_pair(ri, zi);
+    z.re.par_iter_mut().zip(z.im.par_iter_mut()).zip(zi.par_iter()).with_min_len(kernels::CHUNK).for_each(
+        |((a, b), p)| {
+            *a = p.0[0];
+            *b = p.0[1];
+        },
+    );
 }
 
 /// |xᵀy| below this fraction of ‖x‖·‖y‖ counts as a breakdown of the
@@ -207,7 +224,8 @@ pub fn cocg(
         }
     }
     let mut z = ComplexVector::zeros(n);
-    precondition(m, &r, &mut z);
+    let mut buffers = (vec![kernels::Pair::default(); n], vec![kernels::Pair::default(); n]);
+    precondition(m, &r, &mut z, &mut buffers);
     let mut p = z.clone();
     let mut q = ComplexVector::zeros(n);
     let mut rz = bilinear(&r, &z);
@@ -253,7 +271,7 @@ pub fn cocg(
                     rel_tol: opts.rel_tol,
                 });
             }
-            precondition(m, &r, &mut z);
+            precondition(m, &r, &mut z, &mut buffers);
             rz = bilinear(&r, &z);
             p.clone_from(&z);
             continue;
@@ -264,7 +282,7 @@ pub fn cocg(
         {
             return Err(SolveError::NoConvergence { iterations: it, relative_residual: rel, rel_tol: opts.rel_tol });
         }
-        precondition(m, &r, &mut z);
+        precondition(m, &r, &mut z, &mut buffers);
         let rz_new = bilinear(&r, &z);
         if rz_new.norm() <= BREAKDOWN * r.norm() * z.norm() {
             return Err(SolveError::Breakdown { iteration: it });

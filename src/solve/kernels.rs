@@ -8,20 +8,71 @@ use rayon::prelude::*;
 /// Rows (or entries) per parallel task.
 pub const CHUNK: usize = 4096;
 
+/// A value the vector kernels work on: one real number, or a [`Pair`] of
+/// them (the real and imaginary parts of a complex vector, preconditioned
+/// together so that each matrix is read once for both).
+pub trait Lane:
+    Copy
+    + Send
+    + Sync
+    + Default
+    + std::ops::Add<Output = Self>
+    + std::ops::Sub<Output = Self>
+    + std::ops::Mul<f64, Output = Self>
+    + std::ops::AddAssign
+{
+}
+
+impl Lane for f64 {}
+
+/// Two real numbers carried together through the kernels.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct Pair(pub [f64; 2]);
+
+impl std::ops::Add for Pair {
+    type Output = Pair;
+    fn add(self, o: Pair) -> Pair {
+        Pair([self.0[0] + o.0[0], self.0[1] + o.0[1]])
+    }
+}
+
+impl std::ops::Sub for Pair {
+    type Output = Pair;
+    fn sub(self, o: Pair) -> Pair {
+        Pair([self.0[0] - o.0[0], self.0[1] - o.0[1]])
+    }
+}
+
+impl std::ops::Mul<f64> for Pair {
+    type Output = Pair;
+    fn mul(self, c: f64) -> Pair {
+        Pair([self.0[0] * c, self.0[1] * c])
+    }
+}
+
+impl std::ops::AddAssign for Pair {
+    fn add_assign(&mut self, o: Pair) {
+        self.0[0] += o.0[0];
+        self.0[1] += o.0[1];
+    }
+}
+
+impl Lane for Pair {}
+
 /// Σ_j a_ij·x_j for one row.
 #[inline]
-fn row_dot(indptr: &[usize], indices: &[u32], data: &[f64], row: usize, x: &[f64]) -> f64 {
+fn row_dot<T: Lane>(indptr: &[usize], indices: &[u32], data: &[f64], row: usize, x: &[T]) -> T {
     let (s, e) = (indptr[row], indptr[row + 1]);
-    let mut acc = 0.0;
+    let mut acc = T::default();
     for (v, j) in data[s..e].iter().zip(&indices[s..e]) {
-        acc += v * x[*j as usize];
+        acc += x[*j as usize] * *v;
     }
     acc
 }
 
 /// Applies `f(row, (A·x)_row, out)` to every row in parallel.
 #[inline]
-fn rows_with_product(a: &Matrix, x: &[f64], out: &mut [f64], f: impl Fn(usize, f64, &mut f64) + Sync) {
+fn rows_with_product<T: Lane>(a: &Matrix, x: &[T], out: &mut [T], f: impl Fn(usize, T, &mut T) + Sync) {
     let indptr = a.indptr();
     let indptr = indptr.raw_storage();
     let (indices, data) = (a.indices(), a.data());
@@ -35,29 +86,29 @@ fn rows_with_product(a: &Matrix, x: &[f64], out: &mut [f64], f: impl Fn(usize, f
 }
 
 /// y = A·x
-pub fn matvec(a: &Matrix, x: &[f64], y: &mut [f64]) {
+pub fn matvec<T: Lane>(a: &Matrix, x: &[T], y: &mut [T]) {
     rows_with_product(a, x, y, |_, ax, y| *y = ax);
 }
 
 /// y ← y + A·x
-pub fn matvec_add(a: &Matrix, x: &[f64], y: &mut [f64]) {
+pub fn matvec_add<T: Lane>(a: &Matrix, x: &[T], y: &mut [T]) {
     rows_with_product(a, x, y, |_, ax, y| *y += ax);
 }
 
 /// r = b − A·x
-pub fn residual(a: &Matrix, x: &[f64], b: &[f64], r: &mut [f64]) {
+pub fn residual<T: Lane>(a: &Matrix, x: &[T], b: &[T], r: &mut [T]) {
     rows_with_product(a, x, r, |i, ax, r| *r = b[i] - ax);
 }
 
 /// d ← c1·d + c2·w∘(b − A·x), one pass (a Chebyshev step).
-pub fn chebyshev_direction(a: &Matrix, x: &[f64], b: &[f64], w: &[f64], c1: f64, c2: f64, d: &mut [f64]) {
-    rows_with_product(a, x, d, |i, ax, d| *d = c1 * *d + c2 * w[i] * (b[i] - ax));
+pub fn chebyshev_direction<T: Lane>(a: &Matrix, x: &[T], b: &[T], w: &[f64], c1: f64, c2: f64, d: &mut [T]) {
+    rows_with_product(a, x, d, |i, ax, d| *d = *d * c1 + (b[i] - ax) * (c2 * w[i]));
 }
 
 /// out = x + c·w∘(b − A·x), one pass (a damped Jacobi step into a
 /// separate buffer).
-pub fn jacobi_into(a: &Matrix, x: &[f64], b: &[f64], w: &[f64], c: f64, out: &mut [f64]) {
-    rows_with_product(a, x, out, |i, ax, o| *o = x[i] + c * w[i] * (b[i] - ax));
+pub fn jacobi_into<T: Lane>(a: &Matrix, x: &[T], b: &[T], w: &[f64], c: f64, out: &mut [T]) {
+    rows_with_product(a, x, out, |i, ax, o| *o = x[i] + (b[i] - ax) * (c * w[i]));
 }
 
 /// q = A·p, returning p·q (chunked, in order).
@@ -114,8 +165,8 @@ pub fn norm(a: &[f64]) -> f64 {
 }
 
 /// y ← y + α·x
-pub fn axpy(alpha: f64, x: &[f64], y: &mut [f64]) {
-    y.par_iter_mut().zip(x.par_iter()).with_min_len(CHUNK).for_each(|(y, x)| *y += alpha * x);
+pub fn axpy<T: Lane>(alpha: f64, x: &[T], y: &mut [T]) {
+    y.par_iter_mut().zip(x.par_iter()).with_min_len(CHUNK).for_each(|(y, x)| *y += *x * alpha);
 }
 
 /// y ← x + β·y
@@ -124,8 +175,8 @@ pub fn xpby(x: &[f64], beta: f64, y: &mut [f64]) {
 }
 
 /// z ← c·d∘r (element-wise product)
-pub fn scale(c: f64, d: &[f64], r: &[f64], z: &mut [f64]) {
-    z.par_iter_mut().zip(r.par_iter().zip(d.par_iter())).with_min_len(CHUNK).for_each(|(z, (r, d))| *z = c * r * d);
+pub fn scale<T: Lane>(c: f64, d: &[f64], r: &[T], z: &mut [T]) {
+    z.par_iter_mut().zip(r.par_iter().zip(d.par_iter())).with_min_len(CHUNK).for_each(|(z, (r, d))| *z = *r * c * *d);
 }
 
 /// Inverse of the diagonal (1 where the diagonal is not positive).

@@ -10,7 +10,7 @@
 
 mod amg;
 pub mod complex;
-mod kernels;
+pub mod kernels;
 
 pub use amg::{Amg, AmgError, AmgOptions};
 pub use kernels::{dot, matvec, norm};
@@ -357,6 +357,20 @@ pub enum SolveError {
 pub trait Preconditioner {
     /// Applies the preconditioner (it may use internal scratch space).
     fn apply(&mut self, r: &[f64], z: &mut [f64]);
+    /// Applies it to two vectors carried together (the parts of a complex
+    /// vector). By default two `apply` calls; a preconditioner that reads
+    /// large matrices does both in one pass.
+    fn apply_pair(&mut self, r: &[kernels::Pair], z: &mut [kernels::Pair]) {
+        let n = r.len();
+        let (mut a, mut b) = (vec![0.0; n], vec![0.0; n]);
+        for k in 0..2 {
+            let part: Vec<f64> = r.iter().map(|p| p.0[k]).collect();
+            self.apply(&part, if k == 0 { &mut a } else { &mut b });
+        }
+        for (z, (a, b)) in z.iter_mut().zip(a.into_iter().zip(b)) {
+            *z = kernels::Pair([a, b]);
+        }
+    }
     /// Name for reports.
     fn name(&self) -> &str;
 }
