@@ -6,8 +6,9 @@
 //! (`materials::Conduction`). Where electrodes carry temperatures, the
 //! temperature solves div(k∇T) = −q with q = σ·|E|² (the insulation's own
 //! conduction loss; the conductor loss is represented by the electrode
-//! temperatures), electrodes without a temperature are isothermal bodies
-//! with no net heat flow, and the outer boundary is adiabatic
+//! temperatures or by the heat inputs given to electrodes), electrodes
+//! without a temperature are isothermal bodies whose net heat flow is their
+//! heat input (zero without one), and the outer boundary is adiabatic
 //! (zero flux). Without electrode temperatures each part is at its stated
 //! (or the environment's) temperature.
 //!
@@ -107,6 +108,9 @@ struct Thermal {
     /// Right-hand side of the fixed temperatures alone.
     rhs: Vec<f64>,
     fixed: Vec<f64>,
+    /// The electrodes' heat inputs as nodal sources, W (each on one node of
+    /// its electrode: an isothermal group, whose row sums its nodes).
+    heat: Vec<f64>,
 }
 
 fn thermal(case: &Case, grid: &Grid, layout: &Layout, factors: &Factors) -> Result<Option<Thermal>, DcError> {
@@ -117,7 +121,15 @@ fn thermal(case: &Case, grid: &Grid, layout: &Layout, factors: &Factors) -> Resu
     let pattern = Pattern::new(grid, &stencil, &constraints)?;
     let matrix = pattern.matrix(grid, &stencil);
     let rhs = pattern.rhs(grid, &stencil, &fixed);
-    Ok(Some(Thermal { pattern, matrix, rhs, fixed }))
+    let mut heat = vec![0.0; grid.nodes()];
+    for (k, e) in layout.electrodes.iter().enumerate() {
+        if let (Some(h), Some(n)) =
+            (case.parts[e.part].service.heat_w, layout.node_electrode.iter().position(|&x| x as usize == k))
+        {
+            heat[n] += h;
+        }
+    }
+    Ok(Some(Thermal { pattern, matrix, rhs, fixed, heat }))
 }
 
 /// Volume of a cell (per metre of depth when planar; the whole ring when
@@ -219,6 +231,7 @@ pub fn steady(inp: &Inputs, config: &SolverConfig) -> Result<(Vec<f64>, SolveRep
     let mut thermal_report = None;
     let solve_t = |solver: &mut Solver, t: &Thermal, q: &[f64], start: Option<&[f64]>| {
         let mut b = t.rhs.clone();
+        t.pattern.add_sources(&mut b, &t.heat);
         t.pattern.add_sources(&mut b, q);
         let (u, rep) = solver.solve_from(&t.matrix, &b, start)?;
         Ok::<_, SolveError>((t.pattern.expand(&u, &t.fixed), u, rep))

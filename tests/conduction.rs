@@ -236,3 +236,32 @@ parts:
     let [lo, hi] = slab.temperature_range_c.unwrap();
     assert!((lo - 40.0).abs() < 1e-6 && (hi - 80.0).abs() < 1e-6, "{lo} {hi}");
 }
+
+/// A conductor's loss instead of its temperature: 30 W/m into a wall
+/// 10/20 mm of k = 0.286 W/(m·K) with the screen at 50 °C raises the
+/// conductor by Q·ln(R/r)/(2πk) = 11.57 K (the insulation's thermal
+/// resistance, IEC 60287-2-1:2015, T1 = ρT/(2π)·ln(1 + 2t/dc)); the
+/// conductor is isothermal and passes its heat on through the wall.
+#[test]
+fn a_conductor_loss_sets_the_conductor_temperature() {
+    let r = run("
+title: cable with conductor loss
+operation: { mode: dc }
+materials:
+  wall: { permittivity: 2.3, conductivity_s_per_m: 1e-16, conductivity_temperature_per_k: 0.1,
+          thermal_conductivity_w_per_m_k: 0.286, source: check value }
+stack:
+  form: coaxial
+  voltage_kv: 100
+  inner_radius: 10
+  length: 5
+  face_temperatures_c: [null, 50]
+  conductor_heat_w_per_m: 30
+  layers:
+    - { name: wall, material: wall, thickness: 10 }
+");
+    let [lo, hi] = part(&r, "wall").temperature_range_c.unwrap();
+    let rise = 30.0 * 2f64.ln() / (2.0 * std::f64::consts::PI * 0.286);
+    assert!((lo - 50.0).abs() < 1e-6, "{lo}");
+    assert!((hi - (50.0 + rise)).abs() < 0.01 * rise, "{hi} vs {}", 50.0 + rise);
+}

@@ -73,6 +73,8 @@ pub const CONDUCTIVITY_FIELD_RANGE_MM_PER_KV: (f64, f64) = (0.0, 2.0);
 /// Thermal conductivities accepted, W/(m·K) (gases about 0.01, aluminium
 /// nitride about 300).
 pub const THERMAL_CONDUCTIVITY_RANGE_W_PER_M_K: (f64, f64) = (1e-3, 500.0);
+/// Largest heat input of one electrode, W (or W/m): 1 MW.
+pub const MAX_HEAT_W: f64 = 1e6;
 /// Temperatures accepted, °C (cryogenic gas insulation aside, insulation
 /// runs between these; the water fit holds over 0–100 °C only).
 pub const TEMPERATURE_RANGE_C: (f64, f64) = (-100.0, 400.0);

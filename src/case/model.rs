@@ -115,6 +115,9 @@ pub struct Service {
     pub temperature_c: Option<f64>,
     /// Absorbed water.
     pub water: Option<Water>,
+    /// DC electrodes: heat put into the insulation, W over the modelled
+    /// extent (per metre of depth when planar).
+    pub heat_w: Option<f64>,
 }
 
 /// The surroundings of the whole case.

@@ -292,8 +292,13 @@ pub struct StackFile {
     /// Layers from the energised face outward.
     pub layers: Vec<LayerFile>,
     /// `mode: dc` only: temperatures of the energised and the earthed face,
-    /// °C (boundary values of the thermal solve).
-    pub face_temperatures_c: Option<[f64; 2]>,
+    /// °C (boundary values of the thermal solve); `null` for a face without
+    /// one (e.g. a conductor given `conductor_heat_w_per_m`).
+    pub face_temperatures_c: Option<[Option<f64>; 2]>,
+    /// `mode: dc` only: the heat the energised face puts into the
+    /// insulation (a cable conductor's loss), W per metre (of depth, or of
+    /// axial length), instead of its temperature.
+    pub conductor_heat_w_per_m: Option<f64>,
 }
 
 /// `stack.form:` values.
@@ -336,6 +341,10 @@ pub struct PartFile {
     pub shape: ShapeFile,
     /// Temperature in °C (dielectric parts; default: the environment's).
     pub temperature_c: Option<f64>,
+    /// `mode: dc`, electrodes only: the heat the electrode puts into the
+    /// insulation (its own loss), W per metre of depth (planar) or W
+    /// (axisymmetric).
+    pub heat_w: Option<f64>,
     /// Absorbed water (dielectric parts).
     pub water: Option<WaterFile>,
 }
@@ -546,10 +555,22 @@ pub const KNOWN_KEYS: &[(&str, &[&str])] = &[
     ("materials.*.streamer", &["critical_v_per_pa_m", "b", "n", "from_pa_m"]),
     ("materials.*.strength_at", &["temperature_c", "water_volume_pct"]),
     ("materials.*.debye", &["eps_inf", "delta_eps", "tau_s", "activation_ev"]),
-    ("stack", &["form", "voltage_kv", "width", "inner_radius", "length", "layers", "face_temperatures_c"]),
+    (
+        "stack",
+        &[
+            "form",
+            "voltage_kv",
+            "width",
+            "inner_radius",
+            "length",
+            "layers",
+            "face_temperatures_c",
+            "conductor_heat_w_per_m",
+        ],
+    ),
     ("stack.layers[]", &["name", "material", "thickness", "temperature_c", "water"]),
     ("stack.layers[].water", &["volume_pct", "mass_pct", "rule"]),
-    ("parts[]", &["name", "material", "electrode", "shape", "temperature_c", "water"]),
+    ("parts[]", &["name", "material", "electrode", "shape", "temperature_c", "water", "heat_w"]),
     ("parts[].water", &["volume_pct", "mass_pct", "rule"]),
     ("parts[].electrode", &["potential_kv"]),
     ("parts[].shape", &["rect", "circle", "polygon", "fillet", "arcs"]),

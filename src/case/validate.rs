@@ -1054,13 +1054,27 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
     let mut face_t = [None, None];
     if let Some(t) = s.face_temperatures_c {
         let mut good = true;
-        for v in t {
-            good &= ctx.temperature("stack.face_temperatures_c", v);
+        for v in t.iter().flatten() {
+            good &= ctx.temperature("stack.face_temperatures_c", *v);
         }
         if good {
-            face_t = [Some(t[0]), Some(t[1])];
+            face_t = t;
         }
     }
+    let heat = match s.conductor_heat_w_per_m {
+        Some(h) if ctx.within("stack.conductor_heat_w_per_m", h, (0.0, limits::MAX_HEAT_W), "heat", "W/m") => {
+            if face_t[0].is_some() {
+                ctx.err(
+                    "stack.conductor_heat_w_per_m",
+                    "give the energised face either a temperature or a heat input, not both",
+                );
+                None
+            } else {
+                Some(h)
+            }
+        }
+        _ => None,
+    };
     let electrode = |name: &str, r: Rect, potential_v: f64| Part {
         name: name.to_string(),
         role: Role::Electrode(ElectrodeKind::Fixed { potential_v }),
@@ -1068,7 +1082,11 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
         key: "stack".to_string(),
         line,
         column,
-        service: Service { temperature_c: if potential_v != 0.0 { face_t[0] } else { face_t[1] }, water: None },
+        service: Service {
+            temperature_c: if potential_v != 0.0 { face_t[0] } else { face_t[1] },
+            water: None,
+            heat_w: None,
+        },
     };
     match s.form {
         StackForm::Planar => {
@@ -1103,7 +1121,9 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
                 });
                 y += t;
             }
-            parts.push(electrode(faces[0], Rect { x0, x1: w, y0: 0.0, y1: 0.0 }, v));
+            let mut energised = electrode(faces[0], Rect { x0, x1: w, y0: 0.0, y1: 0.0 }, v);
+            energised.service.heat_w = heat;
+            parts.push(energised);
             parts.push(electrode(faces[1], Rect { x0, x1: w, y0: total, y1: total }, 0.0));
             let domain = Rect { x0, x1: w, y0: 0.0, y1: total };
             ok.then_some(Stack { parts, domain, coaxial: false })
@@ -1142,7 +1162,9 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
                 });
                 r += t;
             }
-            parts.push(electrode(faces[0], Rect { x0: 0.0, x1: ri, y0: z0, y1: len }, v));
+            let mut conductor = electrode(faces[0], Rect { x0: 0.0, x1: ri, y0: z0, y1: len }, v);
+            conductor.service.heat_w = heat.map(|h| h * (len - z0));
+            parts.push(conductor);
             parts.push(electrode(faces[1], Rect { x0: r, x1: r, y0: z0, y1: len }, 0.0));
             let domain = Rect { x0: ri, x1: r, y0: z0, y1: len };
             ok.then_some(Stack { parts, domain, coaxial: true })
@@ -1547,7 +1569,34 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
     else {
         return (None, ctx.diags);
     };
+    let electrodes = || parts.iter().filter(|p| matches!(p.role, Role::Electrode(_)));
+    if operation.mode == Mode::Dc {
+        for p in electrodes().filter(|p| p.service.heat_w.is_some()) {
+            let key =
+                if p.key == "stack" { "stack.conductor_heat_w_per_m".to_string() } else { format!("{}.heat_w", p.key) };
+            if p.service.temperature_c.is_some() {
+                ctx.err(&key, format!("electrode '{}': give either a temperature or a heat input, not both", p.name));
+            } else if !electrodes().any(|e| e.service.temperature_c.is_some()) {
+                ctx.err(
+                    &key,
+                    format!(
+                        "electrode '{}': its heat needs somewhere to go; give another electrode (the screen or \
+                         earth) a temperature (`temperature_c`; for a stack, `face_temperatures_c`)",
+                        p.name
+                    ),
+                );
+            }
+        }
+        if !ctx.diags.is_empty() {
+            return (None, ctx.diags);
+        }
+    }
     if operation.mode != Mode::Dc {
+        for p in electrodes().filter(|p| p.service.heat_w.is_some()) {
+            let key =
+                if p.key == "stack" { "stack.conductor_heat_w_per_m".to_string() } else { format!("{}.heat_w", p.key) };
+            ctx.err(&key, format!("electrode '{}': a heat input applies to `operation: {{ mode: dc }}`", p.name));
+        }
         for p in parts.iter().filter(|p| matches!(p.role, Role::Electrode(_)) && p.service.temperature_c.is_some()) {
             let key = if p.key == "stack" {
                 "stack.face_temperatures_c".to_string()
@@ -1635,7 +1684,18 @@ fn one_part(
         Some(Role::Dielectric(m)) => Some(&table.used[m]),
         _ => None,
     };
-    let sv = if role.is_some() { service(ctx, key, p.temperature_c, p.water.as_ref(), material) } else { None };
+    let mut sv = if role.is_some() { service(ctx, key, p.temperature_c, p.water.as_ref(), material) } else { None };
+    if let Some(h) = p.heat_w {
+        let k = format!("{key}.heat_w");
+        if material.is_some() {
+            ctx.err(&k, "applies to electrodes (their own loss heats the insulation)");
+            sv = None;
+        } else if !ctx.within(&k, h, (0.0, limits::MAX_HEAT_W), "heat", "W") {
+            sv = None;
+        } else if let Some(s) = sv.as_mut() {
+            s.heat_w = Some(h);
+        }
+    }
     let (Some(role), Some(sh), Some(service), true) = (role, sh, sv, ok) else { return None };
     let b = sh.bounds();
     let shape_key = format!("{key}.shape");
@@ -1684,7 +1744,7 @@ fn service(
         // solve (checked against the mode once the case is read)
         ok &= ctx.temperature(&format!("{key}.temperature_c"), t);
     }
-    let Some(w) = water else { return ok.then_some(Service { temperature_c: temperature, water: None }) };
+    let Some(w) = water else { return ok.then_some(Service { temperature_c: temperature, water: None, heat_w: None }) };
     let wk = format!("{key}.water");
     let Some(m) = material else {
         ctx.err(&wk, "only insulating parts absorb water, not electrodes");
@@ -1730,7 +1790,7 @@ fn service(
         }
     };
     let water = (fraction > 0.0).then_some(Water { volume_fraction: fraction, given, rule });
-    ok.then_some(Service { temperature_c: temperature, water })
+    ok.then_some(Service { temperature_c: temperature, water, heat_w: None })
 }
 
 /// `environment:` with its defaults (20 °C, 101.325 kPa).
