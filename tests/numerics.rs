@@ -193,3 +193,38 @@ stack:
     }
     assert!(boxed.x.iter().any(|x| (x - 0.005).abs() < 1e-12) && boxed.y.iter().any(|y| (y - 0.002).abs() < 1e-12));
 }
+
+/// Probes between grid lines are second-order accurate inside a region:
+/// each field component is interpolated bilinearly from the edge midpoints
+/// where it is known. A rod over a plane (probes off every grid line): on
+/// the default grid both probes lie within 0.25 % of the same case on a
+/// grid 4 times finer (self-convergence, common practice); taking the
+/// field constant along each cell edge (first order) was 2.5 % off at the
+/// side probe.
+#[test]
+fn probes_between_grid_lines_converge() {
+    let text = |refine: u32| {
+        format!(
+            "
+title: rod over a plane
+geometry: planar
+domain: {{ x: [-30, 30], y: [0, 30] }}
+grid: {{ refine: {refine} }}
+parts:
+  - {{ name: plane, electrode: {{ potential_kv: 0 }}, shape: {{ rect: {{ x: [-30, 30], y: [0, 0] }} }} }}
+  - {{ name: rod, electrode: {{ potential_kv: 1 }}, shape: {{ circle: {{ center: [0, 6], radius: 2 }} }} }}
+probes:
+  - {{ name: gap, at: [3.3, 2.7] }}
+  - {{ name: side, at: [-5.1, 9.4] }}
+"
+        )
+    };
+    let probes = |refine: u32| -> Vec<f64> {
+        let r = hvstack::check(&text(refine), "rod.yaml", &hvstack::Options::default()).expect("case evaluates");
+        r.probes.iter().map(|p| p.e_kv_per_mm).collect()
+    };
+    let (coarse, fine) = (probes(1), probes(4));
+    for (c, f) in coarse.iter().zip(&fine) {
+        assert!(((c - f) / f).abs() < 2.5e-3, "{c} vs {f}");
+    }
+}

@@ -139,15 +139,63 @@ impl<'a> Sampler<'a> {
         grid.cells_touching(at).find(|c| layout.cell_region[c.0] != CONDUCTOR).unwrap_or_else(|| grid.locate(at))
     }
 
+    /// The field in cell `c` at `at`. Each component is known at the
+    /// midpoints of the cell edges along its direction (second order
+    /// there); it is interpolated linearly across the cell between the two
+    /// edges, and along them towards the midpoint of the neighbouring
+    /// cell's edges when that cell belongs to the same region and no
+    /// interface cuts either (bilinear: second order inside a region; at
+    /// interfaces and electrodes the cell's own edges only, since the
+    /// normal component jumps there).
     fn field_in(&self, c: crate::grid::CellIx, at: [f64; 2], ev: &EdgeValues) -> [f64; 2] {
         let grid = self.grid;
         let (i, j) = grid.cell_ij(c);
-        let nx = grid.nx();
+        let (nx, ny) = (grid.nx(), grid.ny());
         let s = ((at[0] - grid.x[i]) / (grid.x[i + 1] - grid.x[i])).clamp(0.0, 1.0);
         let t = ((at[1] - grid.y[j]) / (grid.y[j + 1] - grid.y[j])).clamp(0.0, 1.0);
-        let g = (1.0 - t) * ev.gx[j * (nx - 1) + i] + t * ev.gx[(j + 1) * (nx - 1) + i];
+        let own = self.layout.cell_region[c.0];
+        let plain = |a: usize, b: usize| {
+            let k = grid.cell(a, b);
+            self.layout.cell_region[k.0] == own
+                && self.layout.cut_cells.binary_search_by_key(&(k.0 as u32), |q| q.cell).is_err()
+        };
+        let whole = plain(i, j);
+        // a foil or electrode surface on the grid line between two cells
+        // separates them, though the same region lies on both sides
+        let free = |a: usize, b: usize| self.layout.node_electrode[grid.node(a, b).0] == crate::grid::NO_ELECTRODE;
+        let mid = |v: &[f64], k: usize| 0.5 * (v[k] + v[k + 1]);
+        // E_x (as G): between the bottom and top edges, and along x towards
+        // the neighbouring column's edge midpoints
+        let gx_at = |row: usize| {
+            let here = ev.gx[row * (nx - 1) + i];
+            let xm = mid(&grid.x, i);
+            let other = if at[0] < xm { i.checked_sub(1) } else { (i + 2 < nx).then_some(i + 1) };
+            // the grid line the two cells share
+            let line = |o: usize| if o < i { i } else { i + 1 };
+            match other {
+                Some(o) if whole && plain(o, j) && free(line(o), j) && free(line(o), j + 1) => {
+                    let xo = mid(&grid.x, o);
+                    here + (ev.gx[row * (nx - 1) + o] - here) * (at[0] - xm) / (xo - xm)
+                }
+                _ => here,
+            }
+        };
+        let g = (1.0 - t) * gx_at(j) + t * gx_at(j + 1);
         let ex = weight(self.geometry, at[0]).map_or(0.0, |w| g / w);
-        let ey = (1.0 - s) * ev.gy[j * nx + i] + s * ev.gy[j * nx + i + 1];
+        let gy_at = |col: usize| {
+            let here = ev.gy[j * nx + col];
+            let ym = mid(&grid.y, j);
+            let other = if at[1] < ym { j.checked_sub(1) } else { (j + 2 < ny).then_some(j + 1) };
+            let line = |o: usize| if o < j { j } else { j + 1 };
+            match other {
+                Some(o) if whole && plain(i, o) && free(i, line(o)) && free(i + 1, line(o)) => {
+                    let yo = mid(&grid.y, o);
+                    here + (ev.gy[o * nx + col] - here) * (at[1] - ym) / (yo - ym)
+                }
+                _ => here,
+            }
+        };
+        let ey = (1.0 - s) * gy_at(i) + s * gy_at(i + 1);
         [ex, ey]
     }
 
