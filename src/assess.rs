@@ -265,6 +265,20 @@ pub enum FindingKind {
         /// Material name.
         material: String,
     },
+    /// A waiver of the case matches no finding.
+    WaiverUnmatched {
+        /// Index into `case.waivers`.
+        waiver: usize,
+        /// Its code.
+        code: String,
+    },
+    /// A waiver names a failing finding, which cannot be accepted.
+    WaiverRefused {
+        /// Index into `case.waivers`.
+        waiver: usize,
+        /// Its code.
+        code: String,
+    },
     /// An electrode, a solid and a gas or liquid meet.
     TripleJunction {
         /// Where and how strongly.
@@ -322,6 +336,8 @@ impl FindingKind {
             FindingKind::FieldInversion { .. } => "field-inversion",
             FindingKind::ReversalStress { .. } => "polarity-reversal-stress",
             FindingKind::DcStrengthMissing { .. } => "dc-strength-missing",
+            FindingKind::WaiverUnmatched { .. } => "waiver-unmatched",
+            FindingKind::WaiverRefused { .. } => "waiver-refused",
         }
     }
 
@@ -449,6 +465,9 @@ pub struct Assessment {
     pub parts: Vec<PartAssessment>,
     /// Findings, most severe first.
     pub findings: Vec<Finding>,
+    /// For each finding, the case's waiver that accepts it (index into
+    /// `case.waivers`).
+    pub accepted: Vec<Option<usize>>,
     /// When there are exactly two distinct fixed potentials.
     pub capacitance: Option<Capacitance>,
     /// When electrodes at different potentials exist.
@@ -669,14 +688,81 @@ pub fn assess(inp: &Inputs) -> Assessment {
         Concentration { e_max, gap: g.distance, e_uniform, factor: e_max / e_uniform }
     });
 
+    findings.extend(waiver_rule(case, &findings));
     findings.sort_by_key(|f| std::cmp::Reverse(f.kind.severity()));
-    let worst_finding = findings.iter().map(|f| match f.kind.severity() {
-        Severity::Info => Verdict::Pass,
-        Severity::Warning => Verdict::Review,
-        Severity::Fail => Verdict::Fail,
-    });
+    let accepted = accepted_findings(case, &findings);
+    let worst_finding =
+        findings.iter().zip(&accepted).filter(|(_, a)| a.is_none()).map(|(f, _)| match f.kind.severity() {
+            Severity::Info => Verdict::Pass,
+            Severity::Warning => Verdict::Review,
+            Severity::Fail => Verdict::Fail,
+        });
+    // a part under review whose every warning was accepted passes
+    for p in &mut parts {
+        let name = &layout.regions[p.region].name;
+        let warnings: Vec<bool> = findings
+            .iter()
+            .zip(&accepted)
+            .filter(|(f, _)| f.part.as_ref() == Some(name) && f.kind.severity() == Severity::Warning)
+            .map(|(_, a)| a.is_some())
+            .collect();
+        if p.verdict == Verdict::Review && !warnings.is_empty() && warnings.iter().all(|a| *a) {
+            p.verdict = Verdict::Pass;
+        }
+    }
     let verdict = parts.iter().map(|p| p.verdict).chain(worst_finding).max().unwrap_or(Verdict::Pass);
-    Assessment { verdict, parts, findings, capacitance, concentration, dipole, working_level: working, pd_inception }
+    Assessment {
+        verdict,
+        parts,
+        findings,
+        accepted,
+        capacitance,
+        concentration,
+        dipole,
+        working_level: working,
+        pd_inception,
+    }
+}
+
+/// True when waiver `w` names finding `f` (its code, and its part unless
+/// the waiver names none).
+fn waiver_matches(w: &crate::case::Waiver, f: &Finding) -> bool {
+    w.code == f.kind.code() && (w.part.is_none() || w.part == f.part)
+}
+
+/// Waivers that match no finding (stale, or a misspelt code) and waivers
+/// of failing findings (which cannot be accepted).
+fn waiver_rule(case: &Case, findings: &[Finding]) -> Vec<Finding> {
+    let mut out = Vec::new();
+    for (k, w) in case.waivers.iter().enumerate() {
+        let matched: Vec<&Finding> = findings.iter().filter(|f| waiver_matches(w, f)).collect();
+        if matched.is_empty() {
+            out.push(Finding {
+                kind: FindingKind::WaiverUnmatched { waiver: k, code: w.code.clone() },
+                part: w.part.clone(),
+            });
+        } else if matched.iter().any(|f| f.kind.severity() == Severity::Fail) {
+            out.push(Finding {
+                kind: FindingKind::WaiverRefused { waiver: k, code: w.code.clone() },
+                part: w.part.clone(),
+            });
+        }
+    }
+    out
+}
+
+/// For each finding, the waiver that accepts it: the first matching one,
+/// for warnings and information only (a failing finding stays failing).
+fn accepted_findings(case: &Case, findings: &[Finding]) -> Vec<Option<usize>> {
+    findings
+        .iter()
+        .map(|f| {
+            let own = matches!(f.kind, FindingKind::WaiverUnmatched { .. } | FindingKind::WaiverRefused { .. });
+            (!own && f.kind.severity() != Severity::Fail)
+                .then(|| case.waivers.iter().position(|w| waiver_matches(w, f)))
+                .flatten()
+        })
+        .collect()
 }
 
 /// The inception level of gas region `r` moves by more than

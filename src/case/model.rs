@@ -184,6 +184,22 @@ pub struct Part {
     pub service: Service,
 }
 
+/// A finding accepted in the case file: shown as accepted in every
+/// report, never dropped.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Waiver {
+    /// The finding's code.
+    pub code: String,
+    /// The part it concerns (`None`: any part).
+    pub part: Option<String>,
+    /// Why it is acceptable.
+    pub reason: String,
+    /// Who accepted it.
+    pub by: String,
+    /// Key path in the case file (for messages).
+    pub key: String,
+}
+
 /// A probe point.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Probe {
@@ -211,6 +227,8 @@ pub struct Line {
 pub struct Case {
     /// Free text.
     pub title: String,
+    /// Findings an engineer accepted.
+    pub waivers: Vec<Waiver>,
     /// Planar or axisymmetric.
     pub geometry: Geometry,
     /// How extensive results are normalised.

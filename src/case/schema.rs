@@ -40,6 +40,22 @@ pub struct CaseFile {
     pub environment: Option<EnvironmentFile>,
     /// Static or AC, the frequency, and whether values are rms or peak.
     pub operation: Option<OperationFile>,
+    /// Findings an engineer has accepted, with the reason and who.
+    pub waivers: Option<Vec<WaiverFile>>,
+}
+
+/// One entry of `waivers:`.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct WaiverFile {
+    /// The finding's code, e.g. `singular-peak`.
+    pub code: String,
+    /// The part it concerns (every part when left out).
+    pub part: Option<String>,
+    /// Why it is acceptable.
+    pub reason: String,
+    /// Who accepted it.
+    pub by: String,
 }
 
 /// `environment:`
@@ -519,6 +535,7 @@ pub const KNOWN_KEYS: &[(&str, &[&str])] = &[
             "limits",
             "environment",
             "operation",
+            "waivers",
         ],
     ),
     ("environment", &["temperature_c", "pressure_kpa"]),
@@ -580,4 +597,5 @@ pub const KNOWN_KEYS: &[(&str, &[&str])] = &[
     ("probes[]", &["name", "at"]),
     ("lines[]", &["name", "from", "to", "points"]),
     ("limits", &["safety_factor", "pd_inception_margin", "surface_tangential_kv_per_mm"]),
+    ("waivers[]", &["code", "part", "reason", "by"]),
 ];

@@ -1618,7 +1618,12 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
     }
     let mut refine_boxes = refine_boxes;
     refine_boxes.extend(curved_boxes(&parts, &grid));
+    let waivers = waivers(&mut ctx, f.waivers.as_deref().unwrap_or_default(), &parts);
+    if !ctx.diags.is_empty() {
+        return (None, ctx.diags);
+    }
     let case = Case {
+        waivers,
         title: f.title.unwrap_or_else(|| "untitled".to_string()),
         geometry,
         normalisation,
@@ -1639,6 +1644,57 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
         operation,
     };
     (Some(case), ctx.diags)
+}
+
+/// Most characters of a waiver's reason.
+const MAX_REASON_CHARS: usize = 500;
+
+/// `waivers:`: a finding code (kebab-case), an optional part that exists,
+/// a reason and who accepted it (printable text, not empty).
+fn waivers(ctx: &mut Ctx, list: &[WaiverFile], parts: &[Part]) -> Vec<Waiver> {
+    let mut out = Vec::new();
+    if !ctx.count("waivers", list.len(), limits::MAX_PARTS, "waivers") {
+        return out;
+    }
+    for (k, w) in list.iter().enumerate() {
+        let key = format!("waivers[{k}]");
+        let mut ok = true;
+        if w.code.is_empty() || !w.code.chars().all(|c| c.is_ascii_lowercase() || c.is_ascii_digit() || c == '-') {
+            ctx.err(
+                &format!("{key}.code"),
+                format!("'{}' is not a finding code (kebab-case, as reports print it)", text::printable(&w.code)),
+            );
+            ok = false;
+        }
+        if let Some(p) = &w.part
+            && p != "background"
+            && !parts.iter().any(|q| &q.name == p)
+        {
+            ctx.err(&format!("{key}.part"), format!("no part is named '{}'", text::printable(p)));
+            ok = false;
+        }
+        for (value, name, max) in [(&w.reason, "reason", MAX_REASON_CHARS), (&w.by, "by", limits::MAX_NAME_CHARS)] {
+            let joined = value.split_whitespace().collect::<Vec<_>>().join(" ");
+            if joined.is_empty() {
+                ctx.err(&format!("{key}.{name}"), format!("a waiver needs `{name}:` (who accepted it and why)"));
+                ok = false;
+            } else if let Some(problem) = text::name_problem(&joined, max) {
+                ctx.err(&format!("{key}.{name}"), format!("the {name} {problem}"));
+                ok = false;
+            }
+        }
+        if ok {
+            let clean = |v: &str| v.split_whitespace().collect::<Vec<_>>().join(" ");
+            out.push(Waiver {
+                code: w.code.clone(),
+                part: w.part.clone(),
+                reason: clean(&w.reason),
+                by: clean(&w.by),
+                key,
+            });
+        }
+    }
+    out
 }
 
 /// One entry of `parts:`: a unique printable name, one role, a valid shape

@@ -211,7 +211,10 @@ pub fn render_page(inp: &PageInputs) -> String {
                     table { tbody { @for f in &r.findings { tr {
                         td { span class={ "tag " (severity(f.severity)) } { (severity(f.severity)) } }
                         td { code { (f.code) } }
-                        td { @if let Some(p) = &f.part { b { (p) } ": " } (f.message) }
+                        td {
+                            @if let Some(p) = &f.part { b { (p) } ": " } (f.message)
+                            @if let Some(a) = &f.accepted { " " b { "Accepted by " (a.by) ": " } (a.reason) }
+                        }
                     } } } }
                 }
                 h2 { "Electrodes" }

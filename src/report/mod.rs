@@ -305,6 +305,18 @@ pub fn message(kind: &FindingKind, values: crate::units::Values) -> String {
              are usually higher but fall with temperature and space charge. Give the datasheet value as \
              `dc_strength_kv_per_mm` under `materials:`."
         ),
+        FindingKind::WaiverUnmatched { waiver, code } => format!(
+            "waiver {} of the case (code `{}`) matches no finding of this result: the finding is gone, or the code \
+             or part is misspelt. Remove or correct the waiver.",
+            waiver + 1,
+            code
+        ),
+        FindingKind::WaiverRefused { waiver, code } => format!(
+            "waiver {} of the case names `{}`, a failing finding: a typical strength exceeded or discharge at the \
+             working level cannot be accepted by a waiver; it stays failing.",
+            waiver + 1,
+            code
+        ),
         FindingKind::ImpulseStrengthMissing { material } => format!(
             "{material} has no lightning-impulse strength, so its short-term (AC) strength was used as a peak value; \
              impulse strengths are usually higher, so the margin is conservative. Give the datasheet value as \
@@ -518,7 +530,10 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
     let findings = assessment
         .findings
         .iter()
-        .map(|f| FindingOut {
+        .zip(&assessment.accepted)
+        .map(|(f, a)| FindingOut {
+            accepted: a
+                .map(|w| model::AcceptedOut { reason: case.waivers[w].reason.clone(), by: case.waivers[w].by.clone() }),
             code: f.kind.code(),
             severity: match f.kind.severity() {
                 Severity::Info => SeverityOut::Info,

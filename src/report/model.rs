@@ -280,6 +280,19 @@ pub struct FindingOut {
     pub part: Option<String>,
     /// What it means and what to do next.
     pub message: String,
+    /// Accepted by a waiver of the case (absent otherwise): it no longer
+    /// sets the verdict.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub accepted: Option<AcceptedOut>,
+}
+
+/// Who accepted a finding, and why.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct AcceptedOut {
+    /// Why it is acceptable.
+    pub reason: String,
+    /// Who accepted it.
+    pub by: String,
 }
 
 /// The result of `check`.

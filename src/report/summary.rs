@@ -60,7 +60,8 @@ pub fn row(file: &str, r: &CheckReport) -> SummaryRow {
         pd_inception_kv: r.pd_inception_kv,
         findings: {
             let mut codes: Vec<&'static str> = Vec::new();
-            for f in r.findings.iter().filter(|f| f.severity != super::SeverityOut::Info) {
+            // accepted findings no longer set the verdict and are not listed
+            for f in r.findings.iter().filter(|f| f.severity != super::SeverityOut::Info && f.accepted.is_none()) {
                 if !codes.contains(&f.code) {
                     codes.push(f.code);
                 }

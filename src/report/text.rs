@@ -425,7 +425,8 @@ pub fn render_text(r: &CheckReport) -> String {
             SeverityOut::Fail => "FAIL",
         };
         let part = f.part.as_ref().map_or(String::new(), |p| format!(" [{p}]"));
-        wrap(&mut o, &format!("  {sev:<8}"), &format!("{}{part}: {}", f.code, f.message));
+        let accepted = f.accepted.as_ref().map_or(String::new(), |a| format!(" ACCEPTED by {}: {}", a.by, a.reason));
+        wrap(&mut o, &format!("  {sev:<8}"), &format!("{}{part}: {}{accepted}", f.code, f.message));
     }
     let _ = writeln!(o, "\ncaution");
     wrap(&mut o, "  ", r.caution);
