@@ -116,6 +116,14 @@ pub enum FindingKind {
         /// Estimated relative error.
         estimate: f64,
     },
+    /// The estimated discretisation error of a probe's field, a line's
+    /// peak or the energy (and capacitance) is above the limit.
+    ResultMeshSensitive {
+        /// What: "probe NAME", "line NAME" or "the stored energy".
+        what: String,
+        /// Estimated relative error.
+        estimate: f64,
+    },
     /// The part vanished on a coarser grid, so its peak could not be checked.
     MeshUnbracketed,
     /// The coarser grids could not be solved; no peak could be checked.
@@ -312,6 +320,7 @@ impl FindingKind {
             FindingKind::PartHidden => "part-hidden",
             FindingKind::SingularPeak { .. } => "singular-peak",
             FindingKind::MeshSensitive { .. } => "mesh-sensitive",
+            FindingKind::ResultMeshSensitive { .. } => "result-mesh-sensitive",
             FindingKind::MeshUnbracketed => "mesh-check-unbracketed",
             FindingKind::MeshCheckFailed => "mesh-check-failed",
             FindingKind::ValueOutOfRange { .. } => "value-out-of-range",
@@ -688,6 +697,7 @@ pub fn assess(inp: &Inputs) -> Assessment {
         Concentration { e_max, gap: g.distance, e_uniform, factor: e_max / e_uniform }
     });
 
+    findings.extend(check.map(|c| result_mesh_rule(case, c)).unwrap_or_default());
     findings.extend(waiver_rule(case, &findings));
     findings.sort_by_key(|f| std::cmp::Reverse(f.kind.severity()));
     let accepted = accepted_findings(case, &findings);
@@ -722,6 +732,22 @@ pub fn assess(inp: &Inputs) -> Assessment {
         working_level: working,
         pd_inception,
     }
+}
+
+/// Probes, line peaks and the energy whose estimated discretisation error
+/// exceeds `MESH_ERROR_LIMIT` (a probe or line with a growing value near a
+/// singular point counts by its estimate too).
+fn result_mesh_rule(case: &Case, check: &MeshCheck) -> Vec<Finding> {
+    let over = |c: &crate::meshcheck::RegionCheck| c.error_estimate.filter(|e| *e > MESH_ERROR_LIMIT);
+    let mut out = Vec::new();
+    let named = case.probes.iter().map(|p| format!("probe {}", p.name)).zip(&check.probes);
+    let lines = case.lines.iter().map(|l| format!("the peak of line {}", l.name)).zip(&check.lines);
+    for (what, c) in named.chain(lines).chain(std::iter::once(("the stored energy".to_string(), &check.energy))) {
+        if let Some(estimate) = over(c) {
+            out.push(Finding { kind: FindingKind::ResultMeshSensitive { what, estimate }, part: None });
+        }
+    }
+    out
 }
 
 /// True when waiver `w` names finding `f` (its code, and its part unless

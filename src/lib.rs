@@ -363,10 +363,21 @@ impl Prepared {
             let s = p.solve(&config).ok()?;
             let f = p.fields(&p.service, &s.phi, s.quadrature.as_deref());
             let d = p.discharge(&p.sampler(&s.phi, s.quadrature.as_deref()), &f);
-            coarser.push((p.grid.nodes(), f.regions, d));
+            coarser.push((p.grid.nodes(), f, d));
         }
         let nodes = [self.grid.nodes(), coarser[0].0, coarser[1].0];
-        let mut check = meshcheck::compare([&fine.regions, &coarser[0].1, &coarser[1].1], nodes);
+        let mut check = meshcheck::compare([&fine.regions, &coarser[0].1.regions, &coarser[1].1.regions], nodes);
+        let r = check.ratio();
+        let all = [fine, &coarser[0].1, &coarser[1].1];
+        check.probes = (0..fine.probes.len()).map(|k| meshcheck::estimate(all.map(|f| f.probes[k].e), r)).collect();
+        let line_peak = |f: &fields::Fields, k: usize| {
+            f.lines[k].peak.map_or(f64::NAN, |p| {
+                let e = f.lines[k].samples[p].e;
+                e[0].hypot(e[1])
+            })
+        };
+        check.lines = (0..fine.lines.len()).map(|k| meshcheck::estimate(all.map(|f| line_peak(f, k)), r)).collect();
+        check.energy = meshcheck::estimate(all.map(|f| f.energy), r);
         let scale =
             |list: &[discharge::GasInception], r: usize| list.iter().find(|g| g.region == r).and_then(|g| g.scale);
         check.inception = fine_discharge

@@ -55,6 +55,32 @@ pub struct MeshCheck {
     /// discharge model on the fine, medium and coarse grid (`None` where a
     /// grid gave no level).
     pub inception: Vec<(usize, [Option<f64>; 3])>,
+    /// Per probe of the case: its |E| on the three grids, judged.
+    pub probes: Vec<RegionCheck>,
+    /// Per sampling line: its peak |E| on the three grids, judged.
+    pub lines: Vec<RegionCheck>,
+    /// The stored energy on the three grids, judged (with two fixed
+    /// potentials it is ½·C·ΔV², so it judges the capacitance too).
+    pub energy: RegionCheck,
+}
+
+impl MeshCheck {
+    /// The refinement ratio between the grids, from their node counts.
+    pub fn ratio(&self) -> f64 {
+        ratio(self.nodes)
+    }
+
+    /// The judgement of a gas region's inception level (`None` unless all
+    /// three grids gave one).
+    pub fn inception_estimate(&self, region: usize) -> Option<RegionCheck> {
+        let (_, s) = self.inception.iter().find(|(r, _)| *r == region)?;
+        let [Some(a), Some(b), Some(c)] = *s else { return None };
+        Some(estimate([a, b, c], self.ratio()))
+    }
+}
+
+fn ratio(nodes: [usize; 3]) -> f64 {
+    ((nodes[0] as f64 / nodes[1] as f64).sqrt() * (nodes[1] as f64 / nodes[2] as f64).sqrt()).sqrt()
 }
 
 /// Largest change of a gas part's inception level between the fine and
@@ -63,8 +89,20 @@ pub const INCEPTION_CHANGE_LIMIT: f64 = 0.05;
 
 /// Judges one region's three peaks with refinement ratio `r`.
 pub fn judge(e: [f64; 3], cells: [usize; 3], r: f64) -> RegionCheck {
-    let [e1, e2, e3] = e;
     if cells.contains(&0) {
+        return RegionCheck { e_max: e, order: None, error_estimate: None, growing: false };
+    }
+    estimate(e, r)
+}
+
+/// The Richardson judgement (module docs) of any reported number computed
+/// on the fine, medium and coarse grid, `v` (fine first), with refinement
+/// ratio `r`: a probe's field, a line's peak, the energy, an inception
+/// level. Non-finite values give no estimate.
+pub fn estimate(v: [f64; 3], r: f64) -> RegionCheck {
+    let e = v;
+    let [e1, e2, e3] = e;
+    if e.iter().any(|x| !x.is_finite()) {
         return RegionCheck { e_max: e, order: None, error_estimate: None, growing: false };
     }
     if e1 == 0.0 {
@@ -79,7 +117,9 @@ pub fn judge(e: [f64; 3], cells: [usize; 3], r: f64) -> RegionCheck {
     let same_sign = d12 * d23 > 0.0 && d12.abs() < d23.abs();
     let order = same_sign.then(|| (d23.abs() / d12.abs()).ln() / r.ln());
     let error = match order {
-        Some(p) if !growing => d12.abs() / (r.powf(p.min(2.0)) - 1.0),
+        // an order below the slowest one worth the name counts as that one
+        // (differences that barely shrink would otherwise blow the estimate up)
+        Some(p) if !growing => d12.abs() / (r.powf(p.clamp(SLOWEST_ORDER, 2.0)) - 1.0),
         // Differences that do not shrink show no convergence yet: assume
         // the slowest order still worth the name.
         _ => d12.abs().max(d23.abs()) / (r.powf(SLOWEST_ORDER) - 1.0),
@@ -89,7 +129,7 @@ pub fn judge(e: [f64; 3], cells: [usize; 3], r: f64) -> RegionCheck {
 
 /// Compares the region peaks of three solutions (fine first).
 pub fn compare(fields: [&[RegionField]; 3], nodes: [usize; 3]) -> MeshCheck {
-    let r = ((nodes[0] as f64 / nodes[1] as f64).sqrt() * (nodes[1] as f64 / nodes[2] as f64).sqrt()).sqrt();
+    let r = ratio(nodes);
     let regions = (0..fields[0].len())
         .map(|k| {
             let mut c = judge(
@@ -102,7 +142,8 @@ pub fn compare(fields: [&[RegionField]; 3], nodes: [usize; 3]) -> MeshCheck {
             c
         })
         .collect();
-    MeshCheck { nodes, regions, inception: Vec::new() }
+    let none = RegionCheck { e_max: [0.0; 3], order: None, error_estimate: None, growing: false };
+    MeshCheck { nodes, regions, inception: Vec::new(), probes: Vec::new(), lines: Vec::new(), energy: none }
 }
 
 #[cfg(test)]

@@ -81,3 +81,49 @@ parts:
     // on the default grid it can fall below the rounded bar's converged peak).
     assert!(sharp.parts[0].e_max_grows_with_refinement || sharp.findings.iter().any(|f| f.code == "singular-peak"));
 }
+
+/// Rod over a plane (`tests/numerics.rs`), probes off every grid line.
+fn rod(grid: &str) -> hvstack::report::CheckReport {
+    let text = format!(
+        "
+title: rod over a plane
+geometry: planar
+domain: {{ x: [-30, 30], y: [0, 30] }}
+grid: {grid}
+parts:
+  - {{ name: plane, electrode: {{ potential_kv: 0 }}, shape: {{ rect: {{ x: [-30, 30], y: [0, 0] }} }} }}
+  - {{ name: rod, electrode: {{ potential_kv: 1 }}, shape: {{ circle: {{ center: [0, 6], radius: 2 }} }} }}
+probes:
+  - {{ name: gap, at: [3.3, 2.7] }}
+  - {{ name: side, at: [-5.1, 9.4] }}
+"
+    );
+    hvstack::check(&text, "rod.yaml", &hvstack::Options::default()).expect("case evaluates")
+}
+
+/// Error bars on probes and on the energy (and so the capacitance) come from
+/// the self-check's grids (Richardson, common practice). Against the same
+/// case on a grid 4 times finer (reference by self-convergence), the
+/// estimates cover the true errors of the gap probe and the energy on the
+/// default grid, and on a grid made deliberately coarse (steps of 3 mm,
+/// 2 cells across) they cover them too and exceed the 2 % limit, which
+/// raises `result-mesh-sensitive`.
+#[test]
+fn error_bars_cover_the_error_and_flag_a_coarse_grid() {
+    let reference = rod("{ refine: 4 }");
+    let true_error = |v: f64, r: f64| 100.0 * ((v - r) / r).abs();
+    let default = rod("{}");
+    let gap = &default.probes[0];
+    assert!(gap.e_error_estimate_pct.unwrap() >= true_error(gap.e_kv_per_mm, reference.probes[0].e_kv_per_mm));
+    let energy = default.energy_error_estimate_pct.unwrap();
+    assert!(energy >= true_error(default.energy.value, reference.energy.value), "{energy}");
+    assert!(!default.findings.iter().any(|f| f.code == "result-mesh-sensitive"));
+
+    let coarse = rod("{ max_step: 3, cells_across: 2 }");
+    for (p, r) in coarse.probes.iter().zip(&reference.probes) {
+        let e = p.e_error_estimate_pct.unwrap();
+        assert!(e >= true_error(p.e_kv_per_mm, r.e_kv_per_mm), "{}: {e}", p.name);
+    }
+    assert!(coarse.energy_error_estimate_pct.unwrap() >= true_error(coarse.energy.value, reference.energy.value));
+    assert!(coarse.findings.iter().any(|f| f.code == "result-mesh-sensitive" && f.message.contains("probe gap")));
+}

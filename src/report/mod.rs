@@ -169,6 +169,12 @@ pub fn message(kind: &FindingKind, values: crate::units::Values) -> String {
              (grid.max_step, grid.cells_across) until it settles.",
             g3(100.0 * estimate)
         ),
+        FindingKind::ResultMeshSensitive { what, estimate } => format!(
+            "the estimated discretisation error of {} is {} % (above 2 %, from the self-check's grids): refine the \
+             grid there (grid.max_step, grid.cells_across, grid.boxes) until it settles.",
+            what,
+            g3(100.0 * estimate)
+        ),
         FindingKind::MeshUnbracketed => {
             "the part has no cells on a coarser grid, so its highest field could not be checked for grid \
              dependence; refine the grid (grid.max_step, grid.cells_across) so that it is resolved on grids four \
@@ -494,6 +500,11 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
                 sigma_over_omega_epsilon: ac.map(|a| a.conduction_ratio[p.region]),
                 e_max_phase_deg: phase_deg.map(|v| v[p.region]),
                 temperature_range_c: dc.and_then(|d| d.temperature[p.region]),
+                pd_inception_error_estimate_pct: mesh_check
+                    .filter(|_| p.inception.is_some())
+                    .and_then(|c| c.inception_estimate(p.region))
+                    .and_then(|c| c.error_estimate)
+                    .map(|e| 100.0 * e),
                 e_max_capacitive_kv_per_mm: dc.map(|d| to_kv_per_mm(d.capacitive_e_max[p.region])),
                 reversal_e_max_kv_per_mm: dc.map(|d| to_kv_per_mm(d.reversal_e_max[p.region])),
                 time_constant_s: dc.and_then(|d| d.time_constant[p.region]),
@@ -518,15 +529,31 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
         .probes
         .iter()
         .zip(&fields.probes)
-        .map(|(p, f)| ProbeOut {
+        .enumerate()
+        .map(|(k, (p, f))| ProbeOut {
             name: p.name.clone(),
             at_mm: p.at.map(to_mm),
             part: f.part.clone(),
             potential_kv: to_kv(f.potential),
             e_kv_per_mm: to_kv_per_mm(f.e),
+            e_error_estimate_pct: mesh_check
+                .and_then(|c| c.probes.get(k))
+                .and_then(|c| c.error_estimate)
+                .map(|e| 100.0 * e),
         })
         .collect();
-    let lines = case.lines.iter().zip(&fields.lines).map(|(l, f)| line_out(l, f, case.operation.values)).collect();
+    let lines = case
+        .lines
+        .iter()
+        .zip(&fields.lines)
+        .enumerate()
+        .map(|(k, (l, f))| {
+            let mut out = line_out(l, f, case.operation.values);
+            out.e_max_error_estimate_pct =
+                mesh_check.and_then(|c| c.lines.get(k)).and_then(|c| c.error_estimate).map(|e| 100.0 * e);
+            out
+        })
+        .collect();
     let findings = assessment
         .findings
         .iter()
@@ -599,6 +626,7 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
         capacitance: assessment.capacitance.map(|c| Quantity { value: to_pf(c.from_charge), unit: c_unit }),
         energy: Quantity { value: fields.energy, unit: w_unit },
         dielectric_loss: losses.map(|l| Quantity { value: l.total, unit: loss_unit }),
+        energy_error_estimate_pct: mesh_check.and_then(|c| c.energy.error_estimate).map(|e| 100.0 * e),
         field_concentration: assessment.concentration.map(|c| ConcentrationOut {
             e_max_kv_per_mm: to_kv_per_mm(c.e_max),
             gap_mm: to_mm(c.gap),
@@ -673,6 +701,7 @@ fn line_out(line: &crate::case::Line, field: &crate::fields::LineField, values: 
         points: line.points,
         e_max_kv_per_mm: peak.map_or(0.0, |p| p.e_kv_per_mm),
         e_max_at_mm: peak.map_or(line.from.map(to_mm), |p| [p.x_mm, p.y_mm]),
+        e_max_error_estimate_pct: None,
         samples,
     }
 }

@@ -166,6 +166,9 @@ pub struct PartOut {
     /// DC with a thermal solve: the part's lowest and highest temperature,
     /// °C (null otherwise).
     pub temperature_range_c: Option<[f64; 2]>,
+    /// Gas parts: estimated discretisation error of `pd_inception_kv` from
+    /// the self-check's three levels (null where one is missing).
+    pub pd_inception_error_estimate_pct: Option<f64>,
     /// DC: the peak of the capacitive field of the same potentials (just
     /// after switching on), kV/mm (null unless dc).
     pub e_max_capacitive_kv_per_mm: Option<f64>,
@@ -266,6 +269,9 @@ pub struct ProbeOut {
     pub potential_kv: f64,
     /// |E|.
     pub e_kv_per_mm: f64,
+    /// Estimated discretisation error of `e_kv_per_mm` from the mesh
+    /// self-check (null where it could not be bracketed).
+    pub e_error_estimate_pct: Option<f64>,
 }
 
 /// One finding.
@@ -328,6 +334,9 @@ pub struct CheckReport {
     pub capacitance: Option<Quantity>,
     /// Stored electrostatic energy.
     pub energy: Quantity,
+    /// Estimated discretisation error of `energy` (and, with two fixed
+    /// potentials, of `capacitance`: C = 2W/ΔV²) from the mesh self-check.
+    pub energy_error_estimate_pct: Option<f64>,
     /// AC: total dielectric and conduction loss of the case (absent unless
     /// ac).
     #[serde(skip_serializing_if = "Option::is_none")]
@@ -412,6 +421,9 @@ pub struct LineOut {
     pub e_max_kv_per_mm: f64,
     /// Where it occurs [x, y] in mm.
     pub e_max_at_mm: [f64; 2],
+    /// Estimated discretisation error of `e_max_kv_per_mm` from the mesh
+    /// self-check (null where it could not be bracketed).
+    pub e_max_error_estimate_pct: Option<f64>,
     /// The samples, start to end (written as CSV, left out of JSON).
     #[serde(skip)]
     pub samples: Vec<LineSampleOut>,
