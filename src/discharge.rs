@@ -397,6 +397,22 @@ mod tests {
     use super::*;
 
     #[test]
+    fn wedge_exponents_match_the_closed_forms() {
+        use std::f64::consts::PI;
+        // a 90° conductor corner in one medium (air in 270°): λ = 2/3, |E| ~ r^(−1/3)
+        // (Jackson, Classical Electrodynamics, 3rd ed. 1999, §2.11)
+        assert!((wedge_exponent(&[(1.5 * PI, 1.0)]).unwrap() - 2.0 / 3.0).abs() < 1e-12);
+        // the same corner split into two wedges of one permittivity gives the same λ
+        assert!((wedge_exponent(&[(0.5 * PI, 2.0), (PI, 2.0)]).unwrap() - 2.0 / 3.0).abs() < 1e-9);
+        // strip edge on a board, air 90° and εr 4.4 in 180°: λ = (2/π)·atan√(1 + 2/4.4) = 0.5593
+        // (derived after Meixner 1972; issue check value)
+        let l = wedge_exponent(&[(0.5 * PI, 1.0), (PI, 4.4)]).unwrap();
+        assert!((l - 0.5593).abs() < 5e-5, "{l}");
+        assert!((l - 2.0 / PI * (1.0f64 + 2.0 / 4.4).sqrt().atan()).abs() < 1e-9);
+        assert_eq!(wedge_exponent(&[]), None);
+    }
+
+    #[test]
     fn scale_search_brackets_and_converges() {
         // g(s) = s² reaches 4 at s = 2 (exact), from above and below 1
         let s = solve_scale(&|s| s * s, 4.0, 1e6).unwrap();
@@ -429,6 +445,78 @@ pub struct Junction {
     pub e_far: f64,
     /// The estimated local exponent λ = 1 + ln(e_near/e_far)/ln(r_near/r_far).
     pub exponent: Option<f64>,
+    /// The exponent of the drawn wedges (`wedge_exponent`), where the
+    /// insulation around the junction is one or two straight wedges
+    /// between conductor faces.
+    pub exponent_drawn: Option<f64>,
+}
+
+/// The local exponent λ of the field |E| ~ r^(λ−1) at the apex of
+/// dielectric wedges between two conductor faces, from their opening
+/// angles θ (radians) and relative permittivities ε, in order from one
+/// conductor face to the other: one wedge λ = π/θ; two wedges the smallest
+/// root of ε1·cot(λθ1) + ε2·cot(λθ2) = 0 (separation of variables with φ
+/// and ε·∂φ/∂n continuous across the interface; Meixner, IEEE Trans.
+/// Antennas Propag. 20(4), 1972). `None` for other arrangements.
+pub fn wedge_exponent(wedges: &[(f64, f64)]) -> Option<f64> {
+    match *wedges {
+        [(t, _)] if t > 0.0 => Some(std::f64::consts::PI / t),
+        [(t1, e1), (t2, e2)] if t1 > 0.0 && t2 > 0.0 && e1 > 0.0 && e2 > 0.0 => {
+            let f = |l: f64| e1 / (l * t1).tan() + e2 / (l * t2).tan();
+            // f falls from +∞ (λ → 0) to −∞ at the first pole λ = π/max θ
+            let (mut lo, mut hi) = (1e-9, std::f64::consts::PI / t1.max(t2) * (1.0 - 1e-12));
+            for _ in 0..200 {
+                let mid = 0.5 * (lo + hi);
+                if f(mid) > 0.0 {
+                    lo = mid;
+                } else {
+                    hi = mid;
+                }
+            }
+            Some(0.5 * (lo + hi))
+        }
+        _ => None,
+    }
+}
+
+/// Samples around a junction on a circle of this many cells.
+const WEDGE_RADIUS_CELLS: f64 = 0.5;
+/// Angular samples of the circle.
+const WEDGE_SAMPLES: usize = 720;
+
+/// The dielectric wedges around `at`: the regions met on a small circle,
+/// in order from one conductor face to the other, with their angles and
+/// permittivities (`None` unless the insulation is one contiguous arc of
+/// at most two regions).
+fn drawn_wedges(sampler: &Sampler, at: [f64; 2], h: f64, permittivity: &[f64]) -> Option<Vec<(f64, f64)>> {
+    let r = WEDGE_RADIUS_CELLS * h;
+    let inside: Vec<Inside> = (0..WEDGE_SAMPLES)
+        .map(|k| {
+            let a = 2.0 * std::f64::consts::PI * (k as f64 + 0.5) / WEDGE_SAMPLES as f64;
+            sampler.at([at[0] + r * a.cos(), at[1] + r * a.sin()]).inside
+        })
+        .collect();
+    let start = inside.iter().position(|i| matches!(i, Inside::Electrode(_)))?;
+    let step = 2.0 * std::f64::consts::PI / WEDGE_SAMPLES as f64;
+    let mut arcs: Vec<Vec<(u32, f64)>> = Vec::new();
+    let mut current: Vec<(u32, f64)> = Vec::new();
+    for k in 1..=WEDGE_SAMPLES {
+        match inside[(start + k) % WEDGE_SAMPLES] {
+            Inside::Electrode(_) => {
+                if !current.is_empty() {
+                    arcs.push(std::mem::take(&mut current));
+                }
+            }
+            Inside::Region(reg) => match current.last_mut() {
+                Some((last, angle)) if *last == reg => *angle += step,
+                _ => current.push((reg, step)),
+            },
+        }
+    }
+    match &arcs[..] {
+        [arc] if arc.len() <= 2 => Some(arc.iter().map(|&(reg, a)| (a, permittivity[reg as usize])).collect()),
+        _ => None,
+    }
 }
 
 impl Junction {
@@ -450,7 +538,9 @@ const JUNCTION_MERGE_CELLS: f64 = 3.0;
 pub const MAX_JUNCTIONS: usize = 50;
 
 /// The triple junctions of the layout, in grid order.
-pub fn triple_junctions(case: &Case, sampler: &Sampler) -> Vec<Junction> {
+/// `permittivity` is each region's relative permittivity (for the drawn
+/// wedges' exponent).
+pub fn triple_junctions(case: &Case, sampler: &Sampler, permittivity: &[f64]) -> Vec<Junction> {
     use crate::grid::{CONDUCTOR, NO_ELECTRODE, NodeIx};
     let (grid, layout) = (sampler.grid(), sampler.layout());
     let class = |r: u32| case.materials[layout.regions[r as usize].material].class;
@@ -516,6 +606,7 @@ pub fn triple_junctions(case: &Case, sampler: &Sampler) -> Vec<Junction> {
             e_near,
             e_far,
             exponent,
+            exponent_drawn: drawn_wedges(sampler, at, h, permittivity).and_then(|w| wedge_exponent(&w)),
         });
     }
     out

@@ -462,7 +462,7 @@ impl Prepared {
         // one sampler (edge values) for the inception search and the junctions
         let sampler = self.sampler(&solution.phi, solution.quadrature.as_deref());
         let discharge = self.discharge(&sampler, &f);
-        let junctions = discharge::triple_junctions(&self.case, &sampler);
+        let junctions = discharge::triple_junctions(&self.case, &sampler, &self.service.coefficients.region);
         if let Some(g) = discharge.iter().find(|g| g.scale.is_some_and(|s| !s.is_finite())) {
             return Err(Error::NonFinite {
                 file: self.file.clone(),

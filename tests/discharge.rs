@@ -243,8 +243,10 @@ fn triple_junctions_are_found_and_their_enhancement_estimated() {
     let enhanced: Vec<_> = j.iter().filter(|f| f.severity == hvstack::report::SeverityOut::Warning).collect();
     assert_eq!(enhanced.len(), 2);
     for f in enhanced {
-        let l: f64 = f.message.split("λ ≈ ").nth(1).unwrap().split(',').next().unwrap().parse().unwrap();
+        let l: f64 = f.message.split("λ ≈ ").nth(1).unwrap().split([',', ' ']).next().unwrap().parse().unwrap();
         assert!((l - lambda(1.0, 4.3)).abs() < 0.03, "{l}");
+        // and the drawn wedges give the closed form itself
+        assert!(f.message.contains(&format!("λ = {:.3} for the drawn wedge", lambda(1.0, 4.3))), "{}", f.message);
     }
 }
 

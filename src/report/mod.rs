@@ -335,10 +335,15 @@ pub fn message(kind: &FindingKind, values: crate::units::Values) -> String {
             g3(to_mm(j.at[1])),
             match j.exponent {
                 Some(l) if j.enhanced() => format!(
-                    "the field rises toward it (local exponent λ ≈ {}, |E| ~ r^(λ−1); {} kV/mm {} beside it against {} \
-                     kV/mm {} six cells away): a classic discharge site. Embed or recess the electrode edge, put a \
-                     conductive or semiconductive layer at the contact, or fill the wedge, and confirm by test.",
+                    "the field rises toward it (local exponent λ ≈ {}{}, |E| ~ r^(λ−1); {} kV/mm {} beside it against \
+                     {} kV/mm {} six cells away): a classic discharge site. Its peak is a property of the drawing (the \
+                     drawn contact is perfectly sharp). Embed or recess the electrode edge, put a conductive or \
+                     semiconductive layer at the contact, or fill the wedge, and confirm by test.",
                     g3(l),
+                    j.exponent_drawn.map_or(String::new(), |d| format!(
+                        " from the field; λ = {} for the drawn wedge angles and permittivities, after Meixner 1972",
+                        g3(d)
+                    )),
                     g3(to_kv_per_mm(j.e_near)),
                     values.name(),
                     g3(to_kv_per_mm(j.e_far)),
