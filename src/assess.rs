@@ -454,6 +454,9 @@ pub struct Concentration {
     pub e_uniform: f64,
     /// Field enhancement factor e_max / e_uniform.
     pub factor: f64,
+    /// The case is a plain planar stack: the factor only reflects the
+    /// layers' permittivity contrast, not a geometric concentration.
+    pub permittivity_contrast_only: bool,
 }
 
 /// Capacitance between the two fixed potentials.
@@ -694,7 +697,15 @@ pub fn assess(inp: &Inputs) -> Assessment {
     let e_max = parts.iter().map(|p| fields.regions[p.region].e_max).fold(0.0, f64::max);
     let concentration = fields.gap.map(|g| {
         let e_uniform = g.largest_difference / g.distance;
-        Concentration { e_max, gap: g.distance, e_uniform, factor: e_max / e_uniform }
+        let plain_stack =
+            case.geometry == crate::case::Geometry::Planar && case.parts.iter().all(|p| p.key.starts_with("stack"));
+        Concentration {
+            e_max,
+            gap: g.distance,
+            e_uniform,
+            factor: e_max / e_uniform,
+            permittivity_contrast_only: plain_stack,
+        }
     });
 
     findings.extend(check.map(|c| result_mesh_rule(case, c)).unwrap_or_default());

@@ -286,3 +286,46 @@ parts:
     assert_eq!((b.potential_kv, b.charge.value), (1.0, 0.0));
     assert_eq!(r.verdict, VerdictOut::Review);
 }
+
+/// A plain planar stack's "enhancement factor" only reflects the layers'
+/// permittivity contrast: 1 mm of air over 1 mm of εr 4 at 10 kV puts
+/// 8.0 kV/mm in the air (series divider, common practice) against 5.0 kV/mm
+/// uniform, a factor 1.6 the report marks as such; a coaxial stack's factor
+/// includes its geometry and is not marked.
+#[test]
+fn a_series_stack_marks_its_factor_as_permittivity_contrast() {
+    let planar = hvstack::check(
+        "
+title: series layers
+materials:
+  four: { permittivity: 4, source: check value }
+stack:
+  form: planar
+  voltage_kv: 10
+  layers:
+    - { material: air, thickness: 1 }
+    - { material: four, thickness: 1 }
+",
+        "stack.yaml",
+        &hvstack::Options::default(),
+    )
+    .expect("case evaluates");
+    let c = planar.field_concentration.as_ref().expect("two electrodes");
+    assert!((c.factor - 1.6).abs() < 2e-3, "{}", c.factor);
+    assert!(c.permittivity_contrast_only);
+    let coax = hvstack::check(
+        "
+title: coax
+stack:
+  form: coaxial
+  voltage_kv: 10
+  inner_radius: 5
+  layers:
+    - { material: xlpe, thickness: 5 }
+",
+        "coax.yaml",
+        &hvstack::Options::default(),
+    )
+    .expect("case evaluates");
+    assert!(!coax.field_concentration.as_ref().expect("two electrodes").permittivity_contrast_only);
+}

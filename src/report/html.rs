@@ -231,6 +231,7 @@ pub fn render_page(inp: &PageInputs) -> String {
                     @if let Some(c) = &r.field_concentration {
                         " · field enhancement factor " (sig4(c.factor)) " (peak " (sig4(c.e_max_kv_per_mm))
                         " kV/mm " (r.values) " against " (sig4(c.e_uniform_kv_per_mm)) " kV/mm " (r.values) " over the " (sig4(c.gap_mm)) " mm gap)"
+                        @if c.permittivity_contrast_only { "; in series layers it only reflects their permittivity contrast" }
                     }
                 }
                 @if !r.probes.is_empty() {

@@ -637,6 +637,7 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
             gap_mm: to_mm(c.gap),
             e_uniform_kv_per_mm: to_kv_per_mm(c.e_uniform),
             factor: c.factor,
+            permittivity_contrast_only: c.permittivity_contrast_only,
         }),
         mesh_check: mesh_check.map(|c| MeshCheckOut { nodes: c.nodes }),
         surfaces: fields

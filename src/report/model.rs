@@ -82,6 +82,9 @@ pub struct ConcentrationOut {
     pub e_uniform_kv_per_mm: f64,
     /// Field enhancement factor e_max / e_uniform.
     pub factor: f64,
+    /// True for a plain planar stack: the factor only reflects the layers'
+    /// permittivity contrast (series layers), not a geometric concentration.
+    pub permittivity_contrast_only: bool,
 }
 
 /// One dielectric part.

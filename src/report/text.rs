@@ -294,11 +294,16 @@ pub fn render_text(r: &CheckReport) -> String {
     if let Some(c) = &r.field_concentration {
         let _ = writeln!(
             o,
-            "peak field   {} kV/mm {v}; gap {} mm, uniform-field value {} kV/mm {v}, enhancement factor {}",
+            "peak field   {} kV/mm {v}; gap {} mm, uniform-field value {} kV/mm {v}, enhancement factor {}{}",
             sig4(c.e_max_kv_per_mm),
             sig4(c.gap_mm),
             sig4(c.e_uniform_kv_per_mm),
-            sig4(c.factor)
+            sig4(c.factor),
+            if c.permittivity_contrast_only {
+                " (series layers: the factor only reflects their permittivity contrast)"
+            } else {
+                ""
+            }
         );
     }
     if let Some(c) = &r.capacitance {
