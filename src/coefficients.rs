@@ -223,12 +223,7 @@ pub fn effective_loss_tangent(kappa: Complex64) -> f64 {
 /// [`LOSSLESS_SPREAD`] (regions that own cells only), so that the field
 /// needs the complex solve.
 pub fn needs_complex_solve(layout: &Layout, region: &[Complex64]) -> bool {
-    let mut present = vec![false; region.len()];
-    for &r in &layout.cell_region {
-        if let Some(p) = present.get_mut(r as usize) {
-            *p = true;
-        }
-    }
+    let present = layout.regions_with_cells();
     let tans = region.iter().zip(&present).filter(|(_, p)| **p).map(|(k, _)| effective_loss_tangent(*k));
     let (lo, hi) = tans.fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), t| (a.min(t), b.max(t)));
     hi - lo > LOSSLESS_SPREAD

@@ -132,16 +132,6 @@ fn thermal(case: &Case, grid: &Grid, layout: &Layout, factors: &Factors) -> Resu
     Ok(Some(Thermal { pattern, matrix, rhs, fixed, heat }))
 }
 
-/// Volume of a cell (per metre of depth when planar; the whole ring when
-/// axisymmetric, as the stencil's factors).
-fn cell_volume(grid: &Grid, geometry: Geometry, i: usize, j: usize) -> f64 {
-    let (x0, x1, hy) = (grid.x[i], grid.x[i + 1], grid.y[j + 1] - grid.y[j]);
-    match geometry {
-        Geometry::Planar => (x1 - x0) * hy,
-        Geometry::Axisymmetric => PI * (x1 * x1 - x0 * x0) * hy,
-    }
-}
-
 /// |E| at every cell centre from the nodal potential (the mean of the two
 /// edge differences along each axis), V/m.
 fn cell_fields(grid: &Grid, phi: &[f64]) -> Vec<f64> {
@@ -178,13 +168,10 @@ fn cell_temperatures(case: &Case, grid: &Grid, layout: &Layout, nodal: Option<&[
 /// cell's), W (or W/m).
 fn joule_sources(grid: &Grid, geometry: Geometry, sigma: &[f64], e: &[f64]) -> Vec<f64> {
     let mut q = vec![0.0; grid.nodes()];
-    for j in 0..grid.ny() - 1 {
-        for i in 0..grid.nx() - 1 {
-            let c = grid.cell(i, j);
-            let heat = sigma[c.0] * e[c.0] * e[c.0] * cell_volume(grid, geometry, i, j);
-            for n in grid.cell_nodes(c) {
-                q[n.0] += 0.25 * heat;
-            }
+    for c in (0..grid.cells()).map(CellIx) {
+        let heat = sigma[c.0] * e[c.0] * e[c.0] * crate::fields::cell_volume(grid, geometry, c);
+        for n in grid.cell_nodes(c) {
+            q[n.0] += 0.25 * heat;
         }
     }
     q
@@ -212,11 +199,7 @@ pub struct Inputs<'a> {
 /// nodal potential, the report of its last solve and the DC state.
 pub fn steady(inp: &Inputs, config: &SolverConfig) -> Result<(Vec<f64>, SolveReport, DcState), DcError> {
     let Inputs { case, grid, layout, factors, pattern, potentials, capacitive } = *inp;
-    let mut present = vec![false; layout.regions.len()];
-    for &r in layout.cell_region.iter().filter(|&&r| r != CONDUCTOR) {
-        present[r as usize] = true;
-    }
-    for (r, _) in layout.regions.iter().zip(&present).filter(|(_, p)| **p) {
+    for (r, _) in layout.regions.iter().zip(layout.regions_with_cells()).filter(|(_, p)| *p) {
         let m = &case.materials[r.material];
         if m.conduction.is_none() {
             return Err(DcError::NoConductivity(m.name.clone()));
@@ -394,8 +377,8 @@ const INTERFACE_CHARGE_RESOLUTION: f64 = 1e-7;
 /// net flux is the charge enclosed, however the interface cuts the cells),
 /// with the interface's area from the cell faces between the two regions.
 /// `stencil` is the permittivity stencil; `electrode_charge` the largest
-/// electrode |charge| (for the round-off floor), `scale` the case's
-/// normalisation of extensive results.
+/// electrode |charge| as reported (for the round-off floor), `scale` the
+/// case's normalisation of extensive results.
 pub fn interface_charges(
     grid: &Grid,
     geometry: Geometry,
@@ -457,7 +440,7 @@ pub fn interface_charges(
     charge
         .into_iter()
         .map(|(regions, q)| {
-            let q = if q.abs() <= INTERFACE_CHARGE_RESOLUTION * electrode_charge { 0.0 } else { q };
+            let q = if (scale * q).abs() <= INTERFACE_CHARGE_RESOLUTION * electrode_charge { 0.0 } else { q };
             let a = area.get(&regions).copied().unwrap_or(0.0);
             InterfaceCharge { regions, charge: scale * q, density_mean: if a > 0.0 { q / a } else { 0.0 } }
         })

@@ -317,7 +317,7 @@ fn recover(coord: &[f64], k: usize, value: impl Fn(usize) -> f64, inside: impl F
 }
 
 /// Volume of a cell (area when planar, per metre of depth).
-fn cell_volume(grid: &Grid, geometry: Geometry, c: CellIx) -> f64 {
+pub(crate) fn cell_volume(grid: &Grid, geometry: Geometry, c: CellIx) -> f64 {
     let (i, j) = grid.cell_ij(c);
     let (x0, x1, hy) = (grid.x[i], grid.x[i + 1], grid.y[j + 1] - grid.y[j]);
     match geometry {

@@ -428,8 +428,7 @@ impl Prepared {
                 &self.layout,
                 &self.service.stencil,
                 phi,
-                f.electrodes.iter().map(|e| e.charge.abs()).fold(0.0, f64::max)
-                    / fields::extensive_scale(self.case.normalisation),
+                f.electrodes.iter().map(|e| e.charge.abs()).fold(0.0, f64::max),
                 fields::extensive_scale(self.case.normalisation),
             ),
         }

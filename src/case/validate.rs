@@ -572,12 +572,7 @@ fn conduction(
     f: &MaterialFile,
     base: Option<&materials::LibraryEntry>,
 ) -> Result<Option<materials::Conduction>, ()> {
-    let inherited = base.and_then(|b| b.conduction).map(|c| materials::Conduction {
-        sigma0_s_per_m: c.sigma_s_per_m,
-        reference_temperature_c: materials::REFERENCE_TEMPERATURE_C,
-        alpha_per_k: c.temperature_per_k,
-        beta_m_per_v: c.field_mm_per_kv / units::kv_per_mm(1.0),
-    });
+    let inherited = base.and_then(|b| b.conduction).map(|c| c.model());
     let coefficients_given = f.reference_temperature_c.is_some()
         || f.conductivity_temperature_per_k.is_some()
         || f.conductivity_field_mm_per_kv.is_some();
@@ -1572,8 +1567,7 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
     let electrodes = || parts.iter().filter(|p| matches!(p.role, Role::Electrode(_)));
     if operation.mode == Mode::Dc {
         for p in electrodes().filter(|p| p.service.heat_w.is_some()) {
-            let key =
-                if p.key == "stack" { "stack.conductor_heat_w_per_m".to_string() } else { format!("{}.heat_w", p.key) };
+            let key = electrode_key(p, "conductor_heat_w_per_m", "heat_w");
             if p.service.temperature_c.is_some() {
                 ctx.err(&key, format!("electrode '{}': give either a temperature or a heat input, not both", p.name));
             } else if !electrodes().any(|e| e.service.temperature_c.is_some()) {
@@ -1593,16 +1587,11 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
     }
     if operation.mode != Mode::Dc {
         for p in electrodes().filter(|p| p.service.heat_w.is_some()) {
-            let key =
-                if p.key == "stack" { "stack.conductor_heat_w_per_m".to_string() } else { format!("{}.heat_w", p.key) };
+            let key = electrode_key(p, "conductor_heat_w_per_m", "heat_w");
             ctx.err(&key, format!("electrode '{}': a heat input applies to `operation: {{ mode: dc }}`", p.name));
         }
         for p in parts.iter().filter(|p| matches!(p.role, Role::Electrode(_)) && p.service.temperature_c.is_some()) {
-            let key = if p.key == "stack" {
-                "stack.face_temperatures_c".to_string()
-            } else {
-                format!("{}.temperature_c", p.key)
-            };
+            let key = electrode_key(p, "face_temperatures_c", "temperature_c");
             ctx.err(
                 &key,
                 format!(
@@ -1644,6 +1633,12 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
         operation,
     };
     (Some(case), ctx.diags)
+}
+
+/// The key of an electrode's thermal value in messages: `stack.STACK_KEY`
+/// for a stack's faces, else the part's own `PART_KEY`.
+fn electrode_key(p: &Part, stack_key: &str, part_key: &str) -> String {
+    if p.key == "stack" { format!("stack.{stack_key}") } else { format!("{}.{part_key}", p.key) }
 }
 
 /// Most characters of a waiver's reason.

@@ -103,9 +103,11 @@ impl<'a> Sampler<'a> {
     /// The in-phase and (for a phasor) quadrature field components at `at`,
     /// V/m, and the cell holding it.
     pub fn parts(&self, at: [f64; 2]) -> ([f64; 2], Option<[f64; 2]>) {
-        let c = self.cell_of(at);
-        let e = self.field_in(c, at, &self.ev);
-        (e, self.quadrature.as_ref().map(|(_, q)| self.field_in(c, at, q)))
+        self.parts_in_cell(self.cell_of(at), at)
+    }
+
+    fn parts_in_cell(&self, c: crate::grid::CellIx, at: [f64; 2]) -> ([f64; 2], Option<[f64; 2]>) {
+        (self.field_in(c, at, &self.ev), self.quadrature.as_ref().map(|(_, q)| self.field_in(c, at, q)))
     }
 
     /// [`Sampler::parts`] taken in a cell of `region` that touches `at`
@@ -116,8 +118,7 @@ impl<'a> Sampler<'a> {
             .cells_touching(at)
             .find(|c| self.layout.cell_region[c.0] == region)
             .unwrap_or_else(|| self.cell_of(at));
-        let e = self.field_in(c, at, &self.ev);
-        (e, self.quadrature.as_ref().map(|(_, q)| self.field_in(c, at, q)))
+        self.parts_in_cell(c, at)
     }
 
     /// The phase of the field at `at` in `region` against the (real) fixed

@@ -216,6 +216,15 @@ fn part_regions(case: &Case) -> Vec<Option<u16>> {
 }
 
 impl Layout {
+    /// Whether each region (layout order) owns at least one cell.
+    pub fn regions_with_cells(&self) -> Vec<bool> {
+        let mut present = vec![false; self.regions.len()];
+        for &r in self.cell_region.iter().filter(|&&r| r != CONDUCTOR) {
+            present[r as usize] = true;
+        }
+        present
+    }
+
     /// Paints the case's parts onto `grid`.
     pub fn paint(case: &Case, grid: &Grid) -> Result<Layout, GridError> {
         let d = case.domain;

@@ -80,6 +80,18 @@ pub struct LibraryConduction {
     pub field_mm_per_kv: f64,
 }
 
+impl LibraryConduction {
+    /// The conduction model (SI), referred to 20 °C.
+    pub fn model(&self) -> Conduction {
+        Conduction {
+            sigma0_s_per_m: self.sigma_s_per_m,
+            reference_temperature_c: REFERENCE_TEMPERATURE_C,
+            alpha_per_k: self.temperature_per_k,
+            beta_m_per_v: self.field_mm_per_kv / units::kv_per_mm(1.0),
+        }
+    }
+}
+
 /// Conductivities of insulation scatter by orders of magnitude with
 /// formulation, moisture, ageing and the time after energising (the
 /// absorption current); these are screening values only.
@@ -702,12 +714,7 @@ impl Material {
             generic: true,
             out_of_range: Vec::new(),
             gas: gas::library_model(entry.name),
-            conduction: entry.conduction.map(|c| Conduction {
-                sigma0_s_per_m: c.sigma_s_per_m,
-                reference_temperature_c: REFERENCE_TEMPERATURE_C,
-                alpha_per_k: c.temperature_per_k,
-                beta_m_per_v: c.field_mm_per_kv / units::kv_per_mm(1.0),
-            }),
+            conduction: entry.conduction.map(|c| c.model()),
             thermal_conductivity_w_per_m_k: Some(entry.thermal_conductivity_w_per_m_k),
         }
     }

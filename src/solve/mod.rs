@@ -213,13 +213,7 @@ impl<'a> Solver<'a> {
         x0: Option<&[f64]>,
     ) -> Result<(Vec<f64>, SolveReport), SolveError> {
         let opts = self.config.options;
-        // Bound the work so that a hopeless solve ends in seconds, not hours.
-        let capped = |cost_per_iteration: f64| SolveOptions {
-            max_iterations: opts
-                .max_iterations
-                .min(((WORK_LIMIT / (cost_per_iteration * other.nnz().max(1) as f64)) as usize).max(MIN_ITERATIONS)),
-            ..opts
-        };
+        let capped = |cost| work_capped(&opts, cost, other.nnz());
         let (jacobi_opts, amg_opts) = (capped(1.0), capped(AMG_ITERATION_COST));
         let fallback = |reason: String| {
             let (x, mut rep) = pcg_from(other, b, x0, &mut Jacobi::new(other), &jacobi_opts, None)?;
@@ -260,12 +254,7 @@ impl Solver<'_> {
         let opts = self.config.options;
         // a complex iteration costs two preconditioner applications and a
         // product of twice the values
-        let capped = |cost_per_iteration: f64| SolveOptions {
-            max_iterations: opts
-                .max_iterations
-                .min(((WORK_LIMIT / (cost_per_iteration * a.nnz().max(1) as f64)) as usize).max(MIN_ITERATIONS)),
-            ..opts
-        };
+        let capped = |cost| work_capped(&opts, cost, a.nnz());
         let (jacobi_opts, amg_opts) = (capped(4.0), capped(2.0 * AMG_ITERATION_COST + 2.0));
         let magnitude = self.matrix;
         let fallback = |reason: String| {
@@ -289,6 +278,15 @@ impl Solver<'_> {
             },
         }
     }
+}
+
+/// `opts` with the iteration limit lowered so that the solve's work stays
+/// within `WORK_LIMIT` (iterations × `cost_per_iteration` matrix products
+/// of `nnz` entries; at least `MIN_ITERATIONS`): a hopeless solve ends in
+/// seconds, not hours.
+fn work_capped(opts: &SolveOptions, cost_per_iteration: f64, nnz: usize) -> SolveOptions {
+    let affordable = (WORK_LIMIT / (cost_per_iteration * nnz.max(1) as f64)) as usize;
+    SolveOptions { max_iterations: opts.max_iterations.min(affordable.max(MIN_ITERATIONS)), ..*opts }
 }
 
 impl Default for SolveOptions {
