@@ -108,8 +108,10 @@ pub enum FindingKind {
     SingularPeak {
         /// Peak on the fine, medium and coarse grid, V/m.
         e_max: [f64; 3],
-        /// The peak sits at a sharp feature of an electrode.
+        /// The peak sits at a singular point of the drawn geometry.
         at_edge: bool,
+        /// That point described, where it is one the grid stage found.
+        point: Option<SingularDetail>,
     },
     /// The estimated discretisation error of the peak is above the limit.
     MeshSensitive {
@@ -492,6 +494,77 @@ pub struct Assessment {
     /// The lowest partial-discharge inception level over the gas parts, V
     /// (`None` without gas parts that have an inception level).
     pub pd_inception: Option<f64>,
+    /// Per singular point of `Fields::singular` (same order).
+    pub singular: Vec<SingularJudgement>,
+}
+
+/// A singular point as one part sees it (the `singular-peak` finding).
+#[derive(Debug, Clone, PartialEq)]
+pub struct SingularDetail {
+    /// Electrode edge or triple point.
+    pub kind: crate::grid::SingularKind,
+    /// Where, m.
+    pub at: [f64; 2],
+    /// The electrode's name.
+    pub electrode: String,
+    /// The part's largest |E| at the stated distances
+    /// (`fields::SINGULAR_DISTANCES`), V/m.
+    pub e_at: [Option<f64>; 2],
+    /// λ of the drawn wedges.
+    pub exponent_drawn: Option<f64>,
+    /// λ fitted from the part's fields at the stated distances.
+    pub exponent_fitted: Option<f64>,
+    /// The peak the part is judged on, V/m.
+    pub e_judged: f64,
+    /// Radius of curvature that brings the part's peak there down to its
+    /// strength over the safety factor, m.
+    pub radius: Option<f64>,
+}
+
+/// What the assessment adds to one singular point of `Fields::singular`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SingularJudgement {
+    /// Radius of curvature that brings the field at the point down to the
+    /// strength over the safety factor of the region with the highest
+    /// field at the inner stated distance, m (`None` without a strength or
+    /// a singular exponent).
+    pub radius: Option<f64>,
+}
+
+/// The radius that removes the peak at a point, from the field at the
+/// inner stated distance, the exponent (of the drawn wedges where known:
+/// the fitted one is only as good as the grid's resolution of the inner
+/// distance) and the allowable field
+/// strength / safety factor (`fields::radius_to_allowable`).
+fn radius_for(e1: Option<f64>, lambda: Option<f64>, strength: Option<f64>, safety_factor: f64) -> Option<f64> {
+    crate::fields::radius_to_allowable(e1?, crate::fields::SINGULAR_DISTANCES[0], lambda?, strength? / safety_factor)
+}
+
+/// The singular point nearest to a part's peak among those the part
+/// touches, described for the part.
+fn singular_detail(
+    layout: &Layout,
+    fields: &Fields,
+    region: usize,
+    strength: Option<f64>,
+    safety_factor: f64,
+) -> Option<SingularDetail> {
+    let f = &fields.regions[region];
+    let d = |s: &crate::fields::SingularField| (s.point.at[0] - f.e_max_at[0]).hypot(s.point.at[1] - f.e_max_at[1]);
+    let s = fields.singular.iter().filter(|s| s.regions.contains(&region)).min_by(|a, b| d(a).total_cmp(&d(b)))?;
+    let k = s.regions.iter().position(|&r| r == region)?;
+    let e_at = s.e_at_by_region[k].map(|v| v.map(|v| v.e));
+    let exponent_fitted = s.fitted_by_region[k];
+    Some(SingularDetail {
+        kind: s.point.kind,
+        at: s.point.at,
+        electrode: layout.electrodes[s.point.electrode].name.clone(),
+        e_at,
+        exponent_drawn: s.exponent_drawn,
+        exponent_fitted,
+        e_judged: f.e_judged,
+        radius: radius_for(e_at[0], s.exponent_drawn.or(exponent_fitted), strength, safety_factor),
+    })
 }
 
 /// The dry-reference evaluation of a case.
@@ -559,7 +632,9 @@ pub fn assess(inp: &Inputs) -> Assessment {
         }
         let m = &case.materials[region.material];
         let strength = strengths[r];
-        let point_margin = strength.filter(|_| f.e_max > 0.0).map(|s| s / f.e_max);
+        // a peak at a singular point is a property of the drawing: the
+        // margin rests on the peak away from it (`RegionField::e_judged`)
+        let point_margin = strength.filter(|_| f.e_judged > 0.0).map(|s| s / f.e_judged);
         let part = Some(region.name.clone());
         let inception = discharge.iter().position(|d| d.region == r);
         let (margin, verdict) = match inception.map(|k| &discharge[k]) {
@@ -575,14 +650,15 @@ pub fn assess(inp: &Inputs) -> Assessment {
         };
         let mut kinds: Vec<FindingKind> = Vec::new();
         if inception.is_none() {
-            kinds.extend(strength_rule(m, f.e_max, strength, margin, case.safety_factor));
+            kinds.extend(strength_rule(m, f.e_judged, strength, margin, case.safety_factor));
             kinds.extend(impulse_rule(case, m));
         }
         // a gas part judged by inception has its level checked against the
         // self-check's grids instead (`inception_grid_rule`): its point peak
         // is for information only
-        if inception.is_none() {
-            kinds.extend(check.and_then(|c| mesh_rule(&c.regions[r], f)));
+        if let (None, Some(c)) = (inception, check) {
+            let detail = || singular_detail(layout, fields, r, strength, case.safety_factor);
+            kinds.extend(mesh_rule(&c.regions[r], &c.judged[r], f, detail));
         }
         if region.cells_across < MIN_CELLS_ACROSS {
             kinds.push(FindingKind::CoarseGrid { cells_across: region.cells_across });
@@ -651,8 +727,13 @@ pub fn assess(inp: &Inputs) -> Assessment {
         findings.push(Finding { kind: FindingKind::MeshCheckFailed, part: None });
         for p in parts.iter().filter(|p| p.inception.is_none()) {
             if fields.regions[p.region].at_sharp_edge {
+                let point = singular_detail(layout, fields, p.region, p.strength, case.safety_factor);
                 findings.push(Finding {
-                    kind: FindingKind::SingularPeak { e_max: [fields.regions[p.region].e_max; 3], at_edge: true },
+                    kind: FindingKind::SingularPeak {
+                        e_max: [fields.regions[p.region].e_max; 3],
+                        at_edge: true,
+                        point,
+                    },
                     part: Some(layout.regions[p.region].name.clone()),
                 });
             }
@@ -742,6 +823,20 @@ pub fn assess(inp: &Inputs) -> Assessment {
         dipole,
         working_level: working,
         pd_inception,
+        singular: fields
+            .singular
+            .iter()
+            .map(|sf| SingularJudgement {
+                radius: sf.e_at[0].and_then(|v| {
+                    radius_for(
+                        Some(v.e),
+                        sf.exponent_drawn.or(sf.exponent_fitted),
+                        strengths[v.region],
+                        case.safety_factor,
+                    )
+                }),
+            })
+            .collect(),
     }
 }
 
@@ -898,16 +993,30 @@ fn conduction_rule(ratio: f64) -> Option<FindingKind> {
 }
 
 /// A part's peak against the self-check's coarser grids: singular (growing,
-/// or at a sharp edge), unbracketed, or above the error limit.
-fn mesh_rule(c: &crate::meshcheck::RegionCheck, f: &crate::fields::RegionField) -> Option<FindingKind> {
-    match c.error_estimate {
-        _ if c.growing || f.at_sharp_edge => {
-            Some(FindingKind::SingularPeak { e_max: c.e_max, at_edge: f.at_sharp_edge })
+/// or at a singular point of the drawing), unbracketed, or above the error
+/// limit. A part whose peak sits at a singular point is judged on its peak
+/// away from it (`judged`), whose estimate must then meet the limit too.
+fn mesh_rule(
+    c: &crate::meshcheck::RegionCheck,
+    judged: &crate::meshcheck::RegionCheck,
+    f: &crate::fields::RegionField,
+    detail: impl Fn() -> Option<SingularDetail>,
+) -> Vec<FindingKind> {
+    let mut out = Vec::new();
+    if c.growing || f.at_sharp_edge {
+        out.push(FindingKind::SingularPeak { e_max: c.e_max, at_edge: f.at_sharp_edge, point: detail() });
+        if !f.at_sharp_edge {
+            // growing away from any known point: no number to judge
+            return out;
         }
-        None => Some(FindingKind::MeshUnbracketed),
-        Some(e) if e > MESH_ERROR_LIMIT => Some(FindingKind::MeshSensitive { estimate: e }),
-        Some(_) => None,
     }
+    let basis = if f.at_sharp_edge { judged } else { c };
+    match basis.error_estimate {
+        None => out.push(FindingKind::MeshUnbracketed),
+        Some(e) if e > MESH_ERROR_LIMIT => out.push(FindingKind::MeshSensitive { estimate: e }),
+        Some(_) => {}
+    }
+    out
 }
 
 /// Materials in use: user values outside the published range of their

@@ -25,7 +25,7 @@
 
 use crate::case::Case;
 use crate::fields::trace::{End, FieldLine, TraceConfig, trace};
-use crate::fields::{Fields, Inside, Sampler};
+use crate::fields::{Fields, Inside, Sampler, drawn_wedges, ring_max, wedge_exponent};
 use crate::grid::{CellIx, Layout};
 use crate::materials::MaterialClass;
 use crate::materials::gas::{GasModel, reduced_pressure};
@@ -397,22 +397,6 @@ mod tests {
     use super::*;
 
     #[test]
-    fn wedge_exponents_match_the_closed_forms() {
-        use std::f64::consts::PI;
-        // a 90° conductor corner in one medium (air in 270°): λ = 2/3, |E| ~ r^(−1/3)
-        // (Jackson, Classical Electrodynamics, 3rd ed. 1999, §2.11)
-        assert!((wedge_exponent(&[(1.5 * PI, 1.0)]).unwrap() - 2.0 / 3.0).abs() < 1e-12);
-        // the same corner split into two wedges of one permittivity gives the same λ
-        assert!((wedge_exponent(&[(0.5 * PI, 2.0), (PI, 2.0)]).unwrap() - 2.0 / 3.0).abs() < 1e-9);
-        // strip edge on a board, air 90° and εr 4.4 in 180°: λ = (2/π)·atan√(1 + 2/4.4) = 0.5593
-        // (derived after Meixner 1972; issue check value)
-        let l = wedge_exponent(&[(0.5 * PI, 1.0), (PI, 4.4)]).unwrap();
-        assert!((l - 0.5593).abs() < 5e-5, "{l}");
-        assert!((l - 2.0 / PI * (1.0f64 + 2.0 / 4.4).sqrt().atan()).abs() < 1e-9);
-        assert_eq!(wedge_exponent(&[]), None);
-    }
-
-    #[test]
     fn scale_search_brackets_and_converges() {
         // g(s) = s² reaches 4 at s = 2 (exact), from above and below 1
         let s = solve_scale(&|s| s * s, 4.0, 1e6).unwrap();
@@ -439,7 +423,7 @@ pub struct Junction {
     pub fluid: usize,
     /// Whether that region is a gas (else a liquid).
     pub fluid_is_gas: bool,
-    /// Largest fluid-side |E| in the cells touching the junction, V/m.
+    /// Largest fluid-side |E| at `JUNCTION_NEAR_CELLS` cells from it, V/m.
     pub e_near: f64,
     /// Largest fluid-side |E| at `JUNCTION_FAR_CELLS` cells from it, V/m.
     pub e_far: f64,
@@ -449,74 +433,6 @@ pub struct Junction {
     /// insulation around the junction is one or two straight wedges
     /// between conductor faces.
     pub exponent_drawn: Option<f64>,
-}
-
-/// The local exponent λ of the field |E| ~ r^(λ−1) at the apex of
-/// dielectric wedges between two conductor faces, from their opening
-/// angles θ (radians) and relative permittivities ε, in order from one
-/// conductor face to the other: one wedge λ = π/θ; two wedges the smallest
-/// root of ε1·cot(λθ1) + ε2·cot(λθ2) = 0 (separation of variables with φ
-/// and ε·∂φ/∂n continuous across the interface; Meixner, IEEE Trans.
-/// Antennas Propag. 20(4), 1972). `None` for other arrangements.
-pub fn wedge_exponent(wedges: &[(f64, f64)]) -> Option<f64> {
-    match *wedges {
-        [(t, _)] if t > 0.0 => Some(std::f64::consts::PI / t),
-        [(t1, e1), (t2, e2)] if t1 > 0.0 && t2 > 0.0 && e1 > 0.0 && e2 > 0.0 => {
-            let f = |l: f64| e1 / (l * t1).tan() + e2 / (l * t2).tan();
-            // f falls from +∞ (λ → 0) to −∞ at the first pole λ = π/max θ
-            let (mut lo, mut hi) = (1e-9, std::f64::consts::PI / t1.max(t2) * (1.0 - 1e-12));
-            for _ in 0..200 {
-                let mid = 0.5 * (lo + hi);
-                if f(mid) > 0.0 {
-                    lo = mid;
-                } else {
-                    hi = mid;
-                }
-            }
-            Some(0.5 * (lo + hi))
-        }
-        _ => None,
-    }
-}
-
-/// Samples around a junction on a circle of this many cells.
-const WEDGE_RADIUS_CELLS: f64 = 0.5;
-/// Angular samples of the circle.
-const WEDGE_SAMPLES: usize = 720;
-
-/// The dielectric wedges around `at`: the regions met on a small circle,
-/// in order from one conductor face to the other, with their angles and
-/// permittivities (`None` unless the insulation is one contiguous arc of
-/// at most two regions).
-fn drawn_wedges(sampler: &Sampler, at: [f64; 2], h: f64, permittivity: &[f64]) -> Option<Vec<(f64, f64)>> {
-    let r = WEDGE_RADIUS_CELLS * h;
-    let inside: Vec<Inside> = (0..WEDGE_SAMPLES)
-        .map(|k| {
-            let a = 2.0 * std::f64::consts::PI * (k as f64 + 0.5) / WEDGE_SAMPLES as f64;
-            sampler.at([at[0] + r * a.cos(), at[1] + r * a.sin()]).inside
-        })
-        .collect();
-    let start = inside.iter().position(|i| matches!(i, Inside::Electrode(_)))?;
-    let step = 2.0 * std::f64::consts::PI / WEDGE_SAMPLES as f64;
-    let mut arcs: Vec<Vec<(u32, f64)>> = Vec::new();
-    let mut current: Vec<(u32, f64)> = Vec::new();
-    for k in 1..=WEDGE_SAMPLES {
-        match inside[(start + k) % WEDGE_SAMPLES] {
-            Inside::Electrode(_) => {
-                if !current.is_empty() {
-                    arcs.push(std::mem::take(&mut current));
-                }
-            }
-            Inside::Region(reg) => match current.last_mut() {
-                Some((last, angle)) if *last == reg => *angle += step,
-                _ => current.push((reg, step)),
-            },
-        }
-    }
-    match &arcs[..] {
-        [arc] if arc.len() <= 2 => Some(arc.iter().map(|&(reg, a)| (a, permittivity[reg as usize])).collect()),
-        _ => None,
-    }
 }
 
 impl Junction {
@@ -529,8 +445,13 @@ impl Junction {
 
 /// λ below this counts as an enhanced junction.
 pub const JUNCTION_ENHANCED_BELOW: f64 = 0.9;
+/// Distance in cells of the near field sample: two cells out, where the
+/// sampler interpolates between resolved values (the cells touching the
+/// point hold averages of a singular field, biased differently on a graded
+/// grid than on a uniform one).
+const JUNCTION_NEAR_CELLS: f64 = 2.0;
 /// Distance in cells of the far field sample.
-const JUNCTION_FAR_CELLS: f64 = 6.0;
+const JUNCTION_FAR_CELLS: f64 = 8.0;
 /// Junctions closer than this many cells to an earlier one of the same
 /// materials are the same junction.
 const JUNCTION_MERGE_CELLS: f64 = 3.0;
@@ -583,19 +504,10 @@ pub fn triple_junctions(case: &Case, sampler: &Sampler, permittivity: &[f64]) ->
         if out.len() >= MAX_JUNCTIONS {
             break;
         }
-        let near: Vec<f64> = fluid.iter().filter(|f| f.0 == fl).map(|f| sampler.at(f.1).magnitude()).collect();
-        let e_near = near.iter().copied().fold(0.0, f64::max);
-        let r_near = std::f64::consts::FRAC_1_SQRT_2 * h;
+        let r_near = JUNCTION_NEAR_CELLS * h;
         let r_far = JUNCTION_FAR_CELLS * h;
-        let e_far = (0..32)
-            .map(|k| {
-                let a = k as f64 * std::f64::consts::PI / 16.0;
-                [at[0] + r_far * a.cos(), at[1] + r_far * a.sin()]
-            })
-            .map(|p| sampler.at(p))
-            .filter(|s| s.inside == Inside::Region(fl))
-            .map(|s| s.magnitude())
-            .fold(0.0, f64::max);
+        let e_near = ring_max(sampler, at, r_near, |r| r == fl).map_or(0.0, |v| v.e);
+        let e_far = ring_max(sampler, at, r_far, |r| r == fl).map_or(0.0, |v| v.e);
         let exponent = (e_near > 0.0 && e_far > 0.0).then(|| 1.0 + (e_near / e_far).ln() / (r_near / r_far).ln());
         out.push(Junction {
             at,

@@ -28,6 +28,7 @@ mod electrodes;
 mod inclusion;
 mod peaks;
 mod sampler;
+mod singular;
 mod surfaces;
 pub mod trace;
 
@@ -37,6 +38,8 @@ use peaks::{SURFACE_FLOOR, near_any, smooth_surface_fields, surface_fields};
 use sampler::probe;
 pub use sampler::{Inside, Sample, Sampler, line_field};
 
+pub use singular::{RingPeak, SINGULAR_DISTANCES, SingularField, radius_to_allowable, singular_fields, wedge_exponent};
+pub(crate) use singular::{drawn_wedges, ring_max};
 pub use surfaces::SurfaceField;
 
 use crate::assemble::{Stencil, is_log_form, radial_weight};
@@ -68,9 +71,19 @@ pub struct RegionField {
     pub e_max_at: [f64; 2],
     /// Volume-weighted (area-weighted when planar) mean |E| in V/m.
     pub e_mean: f64,
-    /// The peak sits at a sharp convex feature of an electrode (within two
-    /// cells), where the drawn geometry has no finite field.
+    /// The peak sits at a singular point (`grid::singular_points`: a sharp
+    /// electrode edge or corner, a foil end, a dielectric triple point;
+    /// within the inner stated distance or two cells), where the drawn
+    /// geometry has no finite field.
     pub at_sharp_edge: bool,
+    /// The peak that judges the part: `e_max` unless that sits at a singular
+    /// point, else the larger of the part's field at the inner stated
+    /// distance `SINGULAR_DISTANCES[0]` from each singular point it touches
+    /// and its peak farther from every one (than that distance or two
+    /// cells, whichever is more), V/m.
+    pub e_judged: f64,
+    /// Where it occurs (m).
+    pub e_judged_at: [f64; 2],
     /// Smallest relative error the peak can be claimed to (from the error
     /// model of fitted inclusions; 0 for nodal peaks). The mesh self-check
     /// never reports less.
@@ -209,6 +222,8 @@ pub struct Fields {
     pub lines: Vec<LineField>,
     /// Solid–fluid surfaces and their largest tangential field.
     pub surfaces: Vec<SurfaceField>,
+    /// The singular points of the geometry and their field.
+    pub singular: Vec<SingularField>,
 }
 
 impl Fields {
@@ -447,6 +462,21 @@ pub fn compute(
 
     let mut e_max = vec![0.0f64; nreg];
     let mut e_max_at = vec![[f64::NAN; 2]; nreg];
+    // the same peaks farther than the inner stated distance from every
+    // singular point: what a part's margin rests on
+    let points = crate::grid::singular_points(case, grid, layout);
+    // (nodes within two cells of a point carry the discretisation error of
+    // the singularity: the field at the inner distance stands for them)
+    let exclusion: Vec<f64> = points
+        .iter()
+        .map(|p| {
+            let (i, j) = grid.cell_ij(grid.locate(p.at));
+            SINGULAR_DISTANCES[0].max(2.0 * (grid.x[i + 1] - grid.x[i]).max(grid.y[j + 1] - grid.y[j]))
+        })
+        .collect();
+    let far = |at: [f64; 2]| points.iter().zip(&exclusion).all(|(p, x)| (p.at[0] - at[0]).hypot(p.at[1] - at[1]) >= *x);
+    let mut e_judged = vec![0.0f64; nreg];
+    let mut e_judged_at = vec![[f64::NAN; 2]; nreg];
     let mut seen = [u32::MAX; 4];
     // Nodes of curved electrodes are staircase points inside the outline;
     // their surface field comes from `surface_fields` instead.
@@ -491,9 +521,14 @@ pub fn compute(
                 let r = r as usize;
                 // ties (within rounding) keep the first node in grid order, so
                 // uniform fields report a stable location
+                let at = [grid.x[i], grid.y[j]];
                 if e > e_max[r] * (1.0 + TIE) || e_max_at[r][0].is_nan() {
                     e_max[r] = e_max[r].max(e);
-                    e_max_at[r] = [grid.x[i], grid.y[j]];
+                    e_max_at[r] = at;
+                }
+                if far(at) && (e > e_judged[r] * (1.0 + TIE) || e_judged_at[r][0].is_nan()) {
+                    e_judged[r] = e_judged[r].max(e);
+                    e_judged_at[r] = at;
                 }
             }
         }
@@ -517,18 +552,34 @@ pub fn compute(
             e_max_at[r] = at;
             floor[r] = f;
         }
+        if far(at) && (value > e_judged[r] * (1.0 + TIE) || e_judged_at[r][0].is_nan()) {
+            e_judged[r] = e_judged[r].max(value);
+            e_judged_at[r] = at;
+        }
     }
 
-    let sharp = sharp_points(case);
-    let regions = (0..nreg)
-        .map(|r| RegionField {
-            cells: cells[r],
-            e_max: e_max[r],
-            e_max_at: e_max_at[r],
-            e_mean: if vol[r] > 0.0 { e_vol[r] / vol[r] } else { 0.0 },
-            at_sharp_edge: e_max[r] > 0.0 && near_any(grid, e_max_at[r], &sharp),
-            e_max_floor: floor[r],
-            e_squared_volume: extensive_scale(case.normalisation) * e2_vol[r],
+    let sharp: Vec<[f64; 2]> = points.iter().map(|p| p.at).collect();
+    let regions: Vec<RegionField> = (0..nreg)
+        .map(|r| {
+            let at_sharp_edge = e_max[r] > 0.0 && (!far(e_max_at[r]) || near_any(grid, e_max_at[r], &sharp));
+            // a region with every peak candidate near a singular point is
+            // judged on its peak (conservative)
+            let (judged, judged_at) = if at_sharp_edge && !e_judged_at[r][0].is_nan() {
+                (e_judged[r], e_judged_at[r])
+            } else {
+                (e_max[r], e_max_at[r])
+            };
+            RegionField {
+                cells: cells[r],
+                e_max: e_max[r],
+                e_max_at: e_max_at[r],
+                e_judged: judged,
+                e_judged_at: judged_at,
+                e_mean: if vol[r] > 0.0 { e_vol[r] / vol[r] } else { 0.0 },
+                at_sharp_edge,
+                e_max_floor: floor[r],
+                e_squared_volume: extensive_scale(case.normalisation) * e2_vol[r],
+            }
         })
         .collect();
 
@@ -570,6 +621,16 @@ pub fn compute(
     let lines = case.lines.iter().map(|l| line_field(&sampler, l.from, l.to, l.points)).collect();
     let e_scale = e_max.iter().copied().fold(0.0, f64::max);
     let surfaces = surfaces::surfaces(case, grid, layout, &sampler.ev, &sampler, e_scale);
+    let singular = singular_fields(&points, &sampler, permittivity);
+    let mut regions = regions;
+    for sf in &singular {
+        for (&r, at) in sf.regions.iter().zip(&sf.e_at_by_region) {
+            if let Some(v) = at[0].filter(|v| regions[r].at_sharp_edge && v.e > regions[r].e_judged * (1.0 + TIE)) {
+                regions[r].e_judged = v.e;
+                regions[r].e_judged_at = v.at;
+            }
+        }
+    }
     Fields {
         regions,
         electrodes,
@@ -583,5 +644,6 @@ pub fn compute(
         gap: gap(grid, layout, &members),
         lines,
         surfaces,
+        singular,
     }
 }

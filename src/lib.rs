@@ -348,14 +348,12 @@ impl Prepared {
         // Large grids resolve their features well even twice as coarse, and
         // the check's cost matters there: ratios 2 and 4 instead of √2 and 2.
         let factors = if self.grid.nodes() > LARGE_GRID_NODES { [2.0, 4.0] } else { [std::f64::consts::SQRT_2, 2.0] };
-        for factor in factors {
-            let mut case = self.case.clone();
-            case.grid = self.case.grid.coarsened(factor);
-            for b in &mut case.refine_boxes {
-                b.max_step *= factor;
-            }
-            let grid = Grid::for_case(&case, &options.limits).ok()?;
-            let p = prepare_evaluations(case, &self.file, grid, false).ok()?;
+        // the reported grid's grading, so that the three grids refine alike
+        let grading = grid::grading_for(&self.case, &options.limits);
+        for coarsening in factors {
+            let plan = grid::GridPlan { grading, coarsening };
+            let grid = Grid::planned(&self.case, &options.limits, plan).ok()?;
+            let p = prepare_evaluations(self.case.clone(), &self.file, grid, false).ok()?;
             // Peaks need far less than the reported solve's tolerance: a
             // relative residual of 1e-8 moves them by well under 1e-6.
             let mut config = options.solve;
@@ -378,6 +376,20 @@ impl Prepared {
         };
         check.lines = (0..fine.lines.len()).map(|k| meshcheck::estimate(all.map(|f| line_peak(f, k)), r)).collect();
         check.energy = meshcheck::estimate(all.map(|f| f.energy), r);
+        // the same point on each grid (singular points lie on feature lines,
+        // which every grid has)
+        let ring = |f: &fields::Fields, at: [f64; 2], d: usize| {
+            f.singular
+                .iter()
+                .find(|s| (s.point.at[0] - at[0]).hypot(s.point.at[1] - at[1]) <= 1e-9)
+                .and_then(|s| s.e_at[d])
+                .map_or(f64::NAN, |v| v.e)
+        };
+        check.singular = fine
+            .singular
+            .iter()
+            .map(|s| [0, 1].map(|d| meshcheck::estimate(all.map(|f| ring(f, s.point.at, d)), r)))
+            .collect();
         let scale =
             |list: &[discharge::GasInception], r: usize| list.iter().find(|g| g.region == r).and_then(|g| g.scale);
         check.inception = fine_discharge

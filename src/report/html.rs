@@ -78,7 +78,8 @@ fn parts(r: &CheckReport) -> Markup {
         table {
             thead { tr {
                 th { "#" } th { "part" } th { "material" } th.num { "εr" } th.num { "peak |E| (kV/mm " (r.values) ")" }
-                th.num { "at (mm)" } th.num { "mean |E| (kV/mm " (r.values) ")" } th.num { "strength (kV/mm " (r.values) ")" }
+                th.num { "at (mm)" } th.num { "judged |E| (kV/mm " (r.values) ")" } th.num { "mean |E| (kV/mm " (r.values) ")" }
+                th.num { "strength (kV/mm " (r.values) ")" }
                 th.num { "margin" } th.num { "error estimate (%)" } th { "verdict" }
             } }
             tbody {
@@ -87,11 +88,45 @@ fn parts(r: &CheckReport) -> Markup {
                         td { (k + 1) } td { (p.name) } td { (p.material) } td.num { (sig4(p.permittivity)) }
                         td.num { (sig4(p.e_max_kv_per_mm)) }
                         td.num { (sig4(p.e_max_at_mm[0])) ", " (sig4(p.e_max_at_mm[1])) }
+                        td.num { (sig4(p.e_max_judged_kv_per_mm)) }
                         td.num { (sig4(p.e_mean_kv_per_mm)) } td.num { (opt(p.strength_kv_per_mm)) }
-                        td.num { (opt(p.margin)) } td.num { (opt(p.e_max_error_estimate_pct)) }
+                        td.num { (opt(p.margin)) }
+                        td.num { (opt(if p.e_max_judged_at_mm == p.e_max_at_mm { p.e_max_error_estimate_pct } else { p.e_max_judged_error_estimate_pct })) }
                         td { span class={ "tag " (verdict_word(p.verdict)) } { (verdict_word(p.verdict)) } }
                     }
                 }
+            }
+        }
+    }
+}
+
+/// The singular points of the drawn geometry, where the case has them.
+fn singular_points(r: &CheckReport) -> Markup {
+    let with_error = |e: Option<f64>, x: Option<f64>| match (e, x) {
+        (Some(e), Some(x)) => format!("{} ± {} %", sig4(e), crate::report::text::significant(x, 2)),
+        (Some(e), None) => sig4(e),
+        (None, _) => "—".to_string(),
+    };
+    html! {
+        @if let Some(first) = r.singular_points.first() {
+            h2 { "Singular points" }
+            p.meta { "Where the drawn geometry has no finite field (|E| ~ r^(λ−1)): the peak there is a property of the \
+                drawing, not of the design. Parts are judged on their field " (first.distances_mm[0]) " mm from these points \
+                and farther; the radius is the edge radius that brings the peak to strength ÷ safety factor." }
+            table {
+                thead { tr {
+                    th.num { "at (mm)" } th { "kind" } th { "electrode" } th { "parts" } th.num { "λ drawn" } th.num { "λ fitted" }
+                    th.num { "|E| at " (first.distances_mm[0]) " mm (kV/mm " (r.values) ")" }
+                    th.num { "|E| at " (first.distances_mm[1]) " mm (kV/mm " (r.values) ")" }
+                    th.num { "radius (mm)" }
+                } }
+                tbody { @for s in &r.singular_points { tr {
+                    td.num { (sig4(s.at_mm[0])) ", " (sig4(s.at_mm[1])) } td { (s.kind) } td { (s.electrode) }
+                    td { (s.parts.join(", ")) } td.num { (opt(s.exponent_drawn)) } td.num { (opt(s.exponent_fitted)) }
+                    td.num { (with_error(s.e_at_distances_kv_per_mm[0], s.e_at_distances_error_estimate_pct[0])) }
+                    td.num { (with_error(s.e_at_distances_kv_per_mm[1], s.e_at_distances_error_estimate_pct[1])) }
+                    td.num { (opt(s.radius_to_allowable_mm)) }
+                } } }
             }
         }
     }
@@ -205,6 +240,7 @@ pub fn render_page(inp: &PageInputs) -> String {
                     working level); the required safety factor is " (sig4(r.safety_factor)) "." }
                 (parts(r))
                 (discharge(r))
+                (singular_points(r))
                 (service_conditions(r))
                 h2 { "Findings" }
                 @if r.findings.is_empty() { p { "None." } } @else {
@@ -228,6 +264,7 @@ pub fn render_page(inp: &PageInputs) -> String {
                 p.meta {
                     @if let Some(c) = &r.capacitance { "Capacitance " (sig4(c.value)) " " (c.unit) " · " }
                     "stored energy " (sig4(r.energy.value)) " " (r.energy.unit)
+                    @if let Some(x) = r.energy_error_estimate_pct { " (± " (crate::report::text::significant(x, 2)) " %, the capacitance likewise)" }
                     @if let Some(c) = &r.field_concentration {
                         " · field enhancement factor " (sig4(c.factor)) " (peak " (sig4(c.e_max_kv_per_mm))
                         " kV/mm " (r.values) " against " (sig4(c.e_uniform_kv_per_mm)) " kV/mm " (r.values) " over the " (sig4(c.gap_mm)) " mm gap)"
@@ -238,10 +275,10 @@ pub fn render_page(inp: &PageInputs) -> String {
                     h2 { "Probes" }
                     table {
                         thead { tr { th { "probe" } th.num { "at (mm)" } th { "in" } th.num { "potential (kV " (r.values) ")" }
-                            th.num { "|E| (kV/mm " (r.values) ")" } } }
+                            th.num { "|E| (kV/mm " (r.values) ")" } th.num { "error estimate (%)" } } }
                         tbody { @for p in &r.probes { tr {
                             td { (p.name) } td.num { (sig4(p.at_mm[0])) ", " (sig4(p.at_mm[1])) } td { (p.part) }
-                            td.num { (sig4(p.potential_kv)) } td.num { (sig4(p.e_kv_per_mm)) }
+                            td.num { (sig4(p.potential_kv)) } td.num { (sig4(p.e_kv_per_mm)) } td.num { (opt(p.e_error_estimate_pct)) }
                         } } }
                     }
                 }
@@ -249,12 +286,13 @@ pub fn render_page(inp: &PageInputs) -> String {
                     h2 { "Lines" }
                     table {
                         thead { tr { th { "line" } th.num { "from (mm)" } th.num { "to (mm)" }
-                            th.num { "peak |E| (kV/mm " (r.values) ")" } th.num { "at (mm)" } th { "samples" } } }
+                            th.num { "peak |E| (kV/mm " (r.values) ")" } th.num { "at (mm)" } th.num { "error estimate (%)" } th { "samples" } } }
                         tbody { @for (l, file) in r.lines.iter().zip(inp.line_files) { tr {
                             td { (l.name) } td.num { (sig4(l.from_mm[0])) ", " (sig4(l.from_mm[1])) }
                             td.num { (sig4(l.to_mm[0])) ", " (sig4(l.to_mm[1])) }
                             td.num { (sig4(l.e_max_kv_per_mm)) }
                             td.num { (sig4(l.e_max_at_mm[0])) ", " (sig4(l.e_max_at_mm[1])) }
+                            td.num { (opt(l.e_max_error_estimate_pct)) }
                             td { a href=(file) { (file) } " (" (l.points) ")" }
                         } } }
                     }

@@ -144,7 +144,43 @@ pub fn message(kind: &FindingKind, values: crate::units::Values) -> String {
             "the part is completely covered by later parts or electrodes and owns no cells; check the part order."
                 .to_string()
         }
-        FindingKind::SingularPeak { e_max, at_edge } => format!(
+        FindingKind::SingularPeak { e_max, point: Some(d), .. } => {
+            let lambda = |v: Option<f64>| v.map_or("–".to_string(), g3);
+            let at = |k: usize| d.e_at[k].map_or("–".to_string(), &field);
+            format!(
+                "the highest field sits at {} at ({}, {}) mm, where the drawn geometry has no finite field \
+                 (|E| ~ r^(λ−1); λ = {} for the drawn wedges, {} fitted from this part's field at 0.1 and 1 mm): its \
+                 peak ({} → {} → {} kV/mm {} on the self-check's grids, coarsest first) is a property of the drawing, \
+                 not of the design. The field is {} at 0.1 mm and {} at 1 mm from the point; the margin is judged on \
+                 the peak farther than 0.1 mm, {}. {} Model the real radius (a fillet or a rounded profile) and check \
+                 again.",
+                match d.kind {
+                    crate::grid::SingularKind::ElectrodeEdge =>
+                        format!("a sharp edge, corner or foil end of electrode {}", d.electrode),
+                    crate::grid::SingularKind::TriplePoint =>
+                        format!("a dielectric triple point (this part, other insulation and electrode {})", d.electrode),
+                },
+                g3(to_mm(d.at[0])),
+                g3(to_mm(d.at[1])),
+                lambda(d.exponent_drawn),
+                lambda(d.exponent_fitted),
+                g3(to_kv_per_mm(e_max[2])),
+                g3(to_kv_per_mm(e_max[1])),
+                g3(to_kv_per_mm(e_max[0])),
+                values.name(),
+                at(0),
+                at(1),
+                field(d.e_judged),
+                match d.radius {
+                    Some(r) => format!(
+                        "An edge radius of about {} mm brings the peak there to the strength over the safety factor.",
+                        g3(to_mm(r))
+                    ),
+                    None => "No radius estimate (no strength, or no singular exponent).".to_string(),
+                },
+            )
+        }
+        FindingKind::SingularPeak { e_max, at_edge, point: None } => format!(
             "{}, so the number depends on the grid ({} → {} → {} kV/mm {} from the coarsest to the finest grid of the \
              self-check), not on the design. {} Until then this part cannot pass.",
             if *at_edge {
@@ -165,7 +201,7 @@ pub fn message(kind: &FindingKind, values: crate::units::Values) -> String {
             }
         ),
         FindingKind::MeshSensitive { estimate } => format!(
-            "the estimated discretisation error of the highest field is {} % (above 2 %): refine the grid \
+            "the estimated discretisation error of the peak field this part is judged on is {} % (above 2 %): refine the grid \
              (grid.max_step, grid.cells_across) until it settles.",
             g3(100.0 * estimate)
         ),
@@ -335,8 +371,8 @@ pub fn message(kind: &FindingKind, values: crate::units::Values) -> String {
             g3(to_mm(j.at[1])),
             match j.exponent {
                 Some(l) if j.enhanced() => format!(
-                    "the field rises toward it (local exponent λ ≈ {}{}, |E| ~ r^(λ−1); {} kV/mm {} beside it against \
-                     {} kV/mm {} six cells away): a classic discharge site. Its peak is a property of the drawing (the \
+                    "the field rises toward it (local exponent λ ≈ {}{}, |E| ~ r^(λ−1); {} kV/mm {} two cells from it against \
+                     {} kV/mm {} eight cells away): a classic discharge site. Its peak is a property of the drawing (the \
                      drawn contact is perfectly sharp). Embed or recess the electrode edge, put a conductive or \
                      semiconductive layer at the contact, or fill the wedge, and confirm by test.",
                     g3(l),
@@ -481,6 +517,12 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
                 e_max_reference_kv_per_mm: p.e_max_reference.map(to_kv_per_mm),
                 e_max_change_pct: p.e_max_change.map(|c| 100.0 * c),
                 e_max_at_mm: f.e_max_at.map(to_mm),
+                e_max_judged_kv_per_mm: to_kv_per_mm(f.e_judged),
+                e_max_judged_at_mm: f.e_judged_at.map(to_mm),
+                e_max_judged_error_estimate_pct: mesh_check
+                    .and_then(|c| c.judged.get(p.region))
+                    .and_then(|c| c.error_estimate)
+                    .map(|e| 100.0 * e),
                 e_mean_kv_per_mm: to_kv_per_mm(f.e_mean),
                 w_max_j_per_m3: p.w_max,
                 w_pol_max_j_per_m3: p.w_pol_max,
@@ -640,6 +682,29 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
             permittivity_contrast_only: c.permittivity_contrast_only,
         }),
         mesh_check: mesh_check.map(|c| MeshCheckOut { nodes: c.nodes }),
+        singular_points: fields
+            .singular
+            .iter()
+            .zip(&assessment.singular)
+            .enumerate()
+            .map(|(k, (s, j))| model::SingularPointOut {
+                at_mm: s.point.at.map(to_mm),
+                kind: match s.point.kind {
+                    crate::grid::SingularKind::ElectrodeEdge => "electrode-edge",
+                    crate::grid::SingularKind::TriplePoint => "triple-point",
+                },
+                electrode: layout.electrodes[s.point.electrode].name.clone(),
+                parts: s.regions.iter().map(|&r| layout.regions[r].name.clone()).collect(),
+                exponent_drawn: s.exponent_drawn,
+                exponent_fitted: s.exponent_fitted,
+                distances_mm: crate::fields::SINGULAR_DISTANCES.map(to_mm),
+                e_at_distances_kv_per_mm: s.e_at.map(|v| v.map(|v| to_kv_per_mm(v.e))),
+                e_at_distances_error_estimate_pct: [0, 1].map(|d| {
+                    mesh_check.and_then(|c| c.singular.get(k)).and_then(|c| c[d].error_estimate).map(|e| 100.0 * e)
+                }),
+                radius_to_allowable_mm: j.radius.map(to_mm),
+            })
+            .collect(),
         surfaces: fields
             .surfaces
             .iter()

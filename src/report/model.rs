@@ -87,6 +87,37 @@ pub struct ConcentrationOut {
     pub permittivity_contrast_only: bool,
 }
 
+/// One singular point of the drawn geometry.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SingularPointOut {
+    /// Where, [x, y] (or [r, z]).
+    pub at_mm: [f64; 2],
+    /// `electrode-edge` (a sharp edge, corner or foil end in one insulating
+    /// material) or `triple-point` (two or more insulating materials meet
+    /// at the electrode there).
+    pub kind: &'static str,
+    /// The electrode.
+    pub electrode: String,
+    /// The insulating parts around the point.
+    pub parts: Vec<String>,
+    /// λ of |E| ~ r^(λ−1) from the drawn wedge angles and permittivities
+    /// (one wedge π/θ; two after Meixner 1972; null for other arrangements).
+    pub exponent_drawn: Option<f64>,
+    /// λ fitted from the fields at the two distances.
+    pub exponent_fitted: Option<f64>,
+    /// The stated distances from the point.
+    pub distances_mm: [f64; 2],
+    /// The largest field in the insulation at each distance, in the case's
+    /// convention (null where no insulation lies at that distance).
+    pub e_at_distances_kv_per_mm: [Option<f64>; 2],
+    /// Estimated discretisation error of each, from the mesh self-check.
+    pub e_at_distances_error_estimate_pct: [Option<f64>; 2],
+    /// Radius of curvature that brings the peak there down to the strength
+    /// over the safety factor (of the part with the highest field at the
+    /// inner distance; null without a strength or a singular exponent).
+    pub radius_to_allowable_mm: Option<f64>,
+}
+
 /// One dielectric part.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct PartOut {
@@ -112,6 +143,16 @@ pub struct PartOut {
     pub e_max_change_pct: Option<f64>,
     /// Where the peak is, [x, y] (or [r, z]).
     pub e_max_at_mm: [f64; 2],
+    /// The peak the margin rests on, in the case's convention: `e_max`
+    /// unless that sits at a singular point of the drawn geometry (see
+    /// `singular_points`), else the larger of the part's field 0.1 mm from
+    /// each such point and its peak farther away.
+    pub e_max_judged_kv_per_mm: f64,
+    /// Where it is, [x, y] (or [r, z]).
+    pub e_max_judged_at_mm: [f64; 2],
+    /// Estimated discretisation error of `e_max_judged_kv_per_mm` from the
+    /// mesh self-check (null where it could not bracket it).
+    pub e_max_judged_error_estimate_pct: Option<f64>,
     /// Area- (planar) or volume- (axisymmetric) weighted mean field.
     pub e_mean_kv_per_mm: f64,
     /// Largest energy density ½·ε·E².
@@ -353,6 +394,10 @@ pub struct CheckReport {
     /// Solid–gas and solid–liquid surfaces with their largest tangential
     /// field, in the case's convention.
     pub surfaces: Vec<SurfaceOut>,
+    /// Points where the drawn geometry has no finite field (sharp electrode
+    /// edges and corners, foil ends, dielectric triple points), described
+    /// without the grid.
+    pub singular_points: Vec<SingularPointOut>,
     /// DC: the charge accumulated on each interface between two insulating
     /// parts (absent unless dc).
     #[serde(skip_serializing_if = "Vec::is_empty")]

@@ -39,7 +39,7 @@ pub fn verdict_sentence(v: VerdictOut) -> &'static str {
     match v {
         VerdictOut::Pass => "PASS — every part meets the safety factor; no warnings",
         VerdictOut::Review => "REVIEW — something needs an engineer's look (see findings)",
-        VerdictOut::Fail => "FAIL — a typical breakdown strength is exceeded (see findings)",
+        VerdictOut::Fail => "FAIL — a typical breakdown strength is exceeded or discharge starts at the working level (see findings)",
     }
 }
 
@@ -214,6 +214,51 @@ pub fn render_text(r: &CheckReport) -> String {
         let _ = writeln!(o, "{}", table(&["solid", "gas or liquid", &et, "at mm"], rows, &[2, 3]));
         if worst.len() > MAX_SURFACES_LISTED {
             let _ = writeln!(o, " … and {} more in the JSON", worst.len() - MAX_SURFACES_LISTED);
+        }
+    }
+
+    if !r.singular_points.is_empty() {
+        let _ = writeln!(
+            o,
+            "\nsingular points of the drawn geometry (|E| ~ r^(λ−1): the peak there is a property of the drawing; \
+             the field at stated distances and the edge radius that brings it to strength / safety factor)"
+        );
+        let d = r.singular_points[0].distances_mm;
+        let rows = r
+            .singular_points
+            .iter()
+            .map(|s| {
+                let with_error =
+                    |k: usize| match (s.e_at_distances_kv_per_mm[k], s.e_at_distances_error_estimate_pct[k]) {
+                        (Some(e), Some(x)) => format!("{} ± {} %", sig4(e), significant(x, 2)),
+                        (Some(e), None) => sig4(e),
+                        (None, _) => "—".into(),
+                    };
+                vec![
+                    format!("{}, {}", sig4(s.at_mm[0]), sig4(s.at_mm[1])),
+                    s.kind.to_string(),
+                    s.electrode.clone(),
+                    opt(s.exponent_drawn),
+                    opt(s.exponent_fitted),
+                    with_error(0),
+                    with_error(1),
+                    opt(s.radius_to_allowable_mm),
+                ]
+            })
+            .collect();
+        let (e0, e1) = (format!("E at {} mm kV/mm {v}", d[0]), format!("E at {} mm kV/mm {v}", d[1]));
+        let head = ["at mm", "kind", "electrode", "λ drawn", "λ fitted", &e0, &e1, "radius mm"];
+        let _ = writeln!(o, "{}", table(&head, rows, &[3, 4, 5, 6, 7]));
+        for p in r.parts.iter().filter(|p| p.e_max_judged_at_mm != p.e_max_at_mm && p.pd_criterion.is_none()) {
+            let _ = writeln!(
+                o,
+                " {}: judged on {} kV/mm {v} at {}, {} mm{} (its peak at a singular point does not count)",
+                p.name,
+                sig4(p.e_max_judged_kv_per_mm),
+                sig4(p.e_max_judged_at_mm[0]),
+                sig4(p.e_max_judged_at_mm[1]),
+                p.e_max_judged_error_estimate_pct.map_or_else(String::new, |x| format!(", ± {} %", significant(x, 2)))
+            );
         }
     }
 
