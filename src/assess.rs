@@ -448,7 +448,8 @@ pub const STRENGTH_TEMPERATURE_SLACK_K: f64 = 10.0;
 /// Field concentration over the whole case.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Concentration {
-    /// Highest field in any dielectric part, V/m.
+    /// Highest judged field in any dielectric part (`RegionField::e_judged`:
+    /// 0.1 mm from a singular point where the peak sits at one), V/m.
     pub e_max: f64,
     /// Shortest distance between electrodes at different potentials, m.
     pub gap: f64,
@@ -775,7 +776,9 @@ pub fn assess(inp: &Inputs) -> Assessment {
         });
     }
 
-    let e_max = parts.iter().map(|p| fields.regions[p.region].e_max).fold(0.0, f64::max);
+    // a peak at a singular point grows without bound under refinement: the
+    // factor takes the judged peaks
+    let e_max = parts.iter().map(|p| fields.regions[p.region].e_judged).fold(0.0, f64::max);
     let concentration = fields.gap.map(|g| {
         let e_uniform = g.largest_difference / g.distance;
         let plain_stack =

@@ -491,6 +491,28 @@ pub fn triple_junctions(case: &Case, sampler: &Sampler, permittivity: &[f64]) ->
             }
         }
         let (Some(solid), Some(&(fl, _))) = (solid, fluid.first()) else { continue };
+        // a node inside an electrode line lying on a solid–fluid surface (a
+        // foil or sleeve on the surface) is on a contact line, not a junction
+        let on = |a: usize, b: usize| a < nx && b < ny && layout.node_electrode[grid.node(a, b).0] == e;
+        let cell_class = |ci: usize, cj: usize| {
+            (ci < nx - 1 && cj < ny - 1)
+                .then(|| layout.cell_region[grid.cell(ci, cj).0])
+                .filter(|&r| r != CONDUCTOR)
+                .map(class)
+        };
+        let along_x = on(i.wrapping_sub(1), j)
+            && on(i + 1, j)
+            && cell_class(i, j) != cell_class(i, j.wrapping_sub(1))
+            && cell_class(i.wrapping_sub(1), j) == cell_class(i, j)
+            && cell_class(i.wrapping_sub(1), j.wrapping_sub(1)) == cell_class(i, j.wrapping_sub(1));
+        let along_y = on(i, j.wrapping_sub(1))
+            && on(i, j + 1)
+            && cell_class(i, j) != cell_class(i.wrapping_sub(1), j)
+            && cell_class(i, j.wrapping_sub(1)) == cell_class(i, j)
+            && cell_class(i.wrapping_sub(1), j.wrapping_sub(1)) == cell_class(i.wrapping_sub(1), j);
+        if along_x || along_y {
+            continue;
+        }
         let at = grid.node_pos(NodeIx(n));
         let h = sampler.cell_size(at);
         let same = |k: &Junction| {

@@ -482,8 +482,8 @@ pub fn compute(
     // their surface field comes from `surface_fields` instead.
     // Free nodes right beside such an outline take their field across an
     // edge shortened to θ·h, which scatters: they are left to it as well.
-    let curved: Vec<bool> =
-        layout.electrodes.iter().map(|e| !matches!(case.parts[e.part].shape, crate::shape::Shape::Rect(_))).collect();
+    let tol = 1e-9 * case.domain.width().max(case.domain.height());
+    let curved_at = |e: u32, at: [f64; 2]| case.parts[layout.electrodes[e as usize].part].shape.curved_at(at, tol);
     let mut beside_outline = vec![false; grid.nodes()];
     for b in &layout.boundary_edges {
         beside_outline[b.free_node as usize] = true;
@@ -491,7 +491,7 @@ pub fn compute(
     for j in 0..ny {
         for i in 0..nx {
             let own = layout.node_electrode[grid.node(i, j).0];
-            if (own != NO_ELECTRODE && curved[own as usize]) || beside_outline[grid.node(i, j).0] {
+            if (own != NO_ELECTRODE && curved_at(own, [grid.x[i], grid.y[j]])) || beside_outline[grid.node(i, j).0] {
                 continue;
             }
             seen.fill(u32::MAX);

@@ -76,9 +76,49 @@ pub enum Shape {
         /// Corner radius.
         radius: f64,
     },
+    /// A zero-thickness foil (a rectangle thin in one direction) whose two
+    /// ends are rolled or beaded: a disc of `radius` at each end, inside the
+    /// drawn length (its outer extreme at the drawn end).
+    Beaded {
+        /// The foil line.
+        rect: Rect,
+        /// Radius of the beads.
+        radius: f64,
+    },
 }
 
 impl Shape {
+    /// The bead centres of a beaded foil (empty for other shapes).
+    pub fn bead_centres(&self) -> Vec<[f64; 2]> {
+        match self {
+            Shape::Beaded { rect: r, radius } if r.height() == 0.0 => {
+                vec![[r.x0 + radius, r.y0], [r.x1 - radius, r.y0]]
+            }
+            Shape::Beaded { rect: r, radius } => vec![[r.x0, r.y0 + radius], [r.x0, r.y1 - radius]],
+            _ => Vec::new(),
+        }
+    }
+
+    /// The bead discs of a beaded foil as circles.
+    fn beads(&self) -> Vec<Shape> {
+        let radius = match self {
+            Shape::Beaded { radius, .. } => *radius,
+            _ => 0.0,
+        };
+        self.bead_centres().into_iter().map(|center| Shape::Circle { center, radius }).collect()
+    }
+
+    /// True where the outline near `p` is curved, so that nodal peaks there
+    /// give way to the surface fields recovered along the outline: every
+    /// non-rectangular shape, and for a beaded foil its beads only.
+    pub fn curved_at(&self, p: [f64; 2], tol: f64) -> bool {
+        match self {
+            Shape::Rect(_) => false,
+            Shape::Beaded { .. } => self.beads().iter().any(|b| b.contains_closed(p, tol)),
+            _ => true,
+        }
+    }
+
     /// Bounding box.
     pub fn bounds(&self) -> Rect {
         match self {
@@ -88,6 +128,10 @@ impl Shape {
             }
             Shape::RoundedRect { rect, .. } => *rect,
             Shape::Polygon(v) | Shape::Filleted { points: v, .. } => bounds_of(v),
+            Shape::Beaded { rect: r, radius } if r.height() == 0.0 => {
+                Rect { x0: r.x0, x1: r.x1, y0: r.y0 - radius, y1: r.y0 + radius }
+            }
+            Shape::Beaded { rect: r, radius } => Rect { x0: r.x0 - radius, x1: r.x0 + radius, y0: r.y0, y1: r.y1 },
         }
     }
 
@@ -119,6 +163,23 @@ impl Shape {
                     .chain(arc([r.x0 + rad, r.y0 + rad], rad, 2.0 * h, q))
                     .collect()
             }
+            Shape::Beaded { radius, .. } => {
+                // one bead, the foil to the other, around that bead, and back
+                let c = self.bead_centres();
+                let (a, b) = (c[0], c[1]);
+                let dir = [
+                    (b[0] - a[0]) / (b[0] - a[0]).hypot(b[1] - a[1]),
+                    (b[1] - a[1]) / (b[0] - a[0]).hypot(b[1] - a[1]),
+                ];
+                let start = dir[1].atan2(dir[0]);
+                let around = |c: [f64; 2], from: f64| {
+                    (0..=ARC_STEPS).map(move |k| {
+                        let t = from + std::f64::consts::TAU * k as f64 / ARC_STEPS as f64;
+                        [c[0] + radius * t.cos(), c[1] + radius * t.sin()]
+                    })
+                };
+                around(a, start).chain(around(b, start + std::f64::consts::PI)).collect()
+            }
         }
     }
 
@@ -131,6 +192,7 @@ impl Shape {
             Shape::RoundedRect { rect, radius } => {
                 rect.width() * rect.height() - (4.0 - std::f64::consts::PI) * radius * radius
             }
+            Shape::Beaded { radius, .. } => 2.0 * std::f64::consts::PI * radius * radius,
         }
     }
 
@@ -148,6 +210,15 @@ impl Shape {
             }
             Shape::RoundedRect { rect: r, radius } => {
                 (vec![r.x0, r.x0 + radius, r.x1 - radius, r.x1], vec![r.y0, r.y0 + radius, r.y1 - radius, r.y1])
+            }
+            Shape::Beaded { .. } => {
+                let (mut xs, mut ys) = (Vec::new(), Vec::new());
+                for b in self.beads() {
+                    let (x, y) = b.breakpoints();
+                    xs.extend(x);
+                    ys.extend(y);
+                }
+                (xs, ys)
             }
         }
     }
@@ -168,7 +239,7 @@ impl Shape {
                 }
                 v
             }
-            Shape::Circle { .. } | Shape::RoundedRect { .. } => Vec::new(),
+            Shape::Circle { .. } | Shape::RoundedRect { .. } | Shape::Beaded { .. } => Vec::new(),
             Shape::Filleted { sharp, .. } => sharp.clone(),
             Shape::Polygon(v) => {
                 let orientation = polygon_signed_area(v).signum();
@@ -192,6 +263,15 @@ impl Shape {
         let d = [b[0] - a[0], b[1] - a[1]];
         match self {
             Shape::Rect(_) => None,
+            // the foil itself lies on a grid line; only the beads are curved
+            Shape::Beaded { .. } => {
+                let inside = |bead: &&Shape| bead.contains_closed(b, 0.0) && !bead.contains_closed(a, 0.0);
+                self.beads()
+                    .iter()
+                    .filter(inside)
+                    .filter_map(|bead| bead.entry(a, b))
+                    .min_by(|x, y| x.0.total_cmp(&y.0))
+            }
             Shape::RoundedRect { .. } => {
                 // bisection on the signed distance along the segment
                 let sd = |t: f64| self.signed_distance([a[0] + t * d[0], a[1] + t * d[1]]);
@@ -254,6 +334,11 @@ impl Shape {
             Shape::RoundedRect { .. } => self.signed_distance(p).abs(),
             Shape::Rect(r) => edges(&[[r.x0, r.y0], [r.x1, r.y0], [r.x1, r.y1], [r.x0, r.y1]]),
             Shape::Polygon(v) | Shape::Filleted { points: v, .. } => edges(v),
+            Shape::Beaded { rect: r, .. } => self
+                .beads()
+                .iter()
+                .map(|b| b.outline_distance(p))
+                .fold(segment_distance([r.x0, r.y0], [r.x1, r.y1], p), f64::min),
         }
     }
 
@@ -277,6 +362,16 @@ impl Shape {
             }
             Shape::Rect(r) => nearest_edge(&[[r.x0, r.y0], [r.x1, r.y0], [r.x1, r.y1], [r.x0, r.y1]]),
             Shape::Polygon(v) | Shape::Filleted { points: v, .. } => nearest_edge(v),
+            Shape::Beaded { rect: r, .. } => {
+                let beads = self.beads();
+                let nearest = beads.iter().min_by(|a, b| a.outline_distance(p).total_cmp(&b.outline_distance(p)));
+                match nearest {
+                    Some(b) if b.outline_distance(p) < segment_distance([r.x0, r.y0], [r.x1, r.y1], p) => {
+                        b.normal_near(p)
+                    }
+                    _ => unit([-(r.y1 - r.y0), r.x1 - r.x0]),
+                }
+            }
         }
     }
 
@@ -292,6 +387,9 @@ impl Shape {
                 point_in_polygon(v, p) || polygon_edges(v).any(|(a, b)| segment_distance(a, b, p) <= tol)
             }
             Shape::RoundedRect { .. } => self.signed_distance(p) <= tol,
+            Shape::Beaded { rect, .. } => {
+                rect.contains_closed(p, tol) || self.beads().iter().any(|b| b.contains_closed(p, tol))
+            }
         }
     }
 
@@ -320,7 +418,9 @@ impl Shape {
     fn outward_normal(&self, p: [f64; 2]) -> [f64; 2] {
         let Shape::RoundedRect { rect: r, radius } = self else { return [0.0, 0.0] };
         let (cx, cy) = (0.5 * (r.x0 + r.x1), 0.5 * (r.y0 + r.y1));
-        let (hx, hy) = (0.5 * r.width() - radius, 0.5 * r.height() - radius);
+        // a stadium (radius half the shorter side) has an inner rectangle of
+        // zero width, which rounding can make slightly negative
+        let (hx, hy) = ((0.5 * r.width() - radius).max(0.0), (0.5 * r.height() - radius).max(0.0));
         // nearest point of the inner rectangle; the normal points away from it
         let nx = (p[0] - cx).clamp(-hx, hx) + cx;
         let ny = (p[1] - cy).clamp(-hy, hy) + cy;
@@ -605,6 +705,33 @@ pub fn segment_distance(a: [f64; 2], b: [f64; 2], p: [f64; 2]) -> f64 {
 
 #[cfg(test)]
 mod tests {
+
+    #[test]
+    fn a_stadium_has_a_normal_at_every_outline_point() {
+        // radius half the width: the inner rectangle has zero width, and a
+        // rounding residue once made `clamp` panic (found with 1 mm foils)
+        let s = Shape::RoundedRect { rect: Rect { x0: 8.25e-3, x1: 9.25e-3, y0: 0.01, y1: 0.05 }, radius: 5e-4 };
+        let (t, n) = s.entry([8.0e-3, 0.03], [8.75e-3, 0.03]).expect("the segment enters the stadium");
+        assert!((t - 1.0 / 3.0).abs() < 1e-9, "{t}");
+        assert!((n[0] + 1.0).abs() < 1e-9 && n[1].abs() < 1e-9, "{n:?}");
+    }
+
+    #[test]
+    fn a_beaded_foil_is_its_line_and_two_discs() {
+        let s = Shape::Beaded { rect: Rect { x0: 0.0, x1: 10.0, y0: 5.0, y1: 5.0 }, radius: 1.0 };
+        assert_eq!(s.bead_centres(), vec![[1.0, 5.0], [9.0, 5.0]]);
+        assert!(s.contains_closed([0.0, 5.0], 0.0) && s.contains_closed([1.0, 5.9], 0.0));
+        assert!(s.contains_closed([5.0, 5.0], 0.0) && !s.contains_closed([5.0, 5.5], 0.0));
+        assert!(s.sharp_points().is_empty());
+        assert_eq!(s.bounds(), Rect { x0: 0.0, x1: 10.0, y0: 4.0, y1: 6.0 });
+        // entering the left bead from outside along y: the disc's top
+        let (t, n) = s.entry([1.0, 8.0], [1.0, 5.0]).unwrap();
+        assert!((t - 2.0 / 3.0).abs() < 1e-12 && (n[1] - 1.0).abs() < 1e-12);
+        // a node on the foil line away from the beads has no curved entry
+        assert_eq!(s.entry([5.0, 8.0], [5.0, 5.0]), None);
+        assert!(s.curved_at([1.0, 5.5], 0.0) && !s.curved_at([5.0, 5.0], 0.0));
+    }
+
     use super::*;
 
     #[test]

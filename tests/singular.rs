@@ -138,3 +138,56 @@ fn graded_grids_converge_at_the_regular_rate_near_a_right_angle() {
         assert!((p.exponent_fitted.unwrap() - 2.0 / 3.0).abs() < 0.02, "{:?}", p.exponent_fitted);
     }
 }
+
+/// A wire of radius a = 1 mm with its axis h = 10 mm over a plane at
+/// 10 kV: E_max = V·√(h² − a²)/(a·(h − a)·acosh(h/a)) and C = 2πε0/acosh(h/a)
+/// per metre (line-charge images; Kuffel, Zaengl & Kuffel, *High Voltage
+/// Engineering Fundamentals*, 2000). Drawn as a circle, and as a foil of
+/// length 2a whose two beads (`edge_radius: a`) are that circle: the bead
+/// machinery gives the closed form as the circle does.
+fn wire(shape: &str) -> hvstack::report::CheckReport {
+    run(&format!(
+        "
+title: wire over a plane
+geometry: planar
+domain: {{ x: [-100, 100], y: [0, 100] }}
+background: air
+parts:
+  - {{ name: plane, electrode: {{ potential_kv: 0 }}, shape: {{ rect: {{ x: [-100, 100], y: [0, 0] }} }} }}
+  - {{ name: wire, electrode: {{ potential_kv: 10 }}, shape: {shape} }}
+"
+    ))
+}
+
+#[test]
+fn a_beaded_foil_end_has_the_field_of_its_bead() {
+    let (h, a, v) = (10.0f64, 1.0f64, 10.0f64);
+    let e_exact = v * (h * h - a * a).sqrt() / (a * (h - a) * (h / a).acosh());
+    let c_exact = 2.0 * std::f64::consts::PI * 8.8541878128 / (h / a).acosh();
+    let bead = wire("{ rect: { x: [-1, 1], y: [10, 10], edge_radius: 1 } }");
+    let circle = wire("{ circle: { center: [0, 10], radius: 1 } }");
+    for r in [&bead, &circle] {
+        let e = part(r, "background").e_max_kv_per_mm;
+        // the domain's zero-flux sides and top move the closed form by a few 0.1 %
+        assert!(rel(e, e_exact) < 0.006, "{e} against {e_exact}");
+        assert!(rel(capacitance(r), c_exact) < 0.004, "{} against {c_exact}", capacitance(r));
+    }
+    assert!(rel(part(&bead, "background").e_max_kv_per_mm, part(&circle, "background").e_max_kv_per_mm) < 0.006);
+    // a beaded foil has no singular point
+    assert!(bead.singular_points.is_empty());
+    assert!(!bead.findings.iter().any(|f| f.code == "singular-peak"));
+}
+
+/// The condenser demo's three beaded foils (0.5 mm) leave only the sleeve's
+/// sharp ends singular, and the grid stays local: 54 448 nodes measured,
+/// where the same foils drawn 1 mm thick with rounded ends (`radius: 0.5`)
+/// take 230 181 and boxes around the beads gave 260 000 (both measured).
+#[test]
+fn beaded_foils_are_not_singular_and_grade_locally() {
+    let text = std::fs::read_to_string("cases/condenser-foils.yaml").unwrap();
+    assert!(text.contains("edge_radius"));
+    let r = run(&text);
+    assert!(r.singular_points.iter().all(|s| s.electrode == "flange sleeve"), "{:?}", r.singular_points);
+    assert_eq!(r.singular_points.len(), 2);
+    assert!(r.grid.nodes < 100_000, "{}", r.grid.nodes);
+}

@@ -463,6 +463,10 @@ pub struct RectFile {
     pub y: [f64; 2],
     /// Corner radius (rounded corners; at most half the shorter side).
     pub radius: Option<f64>,
+    /// A foil electrode (zero thickness in x or y) only: the radius of its
+    /// rolled or beaded ends, mm — a disc at each end, inside the drawn
+    /// length, instead of a sharp foil end.
+    pub edge_radius: Option<f64>,
 }
 
 /// A circle in mm.
@@ -592,7 +596,7 @@ pub const KNOWN_KEYS: &[(&str, &[&str])] = &[
     ("parts[].electrode", &["potential_kv"]),
     ("parts[].shape", &["rect", "circle", "polygon", "fillet", "arcs"]),
     ("parts[].shape.arcs[]", &["edge", "radius"]),
-    ("parts[].shape.rect", &["x", "y", "radius"]),
+    ("parts[].shape.rect", &["x", "y", "radius", "edge_radius"]),
     ("parts[].shape.circle", &["center", "radius"]),
     ("probes[]", &["name", "at"]),
     ("lines[]", &["name", "from", "to", "points"]),

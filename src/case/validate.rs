@@ -828,6 +828,25 @@ fn shape(ctx: &mut Ctx, key: &str, s: &ShapeFile) -> Option<Shape> {
             let ok = ctx.interval(&format!("{k}.x"), r.x, true) & ctx.interval(&format!("{k}.y"), r.y, true);
             let rect =
                 Rect { x0: units::mm(r.x[0]), x1: units::mm(r.x[1]), y0: units::mm(r.y[0]), y1: units::mm(r.y[1]) };
+            if let Some(rad) = r.edge_radius {
+                let rk = format!("{k}.edge_radius");
+                if !ctx.size(&rk, rad, "edge radius") || !ok {
+                    return None;
+                }
+                let (w, h) = (r.x[1] - r.x[0], r.y[1] - r.y[0]);
+                if r.radius.is_some() || (w > 0.0) == (h > 0.0) {
+                    ctx.err(
+                        &rk,
+                        "`edge_radius` beads the ends of a foil: a `rect` of zero thickness in x or in y, without `radius`",
+                    );
+                    return None;
+                }
+                if 2.0 * rad > w.max(h) {
+                    ctx.err(&rk, format!("edge radius {rad} is more than half the foil's length ({})", 0.5 * w.max(h)));
+                    return None;
+                }
+                return Some(Shape::Beaded { rect, radius: units::mm(rad) });
+            }
             match r.radius {
                 None => ok.then_some(Shape::Rect(rect)),
                 Some(rad) => {
@@ -1683,7 +1702,14 @@ fn one_part(
             .potential(&format!("{key}.electrode.potential_kv"), v)
             .then(|| Role::Electrode(ElectrodeKind::Fixed { potential_v: units::kv(v) })),
     };
-    let sh = shape(ctx, &format!("{key}.shape"), &p.shape);
+    let mut sh = shape(ctx, &format!("{key}.shape"), &p.shape);
+    if matches!(sh, Some(Shape::Beaded { .. })) && matches!(role, Some(Role::Dielectric(_))) {
+        ctx.err(
+            &format!("{key}.shape.rect.edge_radius"),
+            "`edge_radius` beads the ends of a foil electrode; this part is insulation",
+        );
+        sh = None;
+    }
     let material = match role {
         Some(Role::Dielectric(m)) => Some(&table.used[m]),
         _ => None,

@@ -177,6 +177,9 @@ struct Features {
     spec: crate::case::GridSpec,
     bx: Vec<(f64, f64, f64)>,
     by: Vec<(f64, f64, f64)>,
+    /// Focus points of beaded foil ends (`singular::bead_focus`).
+    focus_x: Vec<(f64, f64, f64)>,
+    focus_y: Vec<(f64, f64, f64)>,
 }
 
 impl Features {
@@ -191,15 +194,19 @@ impl Features {
             case.refine_boxes.iter().copied().chain(curved_boxes(&case.parts, &case.grid)).collect();
         let bx = boxes.iter().map(|b| (b.rect.x0, b.rect.x1, b.max_step * coarsening)).collect();
         let by = boxes.iter().map(|b| (b.rect.y0, b.rect.y1, b.max_step * coarsening)).collect();
-        Features { fx, fy, spec: case.grid.coarsened(coarsening), bx, by }
+        let (mut focus_x, mut focus_y) = singular::bead_focus(&case.parts, &case.grid);
+        for f in focus_x.iter_mut().chain(focus_y.iter_mut()) {
+            f.1 *= coarsening;
+        }
+        Features { fx, fy, spec: case.grid.coarsened(coarsening), bx, by, focus_x, focus_y }
     }
 
     /// The axis plans graded toward `points` by `grading`.
     fn plans(&self, case: &Case, points: &[[f64; 2]], grading: Grading) -> Plans {
         let d = case.domain;
         let plain = Plans {
-            x: AxisPlan::new(d.x0, d.x1, &self.fx, &self.spec, &self.bx, &[]),
-            y: AxisPlan::new(d.y0, d.y1, &self.fy, &self.spec, &self.by, &[]),
+            x: AxisPlan::new(d.x0, d.x1, &self.fx, &self.spec, &self.bx, &self.focus_x),
+            y: AxisPlan::new(d.y0, d.y1, &self.fy, &self.spec, &self.by, &self.focus_y),
         };
         if points.is_empty() || grading.factor <= 1.0 {
             return plain;
@@ -208,8 +215,10 @@ impl Features {
         let (gx, gy) = (plain.x.place(), plain.y.place());
         let cx: Vec<f64> = points.iter().map(|p| p[0]).collect();
         let cy: Vec<f64> = points.iter().map(|p| p[1]).collect();
-        let fpx = singular::focus_points(&gx, &cx, grading.factor, &self.spec, zone);
-        let fpy = singular::focus_points(&gy, &cy, grading.factor, &self.spec, zone);
+        let mut fpx = singular::focus_points(&gx, &cx, grading.factor, &self.spec, zone);
+        let mut fpy = singular::focus_points(&gy, &cy, grading.factor, &self.spec, zone);
+        fpx.extend_from_slice(&self.focus_x);
+        fpy.extend_from_slice(&self.focus_y);
         Plans {
             x: AxisPlan::new(d.x0, d.x1, &self.fx, &self.spec, &self.bx, &fpx),
             y: AxisPlan::new(d.y0, d.y1, &self.fy, &self.spec, &self.by, &fpy),

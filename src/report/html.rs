@@ -266,7 +266,7 @@ pub fn render_page(inp: &PageInputs) -> String {
                     "stored energy " (sig4(r.energy.value)) " " (r.energy.unit)
                     @if let Some(x) = r.energy_error_estimate_pct { " (± " (crate::report::text::significant(x, 2)) " %, the capacitance likewise)" }
                     @if let Some(c) = &r.field_concentration {
-                        " · field enhancement factor " (sig4(c.factor)) " (peak " (sig4(c.e_max_kv_per_mm))
+                        " · field enhancement factor " (sig4(c.factor)) " (judged peak " (sig4(c.e_max_kv_per_mm))
                         " kV/mm " (r.values) " against " (sig4(c.e_uniform_kv_per_mm)) " kV/mm " (r.values) " over the " (sig4(c.gap_mm)) " mm gap)"
                         @if c.permittivity_contrast_only { "; in series layers it only reflects their permittivity contrast" }
                     }

@@ -74,7 +74,7 @@ pub struct SolveOut {
 /// `field_concentration`
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct ConcentrationOut {
-    /// Highest field in any dielectric part.
+    /// Highest judged field in any dielectric part (`e_max_judged_kv_per_mm`).
     pub e_max_kv_per_mm: f64,
     /// Shortest distance between electrodes at different fixed potentials.
     pub gap_mm: f64,

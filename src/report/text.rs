@@ -39,7 +39,9 @@ pub fn verdict_sentence(v: VerdictOut) -> &'static str {
     match v {
         VerdictOut::Pass => "PASS — every part meets the safety factor; no warnings",
         VerdictOut::Review => "REVIEW — something needs an engineer's look (see findings)",
-        VerdictOut::Fail => "FAIL — a typical breakdown strength is exceeded or discharge starts at the working level (see findings)",
+        VerdictOut::Fail => {
+            "FAIL — a typical breakdown strength is exceeded or discharge starts at the working level (see findings)"
+        }
     }
 }
 
@@ -339,7 +341,7 @@ pub fn render_text(r: &CheckReport) -> String {
     if let Some(c) = &r.field_concentration {
         let _ = writeln!(
             o,
-            "peak field   {} kV/mm {v}; gap {} mm, uniform-field value {} kV/mm {v}, enhancement factor {}{}",
+            "peak field   {} kV/mm {v} (judged); gap {} mm, uniform-field value {} kV/mm {v}, enhancement factor {}{}",
             sig4(c.e_max_kv_per_mm),
             sig4(c.gap_mm),
             sig4(c.e_uniform_kv_per_mm),
