@@ -59,6 +59,48 @@ pub fn line_file_names<'a>(names: impl Iterator<Item = &'a str>) -> Vec<String> 
         .collect()
 }
 
+/// Most zoomed maps on a review page.
+const MAX_ZOOMS: usize = 3;
+/// A part smaller than this fraction of the domain's area gets a zoom.
+const SMALL_PART: f64 = 0.01;
+
+/// The windows of the zoomed maps, [x0, x1, y0, y1] in m: around each
+/// small insulating part (a void: five times its size) and each part's
+/// peak that sits at a singular point (a fifth of the domain's smaller
+/// side), squares inside the domain,
+/// one per spot (a spot inside an earlier window adds none), at most
+/// `MAX_ZOOMS`.
+fn zoom_windows(prepared: &Prepared, report: &CheckReport) -> Vec<[f64; 4]> {
+    let d = prepared.case.domain;
+    let mut wanted: Vec<([f64; 2], f64)> = Vec::new();
+    for p in prepared.case.parts.iter().filter(|p| matches!(p.role, crate::case::Role::Dielectric(_))) {
+        let b = p.shape.bounds();
+        if b.width() * b.height() < SMALL_PART * d.width() * d.height() {
+            wanted.push(([0.5 * (b.x0 + b.x1), 0.5 * (b.y0 + b.y1)], 5.0 * b.width().max(b.height())));
+        }
+    }
+    // peaks at a singular point (judged elsewhere): the map cannot show them
+    for p in &report.parts {
+        if p.e_max_kv_per_mm > 0.0 && p.e_max_judged_at_mm != p.e_max_at_mm {
+            wanted.push((p.e_max_at_mm.map(crate::units::mm), 0.2 * d.width().min(d.height())));
+        }
+    }
+    let mut out: Vec<[f64; 4]> = Vec::new();
+    for (c, side) in wanted {
+        if out.len() >= MAX_ZOOMS {
+            break;
+        }
+        if out.iter().any(|w| c[0] >= w[0] && c[0] <= w[1] && c[1] >= w[2] && c[1] <= w[3]) {
+            continue;
+        }
+        let side = side.min(d.width()).min(d.height());
+        let x0 = (c[0] - 0.5 * side).clamp(d.x0, d.x1 - side);
+        let y0 = (c[1] - 0.5 * side).clamp(d.y0, d.y1 - side);
+        out.push([x0, x0 + side, y0, y0 + side]);
+    }
+    out
+}
+
 /// Zoom of the PNG map relative to the SVG (sharper text and lines).
 const PNG_ZOOM: f32 = 2.0;
 
@@ -70,7 +112,7 @@ pub fn files(
     report: &CheckReport,
     case_file: &str,
 ) -> Result<Vec<ReviewFile>, ReviewError> {
-    let map_of = |shade| {
+    let map_in = |shade, config: &MapConfig| {
         picture::build(
             &MapInputs {
                 case: &prepared.case,
@@ -81,19 +123,28 @@ pub fn files(
                 report,
                 shade,
             },
-            &MapConfig::default(),
+            config,
         )
     };
+    let map_of = |shade| map_in(shade, &MapConfig::default());
     let svg = picture::svg::render(&map_of(Shade::Field));
     let png = picture::png::render(&svg, PNG_ZOOM)?;
     let loss_coefficients =
         prepared.service.ac.as_ref().map(|ac| crate::fields::loss_coefficients(ac, prepared.case.operation.values));
     let mut extra_maps = Vec::new();
     if let Some(per_e2) = &loss_coefficients {
-        extra_maps.push(("loss-map", "loss density map", map_of(Shade::LossDensity { per_e2 })));
+        extra_maps.push((
+            "loss-map".to_string(),
+            "loss density map".to_string(),
+            map_of(Shade::LossDensity { per_e2 }),
+        ));
     }
     if let Some(nodal_c) = solution.dc.as_ref().and_then(|d| d.temperature.as_deref()) {
-        extra_maps.push(("temperature-map", "temperature map", map_of(Shade::Temperature { nodal_c })));
+        extra_maps.push((
+            "temperature-map".to_string(),
+            "temperature map".to_string(),
+            map_of(Shade::Temperature { nodal_c }),
+        ));
     }
     let mut json = serde_json::to_vec_pretty(report)?;
     json.push(b'\n');
@@ -107,6 +158,17 @@ pub fn files(
             bytes: crate::export::vtk(&prepared.case, &prepared.grid, &prepared.layout, &solution.phi).into_bytes(),
         },
     ];
+    for (k, window) in zoom_windows(prepared, report).into_iter().enumerate() {
+        let config =
+            MapConfig { view: Some(window), max_width_px: 420.0, max_height_px: 420.0, ..MapConfig::default() };
+        let centre = [0.5 * (window[0] + window[1]), 0.5 * (window[2] + window[3])].map(crate::units::to_mm);
+        let what = format!(
+            "field map zoomed around ({}, {}) mm",
+            crate::report::significant(centre[0], 3),
+            crate::report::significant(centre[1], 3)
+        );
+        extra_maps.push((format!("zoom-{}", k + 1), what, map_in(Shade::Field, &config)));
+    }
     let mut extra_svgs = Vec::new();
     for (stem, what, map) in extra_maps {
         let svg = picture::svg::render(&map);

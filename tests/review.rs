@@ -365,3 +365,69 @@ fn a_dc_case_with_temperatures_has_a_temperature_map() {
     let page = read(&dir.join("index.html"));
     assert!(page.contains("temperature in °C"), "the page shows the temperature map");
 }
+
+/// The maps read at a glance (issue 14): on every demo map the electrode
+/// names and peak numbers overlap neither each other nor the markers and lie
+/// inside the plot frame; markers lie inside the frame; where a singular
+/// peak would set the colour scale's top it is clipped at the 99th
+/// percentile and the legend says so; a void and a peak at a singular
+/// point get a zoomed map on the review page.
+#[test]
+fn maps_place_labels_clear_of_each_other_and_zoom_on_small_parts() {
+    // text boxes are estimated as the map places them: 6.8 px per character
+    // of 11 px bold text, 14 px tall from 11 px above the baseline
+    let text_box = |n: roxmltree::Node| {
+        let (x, y): (f64, f64) =
+            (n.attribute("x").unwrap().parse().unwrap(), n.attribute("y").unwrap().parse().unwrap());
+        let w = 6.8 * n.text().unwrap_or("").trim().chars().count() as f64;
+        let centred = n.ancestors().any(|a| a.attribute("text-anchor") == Some("middle"));
+        let x0 = if centred { x - w / 2.0 } else { x };
+        [x0, x0 + w, y - 11.0, y + 3.0]
+    };
+    let overlap =
+        |a: &[f64; 4], b: &[f64; 4]| a[0] < b[1] - 0.5 && b[0] < a[1] - 0.5 && a[2] < b[3] - 0.5 && b[2] < a[3] - 0.5;
+    for case in common::demo_cases() {
+        let case = case.to_str().expect("utf-8").to_string();
+        let (_t, dir, _) = review_of(&case);
+        let svg = read(&dir.join("field-map.svg"));
+        let doc = roxmltree::Document::parse(&svg).unwrap();
+        let by_id = |id: &str| doc.descendants().find(|n| n.attribute("id") == Some(id)).unwrap();
+        let frame = by_id("axes").children().find(|n| n.has_tag_name("rect")).unwrap();
+        let f = |k: &str| frame.attribute(k).unwrap().parse::<f64>().unwrap();
+        let plot = [f("x"), f("x") + f("width"), f("y"), f("y") + f("height")];
+        let mut boxes: Vec<[f64; 4]> = Vec::new();
+        for group in ["electrode-labels", "peaks"] {
+            for t in by_id(group).descendants().filter(|n| n.has_tag_name("text")) {
+                boxes.push(text_box(t));
+            }
+        }
+        for c in by_id("peaks").descendants().filter(|n| n.has_tag_name("circle") && n.attribute("r") == Some("6")) {
+            let (x, y): (f64, f64) =
+                (c.attribute("cx").unwrap().parse().unwrap(), c.attribute("cy").unwrap().parse().unwrap());
+            assert!(
+                x - 6.0 >= plot[0] && x + 6.0 <= plot[1] && y - 6.0 >= plot[2] && y + 6.0 <= plot[3],
+                "{case}: marker outside"
+            );
+        }
+        for (k, a) in boxes.iter().enumerate() {
+            assert!(
+                a[0] >= plot[0] && a[1] <= plot[1] && a[2] >= plot[2] && a[3] <= plot[3],
+                "{case}: label outside {a:?}"
+            );
+            for b in &boxes[k + 1..] {
+                assert!(!overlap(a, b), "{case}: labels overlap {a:?} {b:?}");
+            }
+        }
+        let result: serde_json::Value = serde_json::from_str(&read(&dir.join("result.json"))).unwrap();
+        let singular = result["parts"].as_array().unwrap().iter().any(|p| p["e_max_judged_at_mm"] != p["e_max_at_mm"]);
+        if case.contains("busbar-support") || case.contains("condenser-foils") {
+            assert!(singular, "{case}");
+            assert!(svg.contains("Colours top out at"), "{case}: the scale is not clipped");
+        }
+        let zoomed = dir.join("zoom-1.svg").exists();
+        assert_eq!(zoomed, singular || case.contains("resin-void"), "{case}: zoom maps");
+        if zoomed {
+            assert!(read(&dir.join("index.html")).contains("zoomed in"), "{case}: zoom not on the page");
+        }
+    }
+}

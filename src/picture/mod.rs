@@ -23,12 +23,42 @@ pub struct MapConfig {
     /// Equipotential lines drawn between the lowest and highest fixed
     /// potential (at 1/(n+1), 2/(n+1), … of the difference).
     pub equipotentials: usize,
+    /// The window shown, [x0, x1, y0, y1] in m (`None`: the whole domain; a
+    /// zoom around a peak or a small part otherwise).
+    pub view: Option<[f64; 4]>,
+    /// The field colour scale tops out at this quantile of the shaded
+    /// pixels' |E| (rounded up to a nice number): a singular peak would
+    /// otherwise darken the whole map. Peaks above it are marked, with their
+    /// values in the legend.
+    pub field_top_quantile: f64,
 }
 
 impl Default for MapConfig {
     fn default() -> Self {
-        MapConfig { max_width_px: 640.0, max_height_px: 540.0, equipotentials: 9 }
+        MapConfig {
+            max_width_px: 900.0,
+            max_height_px: 600.0,
+            equipotentials: 9,
+            view: None,
+            field_top_quantile: FIELD_TOP_QUANTILE,
+        }
     }
+}
+
+/// The quantile of |E| over the shaded pixels at which the field colours
+/// top out (our choice: the 1 % of the area above it are the concentrations
+/// the markers point at).
+pub const FIELD_TOP_QUANTILE: f64 = 0.99;
+
+/// The `q` quantile of the finite values (nearest rank), 0 when none.
+fn quantile(values: &[f64], q: f64) -> f64 {
+    let mut v: Vec<f64> = values.iter().copied().filter(|v| v.is_finite()).collect();
+    if v.is_empty() {
+        return 0.0;
+    }
+    v.sort_by(f64::total_cmp);
+    let k = ((q.clamp(0.0, 1.0) * v.len() as f64).ceil() as usize).clamp(1, v.len()) - 1;
+    v[k]
 }
 
 /// The shaded quantity sampled at pixel centres, row 0 at the top
@@ -102,6 +132,8 @@ pub struct Label {
     pub text: String,
     /// Anchor in mm.
     pub at_mm: [f64; 2],
+    /// The labelled part's bounding box in the view, [x0, x1, y0, y1] mm.
+    pub part_mm: [f64; 4],
 }
 
 /// The words of a shaded quantity.
@@ -137,6 +169,11 @@ pub struct FieldMap {
     pub raster: Raster,
     /// Bottom and top of the colour scale in the map's unit.
     pub scale: [f64; 2],
+    /// Values above the top are drawn in the top colour (the scale was
+    /// clipped below the largest peak).
+    pub clipped: bool,
+    /// A zoom around a point of the domain (not the whole domain).
+    pub zoom: bool,
     /// Ticks on the colour bar in the map's unit.
     pub scale_ticks: Vec<f64>,
     /// Ticks along x and y in mm.
@@ -282,7 +319,10 @@ type PeakOf = dyn Fn(&crate::report::PartOut) -> Option<f64>;
 /// Computes a field map.
 pub fn build(inp: &MapInputs, config: &MapConfig) -> FieldMap {
     let MapInputs { case, grid, layout, phi, quadrature, report, shade } = *inp;
-    let d = case.domain;
+    let d = match config.view {
+        Some([x0, x1, y0, y1]) => crate::shape::Rect { x0, x1, y0, y1 },
+        None => case.domain,
+    };
     let extent_mm = [to_mm(d.x0), to_mm(d.x1), to_mm(d.y0), to_mm(d.y1)];
     let (w_mm, h_mm) = (extent_mm[1] - extent_mm[0], extent_mm[3] - extent_mm[2]);
     let px_per_mm = (config.max_width_px / w_mm).min(config.max_height_px / h_mm);
@@ -335,8 +375,9 @@ pub fn build(inp: &MapInputs, config: &MapConfig) -> FieldMap {
     };
     let finite = values.iter().copied().filter(|v| v.is_finite());
     let (lo, hi) = finite.fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| (a.min(v), b.max(v)));
+    let largest_peak = report.parts.iter().map(|p| p.e_max_kv_per_mm).fold(0.0, f64::max);
     let scale = match shade {
-        Shade::Field => [0.0, nice(report.parts.iter().map(|p| p.e_max_kv_per_mm).fold(0.0, f64::max), true)],
+        Shade::Field => [0.0, nice(quantile(&values, config.field_top_quantile).min(largest_peak), true)],
         Shade::LossDensity { .. } => [0.0, nice(hi.max(f64::MIN_POSITIVE), true)],
         Shade::Temperature { .. } if hi > lo => {
             // whole steps of a round size around the range
@@ -379,18 +420,23 @@ pub fn build(inp: &MapInputs, config: &MapConfig) -> FieldMap {
         .collect();
     let electrode_labels = case
         .electrodes()
+        .filter(|(_, p, _)| p.shape.bounds().intersects(&d))
         .map(|(_, p, _)| {
             let b = p.shape.bounds();
             let cx = 0.5 * (b.x0.max(d.x0) + b.x1.min(d.x1));
             let cy = 0.5 * (b.y0.max(d.y0) + b.y1.min(d.y1));
-            Label { text: elide(&p.name, MAP_NAME_CHARS), at_mm: [to_mm(cx), to_mm(cy)] }
+            let part_mm = [b.x0.max(d.x0), b.x1.min(d.x1), b.y0.max(d.y0), b.y1.min(d.y1)].map(to_mm);
+            Label { text: elide(&p.name, MAP_NAME_CHARS), at_mm: [to_mm(cx), to_mm(cy)], part_mm }
         })
         .collect();
-    let peaks = report
+    let in_view =
+        |a: [f64; 2]| a[0] >= extent_mm[0] && a[0] <= extent_mm[1] && a[1] >= extent_mm[2] && a[1] <= extent_mm[3];
+    let peaks: Vec<Peak> = report
         .parts
         .iter()
         .enumerate()
         .filter(|(_, p)| p.e_max_kv_per_mm > 0.0 && matches!(shade, Shade::Field | Shade::LossDensity { .. }))
+        .filter(|(_, p)| in_view(p.e_max_at_mm))
         .filter_map(|(k, p)| {
             peak_of(p).map(|value| Peak {
                 number: k + 1,
@@ -408,6 +454,8 @@ pub fn build(inp: &MapInputs, config: &MapConfig) -> FieldMap {
         extent_mm,
         plot_px,
         shading,
+        clipped: matches!(shade, Shade::Field) && peaks.iter().any(|p| p.value > scale[1]),
+        zoom: config.view.is_some(),
         raster: Raster { width, height, values },
         scale_ticks: ticks(scale[0], scale[1], 5),
         scale,
@@ -444,6 +492,16 @@ mod tests {
         assert_eq!(elide("exactly10!", 10), "exactly10!");
         assert_eq!(elide("eleven char", 10), "eleven ch…");
         assert_eq!(elide(&"é".repeat(500), 40).chars().count(), 40);
+    }
+
+    #[test]
+    fn quantile_by_nearest_rank_skips_electrode_pixels() {
+        // nearest-rank quantile (common practice): of 1..=100, the 99th is 99
+        let mut v: Vec<f64> = (1..=100).map(f64::from).collect();
+        v.push(f64::NAN);
+        assert_eq!(quantile(&v, 0.99), 99.0);
+        assert_eq!(quantile(&v, 1.0), 100.0);
+        assert_eq!(quantile(&[f64::NAN], 0.99), 0.0);
     }
 
     #[test]

@@ -18,6 +18,8 @@ const AXIS_BAND: f64 = 52.0;
 const LEGEND_ROW: f64 = 18.0;
 const MIN_WIDTH: f64 = 560.0;
 const MARKER: &str = "#d81b60";
+/// Width of one character of an 11 px bold label (an estimate for placing).
+const LABEL_CHAR_PX: f64 = 6.8;
 const INK: &str = "#1f2328";
 
 /// Prints a tick value without float noise.
@@ -29,6 +31,28 @@ fn tick_text(v: f64) -> String {
 /// Three significant digits.
 fn g3(v: f64) -> String {
     crate::report::significant(v, 3)
+}
+
+/// True when two boxes [x0, x1, y0, y1] overlap.
+fn overlaps(a: &[f64; 4], b: &[f64; 4]) -> bool {
+    a[0] < b[1] && b[0] < a[1] && a[2] < b[3] && b[2] < a[3]
+}
+
+/// Boxes already used on the plot, and the plot's own box.
+struct Placer {
+    plot: [f64; 4],
+    taken: Vec<[f64; 4]>,
+}
+
+impl Placer {
+    /// Inside the plot and clear of everything placed.
+    fn free(&self, b: &[f64; 4]) -> bool {
+        b[0] >= self.plot[0] + 2.0
+            && b[1] <= self.plot[1] - 2.0
+            && b[2] >= self.plot[2] + 2.0
+            && b[3] <= self.plot[3] - 2.0
+            && !self.taken.iter().any(|t| overlaps(b, t))
+    }
 }
 
 struct Frame {
@@ -117,9 +141,10 @@ pub fn render(map: &FieldMap) -> String {
     let [x0, x1, y0, y1] = map.extent_mm;
     let [pw, ph] = map.plot_px;
     let frame = Frame { x0, y1, scale: pw / (x1 - x0) };
-    let legend_rows = 1 + map.peaks.len() + usize::from(!map.discharge_lines.is_empty());
     let width = (LEFT + pw + RIGHT).max(MIN_WIDTH).ceil();
-    let height = (TOP + ph + AXIS_BAND + LEGEND_ROW * legend_rows as f64 + 16.0).ceil();
+    // the height follows the legend, set at the end; the background is
+    // drawn tall enough for any legend
+    let height = (TOP + ph + AXIS_BAND + LEGEND_ROW * (4 + map.peaks.len()) as f64 + 16.0).ceil();
     let (xa, ya) = if map.axisymmetric { ("r", "z") } else { ("x", "y") };
 
     let mut doc = Document::new()
@@ -129,7 +154,7 @@ pub fn render(map: &FieldMap) -> String {
         .set("viewBox", (0, 0, width, height))
         .set("font-family", FONT)
         .add(Title::new(format!("{}: {} and equipotentials", map.title, map.shading.name)))
-        .add(Rectangle::new().set("width", width).set("height", height).set("fill", "#ffffff"));
+        .add(Rectangle::new().set("width", "100%").set("height", "100%").set("fill", "#ffffff"));
 
     // Definitions: plot clip and the colour-bar gradient (bottom = 0).
     let mut gradient = LinearGradient::new().set("id", "hv-scale").set("x1", 0).set("y1", 1).set("x2", 0).set("y2", 0);
@@ -147,7 +172,7 @@ pub fn render(map: &FieldMap) -> String {
         LEFT,
         43.0,
         12.0,
-        &format!("{} · verdict: {}", map.shading.caption, map.verdict),
+        &format!("{}{} · verdict: {}", map.shading.caption, if map.zoom { " · zoomed in" } else { "" }, map.verdict),
     ));
 
     // Field raster, drawn on a light grey that shows through at electrodes.
@@ -223,27 +248,66 @@ pub fn render(map: &FieldMap) -> String {
         );
     }
     let outlines = outlines.add(pd);
-    let mut labels = Group::new().set("id", "electrode-labels").set("text-anchor", "middle");
-    let mut placed: Vec<[f64; 4]> = Vec::new();
-    for l in &map.electrode_labels {
-        let (x, y) = frame.px(l.at_mm);
-        // Kept inside the plot (electrodes often sit on the domain's edge)
-        // and moved down past labels already placed (thin foils side by side).
-        let half = 3.4 * l.text.chars().count() as f64;
-        let mut y = (y + 4.0).clamp(TOP + 14.0, TOP + ph - 5.0);
-        for _ in 0..8 {
-            let clash = placed.iter().any(|b| x - half < b[1] && b[0] < x + half && y - 11.0 < b[3] && b[2] < y + 2.0);
-            if !clash {
-                break;
-            }
-            y += 14.0;
-        }
-        placed.push([x - half, x + half, y - 11.0, y + 2.0]);
-        labels = labels.add(halo_text(x, y, 11.0, &l.text).set("font-weight", "bold"));
+    // Labels are placed where they overlap nothing drawn before them:
+    // markers first, then electrode names (inside their part when it holds
+    // them, else beside it), then the peak numbers, each clear of the
+    // electrodes it does not name and inside the plot.
+    let plot_box = [LEFT, LEFT + pw, TOP, TOP + ph];
+    let mut placer = Placer { plot: plot_box, taken: Vec::new() };
+    let part_px = |m: &[f64; 4]| {
+        let (a, b) = (frame.px([m[0], m[3]]), frame.px([m[1], m[2]]));
+        [a.0, b.0, a.1, b.1]
+    };
+    let electrode_boxes: Vec<[f64; 4]> = map.electrode_labels.iter().map(|l| part_px(&l.part_mm)).collect();
+    let spots: Vec<(f64, f64)> = map
+        .peaks
+        .iter()
+        .map(|p| {
+            let (x, y) = frame.px(p.at_mm);
+            (x.clamp(LEFT + 7.0, LEFT + pw - 7.0), y.clamp(TOP + 7.0, TOP + ph - 7.0))
+        })
+        .collect();
+    for &(x, y) in &spots {
+        placer.taken.push([x - 7.0, x + 7.0, y - 7.0, y + 7.0]);
     }
-    // Peaks that fall on the same spot share one number label ("1, 2").
+    let mut unlabelled: Vec<String> = Vec::new();
+    let mut labels = Group::new().set("id", "electrode-labels").set("text-anchor", "middle");
+    for (k, l) in map.electrode_labels.iter().enumerate() {
+        let w = LABEL_CHAR_PX * l.text.chars().count() as f64;
+        let own = electrode_boxes[k];
+        let others: Vec<[f64; 4]> =
+            electrode_boxes.iter().enumerate().filter(|(j, _)| *j != k).map(|(_, b)| *b).collect();
+        let (cx, cy) = ((own[0] + own[1]) / 2.0, (own[2] + own[3]) / 2.0);
+        // (centre x, baseline y) candidates: inside, right, left, above, below
+        let inside_fits = own[1] - own[0] >= w + 4.0 && own[3] - own[2] >= 15.0;
+        let mut candidates = Vec::new();
+        if inside_fits {
+            candidates.push((cx, cy + 4.0));
+        }
+        candidates.extend([
+            (own[1] + 5.0 + w / 2.0, cy + 4.0),
+            (own[0] - 5.0 - w / 2.0, cy + 4.0),
+            (cx, own[2] - 5.0),
+            (cx, own[3] + 15.0),
+            (own[1] + 5.0 + w / 2.0, own[2] + 12.0),
+            (own[1] + 5.0 + w / 2.0, own[3] - 3.0),
+        ]);
+        let boxed = |&(x, y): &(f64, f64)| [x - w / 2.0, x + w / 2.0, y - 11.0, y + 3.0];
+        let fits = |c: &(f64, f64)| {
+            let b = boxed(c);
+            placer.free(&b) && (inside_fits || !overlaps(&b, &own)) && !others.iter().any(|o| overlaps(&b, o))
+        };
+        if let Some(c) = candidates.iter().find(|c| fits(c)).copied() {
+            placer.taken.push(boxed(&c));
+            labels = labels.add(halo_text(c.0, c.1, 11.0, &l.text).set("font-weight", "bold"));
+        } else {
+            // no clear place: the name goes to the legend's list of unlabelled parts
+            unlabelled.push(l.text.clone());
+        }
+    }
+    // Peaks that fall on the same spot share one number label ("1, 2"),
+    // offset from the marker, with a leader line when it had to move away.
     let mut peaks = Group::new().set("id", "peaks");
-    let spots: Vec<(f64, f64)> = map.peaks.iter().map(|p| frame.px(p.at_mm)).collect();
     for (k, p) in map.peaks.iter().enumerate() {
         let (x, y) = spots[k];
         let near = |q: &(f64, f64)| (q.0 - x).hypot(q.1 - y) < 8.0;
@@ -251,7 +315,41 @@ pub fn render(map: &FieldMap) -> String {
         if !spots[..k].iter().any(near) {
             let numbers: Vec<String> =
                 map.peaks.iter().zip(&spots).filter(|(_, q)| near(q)).map(|(q, _)| q.number.to_string()).collect();
-            peak = peak.add(halo_text(x + 8.0, y - 7.0, 11.0, &numbers.join(", ")).set("font-weight", "bold"));
+            let label = numbers.join(", ");
+            let w = LABEL_CHAR_PX * label.chars().count() as f64;
+            let boxed = |(lx, ly): (f64, f64)| [lx, lx + w, ly - 11.0, ly + 3.0];
+            let mut chosen = None;
+            'rings: for radius in [11.0, 26.0, 44.0] {
+                for k in 0..8 {
+                    let a = -std::f64::consts::FRAC_PI_4 - k as f64 * std::f64::consts::FRAC_PI_4;
+                    let (ox, oy) = (x + radius * a.cos(), y + radius * a.sin());
+                    // anchor the text's near corner at the offset point
+                    let lx = if a.cos() >= -1e-9 { ox } else { ox - w };
+                    let ly = if a.sin() <= 1e-9 { oy } else { oy + 11.0 };
+                    let b = boxed((lx, ly));
+                    if placer.free(&b) && !electrode_boxes.iter().any(|e| overlaps(&b, e)) {
+                        chosen = Some((lx, ly, radius, b));
+                        break 'rings;
+                    }
+                }
+            }
+            let (lx, ly, radius, b) = chosen.unwrap_or((x + 8.0, y - 7.0, 11.0, boxed((x + 8.0, y - 7.0))));
+            placer.taken.push(b);
+            if radius > 11.0 {
+                let (tx, ty) = ((b[0] + b[1]) / 2.0, (b[2] + b[3]) / 2.0);
+                let len = (tx - x).hypot(ty - y).max(1e-9);
+                peak = peak.add(
+                    Line::new()
+                        .set("class", "leader")
+                        .set("x1", round1(x + 7.0 * (tx - x) / len))
+                        .set("y1", round1(y + 7.0 * (ty - y) / len))
+                        .set("x2", round1(tx - 0.5 * w.min(len) * (tx - x) / len))
+                        .set("y2", round1(ty - 6.0 * (ty - y) / len))
+                        .set("stroke", MARKER)
+                        .set("stroke-width", 1.2),
+                );
+            }
+            peak = peak.add(halo_text(lx, ly, 11.0, &label).set("font-weight", "bold"));
         }
         peaks = peaks.add(peak);
     }
@@ -361,13 +459,18 @@ pub fn render(map: &FieldMap) -> String {
         format!("Thin dark lines: equipotentials every {} kV.", g3(map.equipotential_step_kv))
     };
     legend = legend.add(text(LEFT, y, 12.0, &equi_text));
+    let mut legend_chars = equi_text.chars().count();
+    let mut row = |s: String| {
+        legend_chars = legend_chars.max(s.chars().count());
+        s
+    };
     for p in &map.peaks {
         y += LEGEND_ROW;
         legend = legend.add(marker(LEFT + 6.0, y - 4.0)).add(text(
             LEFT + 18.0,
             y,
             12.0,
-            &format!("{}: peak in {}, {} {}", p.number, p.part, g3(p.value), map.shading.unit),
+            &row(format!("{}: peak in {}, {} {}", p.number, p.part, g3(p.value), map.shading.unit)),
         ));
     }
     if !map.discharge_lines.is_empty() {
@@ -386,8 +489,29 @@ pub fn render(map: &FieldMap) -> String {
                 LEFT + 18.0,
                 y,
                 12.0,
-                &format!("critical field line of partial-discharge inception in {}", names.join(", ")),
+                &row(format!("critical field line of partial-discharge inception in {}", names.join(", "))),
             ));
     }
-    doc.add(legend).to_string()
+    if map.clipped {
+        y += LEGEND_ROW;
+        legend = legend.add(text(
+            LEFT,
+            y,
+            12.0,
+            &row(format!(
+                "Colours top out at {} {} (99 % of the area lies below); peaks above it are marked.",
+                g3(map.scale[1]),
+                map.shading.unit
+            )),
+        ));
+    }
+    if !unlabelled.is_empty() {
+        y += LEGEND_ROW;
+        let names = row(format!("Not named on the map (no clear place): {}.", unlabelled.join(", ")));
+        legend = legend.add(text(LEFT, y, 12.0, &names));
+    }
+    let height = (y + 16.0).ceil();
+    // wide enough for the longest legend row (an estimate of 12 px text)
+    let width = width.max((LEFT + 18.0 + 6.4 * legend_chars as f64 + 12.0).ceil());
+    doc.set("height", height).set("width", width).set("viewBox", (0, 0, width, height)).add(legend).to_string()
 }
