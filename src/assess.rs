@@ -415,6 +415,21 @@ pub struct PartAssessment {
     /// Strength / peak field of a gas part judged by inception: for
     /// information only (its verdict comes from the inception margin).
     pub point_margin: Option<f64>,
+    /// The level of the largest fixed |potential| (all fixed potentials
+    /// scaled together, case convention), V, at which this part just keeps
+    /// its safety factor (gas parts judged by inception: its inception
+    /// margin); `None` without a margin or when the field does not scale
+    /// with the potentials.
+    pub allowable: Option<f64>,
+}
+
+/// The largest level the case allows.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Allowable {
+    /// The level of the largest fixed |potential|, V (case convention).
+    pub level: f64,
+    /// The part that sets it (layout region).
+    pub region: usize,
 }
 
 /// How far the field turns the water dipoles of a part toward it: x =
@@ -497,6 +512,27 @@ pub struct Assessment {
     pub pd_inception: Option<f64>,
     /// Per singular point of `Fields::singular` (same order).
     pub singular: Vec<SingularJudgement>,
+    /// The largest level of the fixed potentials (scaled together) at which
+    /// every part keeps its safety factor and every gas part its inception
+    /// margin: the lowest of the parts' `allowable` (`None` when no part has
+    /// one, or the field does not scale with the potentials).
+    pub allowable: Option<Allowable>,
+}
+
+/// The level a part allows when the field scales with the potentials:
+/// E ∝ U, so a solid or liquid keeps strength / E ≥ SF up to
+/// U_w·margin/SF (U_w the working level, margin = strength / judged peak);
+/// a gas part judged by inception keeps its margin up to
+/// inception level / required inception margin.
+pub fn allowable_level(
+    working: f64,
+    margin: Option<f64>,
+    gas: bool,
+    safety_factor: f64,
+    pd_margin: f64,
+) -> Option<f64> {
+    let m = margin.filter(|m| m.is_finite() && *m > 0.0 && working > 0.0)?;
+    Some(working * m / if gas { pd_margin } else { safety_factor })
 }
 
 /// A singular point as one part sees it (the `singular-peak` finding).
@@ -618,6 +654,7 @@ pub fn part_verdict(margin: Option<f64>, has_strength: bool, safety_factor: f64)
 /// Judges the solved case (see [`Inputs`]).
 pub fn assess(inp: &Inputs) -> Assessment {
     let Inputs { case, layout, permittivity, fields, check, reference, discharge, junctions, ac, dc } = *inp;
+    let linear = dc.is_none_or(|d| d.linear);
     let working = working_level(layout);
     let states = crate::coefficients::states(case, layout, crate::coefficients::Conditions::Service);
     let strengths = crate::coefficients::strengths(case, layout);
@@ -692,6 +729,14 @@ pub fn assess(inp: &Inputs) -> Assessment {
             inception,
             pd_inception: inception.and_then(|k| discharge[k].scale).map(|s| s * working),
             point_margin: point_margin.filter(|_| inception.is_some()),
+            allowable: allowable_level(
+                working,
+                margin,
+                inception.is_some(),
+                case.safety_factor,
+                case.pd_inception_margin,
+            )
+            .filter(|_| linear),
         });
     }
     let pd_inception = parts.iter().filter_map(|p| p.pd_inception).min_by(f64::total_cmp);
@@ -816,6 +861,10 @@ pub fn assess(inp: &Inputs) -> Assessment {
         }
     }
     let verdict = parts.iter().map(|p| p.verdict).chain(worst_finding).max().unwrap_or(Verdict::Pass);
+    let allowable = parts
+        .iter()
+        .filter_map(|p| p.allowable.map(|level| Allowable { level, region: p.region }))
+        .min_by(|a, b| a.level.total_cmp(&b.level));
     Assessment {
         verdict,
         parts,
@@ -826,6 +875,7 @@ pub fn assess(inp: &Inputs) -> Assessment {
         dipole,
         working_level: working,
         pd_inception,
+        allowable,
         singular: fields
             .singular
             .iter()

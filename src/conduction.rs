@@ -353,6 +353,21 @@ pub struct DcResults {
     pub iterations: usize,
     /// Charge accumulated on each interface between two insulating parts.
     pub interfaces: Vec<InterfaceCharge>,
+    /// The field scales with the potentials (`linear_in_voltage`).
+    pub linear: bool,
+}
+
+/// True when a DC state's field scales with the fixed potentials: no
+/// temperatures solved from the conduction loss (which grows as U²) and no
+/// field-dependent conductivity (β = 0) in any material in use.
+pub fn linear_in_voltage(case: &Case, layout: &Layout, state: &DcState) -> bool {
+    state.temperature.is_none()
+        && layout
+            .regions
+            .iter()
+            .zip(layout.regions_with_cells())
+            .filter(|(_, used)| *used)
+            .all(|(r, _)| case.materials[r.material].conduction.is_none_or(|c| c.beta_m_per_v == 0.0))
 }
 
 /// The charge a DC field accumulates on one interface between two parts

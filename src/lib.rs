@@ -434,6 +434,7 @@ impl Prepared {
             ),
             temperature,
             iterations: state.iterations,
+            linear: conduction::linear_in_voltage(&self.case, &self.layout, state),
             interfaces: conduction::interface_charges(
                 &self.grid,
                 self.case.geometry,

@@ -230,6 +230,18 @@ pub fn render_page(inp: &PageInputs) -> String {
                 @if r.verdict != VerdictOut::Pass {
                     p { "Read the findings below: each says what the number means and what to change." }
                 }
+                p {
+                    @match (r.allowable_kv, &r.allowable_limited_by) {
+                        (Some(a), Some(by)) => {
+                            "Allowable level: " b { (sig4(a)) " kV " (r.values) } " — the largest level of the fixed potentials \
+                            (scaled together) at which every part keeps its safety factor and every gas part its inception \
+                            margin; set by " b { (by) }
+                            @if let Some(x) = r.allowable_error_estimate_pct { " (± " (crate::report::text::significant(x, 2)) " %)" }
+                            "."
+                        }
+                        _ => "Allowable level: not given (no part has a margin, or the DC field does not scale with the voltage)."
+                    }
+                }
                 h2 { "Field map" }
                 figure { (PreEscaped(inp.map_svg)) }
                 @for m in inp.extra_map_svgs {

@@ -536,6 +536,7 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
                 pd_criterion: gas.and_then(|g| g.criterion).map(|c| c.name()),
                 pd_line_length_mm: gas.filter(|g| g.scale.is_some()).map(|g| to_mm(g.line.length())),
                 point_field_margin: p.point_margin,
+                allowable_kv: p.allowable.map(to_kv),
                 pd_line_mm: gas.map(|g| g.line.points.iter().map(|a| a.map(to_mm)).collect()).unwrap_or_default(),
                 verdict: verdict(p.verdict),
                 e_max_error_estimate_pct: check.and_then(|c| c.error_estimate).map(|e| 100.0 * e),
@@ -728,6 +729,14 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
             .unwrap_or_default(),
         surface_tangential_limit_kv_per_mm: case.surface_tangential_limit.map(to_kv_per_mm),
         pd_inception_kv: assessment.pd_inception.map(to_kv),
+        allowable_kv: assessment.allowable.map(|a| to_kv(a.level)),
+        allowable_limited_by: assessment.allowable.map(|a| layout.regions[a.region].name.clone()),
+        allowable_error_estimate_pct: assessment.allowable.and_then(|a| {
+            let c = mesh_check?;
+            let gas = assessment.parts.iter().find(|p| p.region == a.region)?.inception.is_some();
+            let estimate = if gas { c.inception_estimate(a.region)? } else { c.judged.get(a.region)?.clone() };
+            estimate.error_estimate.map(|e| 100.0 * e)
+        }),
         pd_inception_margin: case.pd_inception_margin,
         parts,
         electrodes,

@@ -181,6 +181,10 @@ pub struct PartOut {
     /// Gas parts judged by inception: strength / e_max of the point field,
     /// for information only.
     pub point_field_margin: Option<f64>,
+    /// The level of the largest fixed |potential| this part alone allows
+    /// (its margin met exactly), in the case's convention (null as
+    /// `allowable_kv`).
+    pub allowable_kv: Option<f64>,
     /// The critical field line in mm (drawn on the maps; left out of JSON).
     #[serde(skip)]
     pub pd_line_mm: Vec<[f64; 2]>,
@@ -409,6 +413,17 @@ pub struct CheckReport {
     pub pd_inception_kv: Option<f64>,
     /// Required ratio of inception level to working level.
     pub pd_inception_margin: f64,
+    /// The largest level of the largest fixed |potential| (all fixed
+    /// potentials scaled together), in the case's convention, at which
+    /// every part keeps the safety factor on its judged peak and every gas
+    /// part the inception margin (null when no part has a margin, or when a
+    /// DC field does not scale with the voltage).
+    pub allowable_kv: Option<f64>,
+    /// The part that sets `allowable_kv`.
+    pub allowable_limited_by: Option<String>,
+    /// Estimated discretisation error of `allowable_kv` (that of the
+    /// limiting part's judged peak or inception level).
+    pub allowable_error_estimate_pct: Option<f64>,
     /// Dielectric parts, background included when it has cells.
     pub parts: Vec<PartOut>,
     /// Electrodes.

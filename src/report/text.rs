@@ -137,6 +137,21 @@ pub fn render_text(r: &CheckReport) -> String {
         sig4(r.safety_factor),
         sig4(r.pd_inception_margin)
     );
+    let v = r.values;
+    let _ = match (r.allowable_kv, &r.allowable_limited_by) {
+        (Some(a), Some(by)) => writeln!(
+            o,
+            "allowable    {} kV {v}: the largest level of the fixed potentials (scaled together) at which every part \
+             keeps its margin; set by {by}{}",
+            sig4(a),
+            r.allowable_error_estimate_pct.map_or_else(String::new, |x| format!(" (± {} %)", significant(x, 2)))
+        ),
+        _ => writeln!(
+            o,
+            "allowable    — (no part has a margin, or the DC field does not scale with the voltage: field- or \
+             temperature-dependent conduction)"
+        ),
+    };
 
     let _ = writeln!(o, "\nparts");
     let rows = r
