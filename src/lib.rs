@@ -49,6 +49,7 @@ pub mod report;
 pub mod review;
 pub mod shape;
 pub mod solve;
+pub mod study;
 pub mod units;
 
 use assemble::{AssembleError, Factors, Pattern, Stencil, System};

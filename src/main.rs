@@ -35,6 +35,16 @@ enum Format {
     Json,
 }
 
+#[derive(Clone, Copy, ValueEnum)]
+enum SweepFormat {
+    /// An aligned table: one row per point.
+    Text,
+    /// `{ "vary": [...], "points": [ { "set": {...}, "result": {...} } ] }`.
+    Json,
+    /// The table's columns as CSV.
+    Csv,
+}
+
 #[derive(Subcommand)]
 enum Command {
     /// Solve a case and assess every part against its typical breakdown strength.
@@ -92,6 +102,34 @@ enum Command {
         /// Output format.
         #[arg(long, value_enum, default_value = "text")]
         format: Format,
+    },
+    /// Check a case at every combination of varied values.
+    ///
+    /// Each `--vary KEY=VALUES` sets a key path as error messages print it
+    /// (`stack.layers[1].thickness`, `parts[3].water.volume_pct`,
+    /// `environment.temperature_c`, `operation.frequency_hz`,
+    /// `stack.voltage_kv`) to a comma list of values or to `start:stop:count`
+    /// evenly spaced values; several make a full grid, the first slowest.
+    /// Every point is validated and checked as a case of its own; if one
+    /// cannot be evaluated nothing is printed and the exit status is 2.
+    /// Exit status otherwise: 0 when every point passes, 1 when any needs
+    /// review or fails.
+    Sweep {
+        /// The case file (YAML).
+        case: PathBuf,
+        /// KEY=VALUES (repeat for a grid of points).
+        #[arg(long = "vary", value_name = "KEY=VALUES", required = true)]
+        vary: Vec<String>,
+        /// Output format.
+        #[arg(long, value_enum, default_value = "text")]
+        format: SweepFormat,
+        /// Refuse grids above this many nodes (exit 2), as for `check`.
+        #[arg(long, default_value_t = hvstack::DEFAULT_MAX_NODES as u64,
+              value_parser = clap::value_parser!(u64).range(1..=hvstack::grid::MAX_SUPPORTED_NODES as u64))]
+        max_nodes: u64,
+        /// Points checked at once (each solve also uses every core).
+        #[arg(long, default_value_t = 1, value_parser = clap::value_parser!(u16).range(1..=256))]
+        jobs: u16,
     },
     /// Print the JSON Schema of the case format (for editor support).
     Schema,
@@ -289,6 +327,42 @@ fn batch(paths: &[PathBuf], o: &BatchOptions) -> ExitCode {
     if code != ExitCode::SUCCESS { code } else { ExitCode::from(summary::exit_status(&rows)) }
 }
 
+/// A sweep of one case (see `Command::Sweep`).
+fn sweep(path: &Path, vary: &[String], format: SweepFormat, max_nodes: usize, jobs: u16) -> ExitCode {
+    let vary: Vec<hvstack::study::Vary> = match vary.iter().map(|v| hvstack::study::parse_vary(v)).collect() {
+        Ok(v) => v,
+        Err(e) => return refuse(&format!("hvstack sweep: {e}")),
+    };
+    let file = shown(path);
+    let text = match input::read_regular(path, "case")
+        .and_then(|b| hvstack::case::decode(&b, &file).map_err(|e| e.to_string()))
+    {
+        Ok(t) => t,
+        Err(e) => return refuse(&e),
+    };
+    let mut options = hvstack::Options::default();
+    options.limits.max_nodes = max_nodes;
+    let pool = match rayon::ThreadPoolBuilder::new().num_threads(jobs as usize).build() {
+        Ok(p) => p,
+        Err(e) => return refuse(&format!("hvstack: cannot start {jobs} jobs: {e}")),
+    };
+    let points = match pool.install(|| hvstack::study::sweep(&text, &file, &vary, &options)) {
+        Ok(p) => p,
+        Err(e) => return refuse(&e.to_string()),
+    };
+    let out = match format {
+        SweepFormat::Text => hvstack::report::sweep::render_table(&vary, &points),
+        SweepFormat::Json => json(&hvstack::report::sweep::sweep_out(&vary, &points)),
+        SweepFormat::Csv => match hvstack::report::sweep::render_csv(&vary, &points) {
+            Ok(c) => c,
+            Err(e) => return refuse(&format!("hvstack sweep: cannot write the CSV: {e}")),
+        },
+    };
+    let all_pass = points.iter().all(|p| p.result.verdict == hvstack::report::VerdictOut::Pass);
+    let code = emit(&out);
+    if code != ExitCode::SUCCESS || all_pass { code } else { ExitCode::from(1) }
+}
+
 /// One case: its full report, and its review folder when asked.
 fn single(path: &Path, format: Format, max_nodes: usize, report: Option<&Path>) -> ExitCode {
     let staging = match report.map(|d| Staging::new(d, &[path.to_path_buf()])).transpose() {
@@ -341,6 +415,10 @@ fn main() -> ExitCode {
             }
             (Err(e), _) | (_, Err(e)) => refuse(&e),
         },
+        Command::Sweep { case, vary, format, max_nodes, jobs } => {
+            let max_nodes = usize::try_from(max_nodes).unwrap_or(hvstack::grid::MAX_SUPPORTED_NODES);
+            sweep(&case, &vary, format, max_nodes, jobs)
+        }
         Command::Schema => emit(&hvstack::case::json_schema()),
         Command::Materials { format } => {
             let list = hvstack::report::materials();

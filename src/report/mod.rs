@@ -7,6 +7,7 @@ pub mod diff;
 pub mod html;
 mod model;
 pub mod summary;
+pub mod sweep;
 mod text;
 
 pub use model::*;

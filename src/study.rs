@@ -1,0 +1,315 @@
+//! Studies above the pipeline: a sweep sets case keys to each combination
+//! of values and checks every point as a case of its own (validated alike,
+//! so a bad point is reported with its values and key). Points run in
+//! parallel on rayon's pool and come back in point order, whatever the job
+//! count. No file or terminal I/O: the case text comes in, results go out.
+//!
+//! Key paths are spelt as error messages print them: `stack.layers[1].thickness`,
+//! `parts[3].water.volume_pct`, `environment.temperature_c` (indices from 0).
+//! Missing mapping keys are created (a case without `environment:` can
+//! still vary `environment.temperature_c`); a sequence index must exist.
+
+use crate::report::CheckReport;
+use crate::{Error, Options};
+use rayon::prelude::*;
+
+/// Most values one `--vary` may list or generate.
+pub const MAX_VALUES: usize = 1000;
+/// Most points of a sweep (the product of the value counts).
+pub const MAX_POINTS: usize = 10_000;
+
+/// One varied key and its values.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Vary {
+    /// Key path.
+    pub key: String,
+    /// Values, in order (numbers, or words for keys that take words).
+    pub values: Vec<serde_json::Value>,
+}
+
+/// A study could not be set up or one of its points could not be
+/// evaluated (nothing is reported then).
+#[derive(Debug, thiserror::Error)]
+pub enum StudyError {
+    /// A `--vary` argument is malformed.
+    #[error("--vary {arg}: {why}")]
+    BadVary {
+        /// The argument as given.
+        arg: String,
+        /// What is wrong.
+        why: String,
+    },
+    /// A key path does not lead to a value that can be set.
+    #[error("{file}: --vary {key}: {why}")]
+    BadKey {
+        /// Case file name.
+        file: String,
+        /// The key path.
+        key: String,
+        /// What is wrong.
+        why: String,
+    },
+    /// Too many points.
+    #[error("the sweep has {points} points, above the limit of {MAX_POINTS}")]
+    TooManyPoints {
+        /// Product of the value counts.
+        points: usize,
+    },
+    /// The case text is not YAML at all.
+    #[error("{file}: {why}")]
+    NotYaml {
+        /// Case file name.
+        file: String,
+        /// The parser's message.
+        why: String,
+    },
+    /// One point did not evaluate.
+    #[error("sweep point {set}: {source}")]
+    Point {
+        /// The point's values, `KEY=VALUE, …`.
+        set: String,
+        /// The problem.
+        source: Box<Error>,
+    },
+}
+
+/// One point of a sweep.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Point {
+    /// The value of each varied key (in `--vary` order).
+    pub set: Vec<(String, serde_json::Value)>,
+    /// The check of that point.
+    pub result: CheckReport,
+}
+
+/// Parses `KEY=VALUES`: a comma list (`0.5,1,2`; words are kept as words)
+/// or `start:stop:count` (count values evenly spaced, both ends included).
+pub fn parse_vary(arg: &str) -> Result<Vary, StudyError> {
+    let bad = |why: &str| StudyError::BadVary { arg: arg.to_string(), why: why.to_string() };
+    let (key, values) =
+        arg.split_once('=').ok_or_else(|| bad("expected KEY=VALUES, e.g. stack.voltage_kv=10,20,30"))?;
+    let key = key.trim();
+    if key.is_empty() || key.contains(char::is_whitespace) {
+        return Err(bad("the key is empty or holds spaces"));
+    }
+    let values = values.trim();
+    let parts: Vec<&str> = values.split(':').collect();
+    let list: Vec<serde_json::Value> = if parts.len() == 3 {
+        let num =
+            |s: &str, what: &str| s.trim().parse::<f64>().map_err(|_| bad(&format!("{what} `{s}` is not a number")));
+        let (start, stop) = (num(parts[0], "start")?, num(parts[1], "stop")?);
+        let count: usize = parts[2].trim().parse().map_err(|_| bad("count is not a whole number"))?;
+        if !(start.is_finite() && stop.is_finite()) {
+            return Err(bad("start and stop must be finite"));
+        }
+        if count == 0 || count > MAX_VALUES {
+            return Err(bad(&format!("count must be 1 to {MAX_VALUES}")));
+        }
+        (0..count)
+            .map(|k| {
+                let t = if count == 1 { 0.0 } else { k as f64 / (count - 1) as f64 };
+                number(start + t * (stop - start))
+            })
+            .collect()
+    } else if parts.len() == 1 {
+        values
+            .split(',')
+            .map(|v| {
+                let v = v.trim();
+                if v.is_empty() {
+                    return Err(bad("an empty value in the list"));
+                }
+                Ok(match v.parse::<f64>() {
+                    Ok(x) if x.is_finite() => number(x),
+                    Ok(_) => return Err(bad(&format!("`{v}` is not a finite number"))),
+                    Err(_) => serde_json::Value::String(v.to_string()),
+                })
+            })
+            .collect::<Result<_, _>>()?
+    } else {
+        return Err(bad("expected a comma list or start:stop:count"));
+    };
+    if list.len() > MAX_VALUES {
+        return Err(bad(&format!("more than {MAX_VALUES} values")));
+    }
+    Ok(Vary { key: key.to_string(), values: list })
+}
+
+/// A JSON number, whole numbers without a fraction (so `3` stays `3`).
+fn number(x: f64) -> serde_json::Value {
+    // rounding residue of start + t·(stop − start) below 1e-12 relative
+    let r = (x * 1e12).round() / 1e12;
+    if r.fract() == 0.0 && r.abs() < 1e15 { serde_json::Value::from(r as i64) } else { serde_json::Value::from(r) }
+}
+
+/// One step of a key path.
+#[derive(Debug, Clone, PartialEq)]
+enum Step {
+    Key(String),
+    Index(usize),
+}
+
+/// Splits `a.b[2].c` into steps.
+fn steps(key: &str) -> Result<Vec<Step>, String> {
+    let mut out = Vec::new();
+    for segment in key.split('.') {
+        let (name, mut rest) = match segment.find('[') {
+            Some(i) => (&segment[..i], &segment[i..]),
+            None => (segment, ""),
+        };
+        if name.is_empty() && out.is_empty() {
+            return Err("the path starts with an index; name the list first (e.g. parts[0])".into());
+        }
+        if !name.is_empty() {
+            out.push(Step::Key(name.to_string()));
+        }
+        while let Some(r) = rest.strip_prefix('[') {
+            let close = r.find(']').ok_or("an index is not closed with `]`")?;
+            let index: usize = r[..close].trim().parse().map_err(|_| format!("`{}` is not an index", &r[..close]))?;
+            out.push(Step::Index(index));
+            rest = &r[close + 1..];
+        }
+        if !rest.is_empty() {
+            return Err(format!("unexpected `{rest}` after an index"));
+        }
+    }
+    Ok(out)
+}
+
+/// Sets the value at `key` in a YAML document, creating missing mapping
+/// keys on the way.
+pub fn set_key(doc: &mut serde_yaml::Value, key: &str, value: &serde_json::Value) -> Result<(), String> {
+    use serde_yaml::Value as Y;
+    let steps = steps(key)?;
+    let mut at = doc;
+    let mut walked = String::new();
+    for step in &steps {
+        at = match step {
+            Step::Key(k) => {
+                walked = if walked.is_empty() { k.clone() } else { format!("{walked}.{k}") };
+                if at.is_null() {
+                    *at = Y::Mapping(serde_yaml::Mapping::new());
+                }
+                let Y::Mapping(m) = at else {
+                    return Err(format!("`{walked}` is inside a value that is not a mapping"));
+                };
+                m.entry(Y::String(k.clone())).or_insert(Y::Null)
+            }
+            Step::Index(i) => {
+                let Y::Sequence(s) = at else { return Err(format!("`{walked}` is not a list")) };
+                let n = s.len();
+                walked = format!("{walked}[{i}]");
+                s.get_mut(*i).ok_or_else(|| format!("`{walked}`: the list has {n} entries (indices from 0)"))?
+            }
+        };
+    }
+    if matches!(at, Y::Mapping(_) | Y::Sequence(_)) {
+        return Err(format!("`{key}` holds a mapping or list, not a single value"));
+    }
+    *at = serde_yaml::to_value(value).map_err(|e| e.to_string())?;
+    Ok(())
+}
+
+/// The combinations of the varied values, first key slowest.
+fn combinations(vary: &[Vary]) -> Vec<Vec<usize>> {
+    let mut out = vec![Vec::new()];
+    for v in vary {
+        out = out.into_iter().flat_map(|c| (0..v.values.len()).map(move |k| [c.clone(), vec![k]].concat())).collect();
+    }
+    out
+}
+
+/// Writes a point's values as `KEY=VALUE, …`.
+pub fn describe(set: &[(String, serde_json::Value)]) -> String {
+    set.iter()
+        .map(|(k, v)| format!("{k}={}", v.as_str().map_or_else(|| v.to_string(), str::to_string)))
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+/// Checks the case at every combination of the varied values (see the
+/// module docs). `file` names the case in messages; each point is checked
+/// under `FILE [KEY=VALUE, …]`, its line numbers those of the point's text.
+pub fn sweep(text: &str, file: &str, vary: &[Vary], options: &Options) -> Result<Vec<Point>, StudyError> {
+    let doc: serde_yaml::Value =
+        serde_yaml::from_str(text).map_err(|e| StudyError::NotYaml { file: file.to_string(), why: e.to_string() })?;
+    let points: usize =
+        vary.iter().map(|v| v.values.len()).try_fold(1usize, |a, n| a.checked_mul(n)).unwrap_or(usize::MAX);
+    if points > MAX_POINTS {
+        return Err(StudyError::TooManyPoints { points });
+    }
+    // every key must lead somewhere before any point is solved
+    for v in vary {
+        let mut probe = doc.clone();
+        set_key(&mut probe, &v.key, &v.values[0]).map_err(|why| StudyError::BadKey {
+            file: file.to_string(),
+            key: v.key.clone(),
+            why,
+        })?;
+    }
+    let combos = combinations(vary);
+    combos
+        .par_iter()
+        .map(|combo| {
+            let set: Vec<(String, serde_json::Value)> =
+                vary.iter().zip(combo).map(|(v, &k)| (v.key.clone(), v.values[k].clone())).collect();
+            let mut d = doc.clone();
+            for (k, value) in &set {
+                // the keys were checked above: a failure here is a value the key cannot take
+                set_key(&mut d, k, value).map_err(|why| StudyError::BadKey {
+                    file: file.to_string(),
+                    key: k.clone(),
+                    why,
+                })?;
+            }
+            let point_text = serde_yaml::to_string(&d)
+                .map_err(|e| StudyError::NotYaml { file: file.to_string(), why: e.to_string() })?;
+            let name = format!("{file} [{}]", describe(&set));
+            let result = crate::check(&point_text, &name, options)
+                .map_err(|e| StudyError::Point { set: describe(&set), source: Box::new(e) })?;
+            Ok(Point { set, result })
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn values_come_as_lists_or_ranges() {
+        let v = parse_vary("stack.voltage_kv=10, 20,30").unwrap();
+        assert_eq!(v.key, "stack.voltage_kv");
+        assert_eq!(v.values, vec![serde_json::json!(10), serde_json::json!(20), serde_json::json!(30)]);
+        let r = parse_vary("stack.layers[1].thickness=0.5:1:3").unwrap();
+        assert_eq!(r.values, vec![serde_json::json!(0.5), serde_json::json!(0.75), serde_json::json!(1)]);
+        assert_eq!(parse_vary("operation.mode=ac,static").unwrap().values[1], serde_json::json!("static"));
+        assert!(parse_vary("novalues").is_err());
+        assert!(parse_vary("a=1:2").is_err());
+        assert!(parse_vary("a=1:2:0").is_err());
+        assert!(parse_vary("a=1,,2").is_err());
+    }
+
+    #[test]
+    fn keys_are_set_where_error_messages_point() {
+        let mut doc: serde_yaml::Value =
+            serde_yaml::from_str("stack: { layers: [ { thickness: 1 }, { thickness: 2 } ] }\n").unwrap();
+        set_key(&mut doc, "stack.layers[1].thickness", &serde_json::json!(3.5)).unwrap();
+        set_key(&mut doc, "environment.temperature_c", &serde_json::json!(90)).unwrap();
+        let text = serde_yaml::to_string(&doc).unwrap();
+        assert!(text.contains("thickness: 3.5") && text.contains("temperature_c: 90"), "{text}");
+        let e = set_key(&mut doc, "stack.layers[5].thickness", &serde_json::json!(1)).unwrap_err();
+        assert!(e.contains("the list has 2 entries"), "{e}");
+        assert!(set_key(&mut doc, "stack.layers", &serde_json::json!(1)).unwrap_err().contains("mapping or list"));
+        assert!(set_key(&mut doc, "stack.layers.x", &serde_json::json!(1)).is_err());
+    }
+
+    #[test]
+    fn combinations_run_first_key_slowest() {
+        let v = |n: usize| Vary { key: "k".into(), values: (0..n).map(|k| serde_json::json!(k)).collect() };
+        assert_eq!(
+            combinations(&[v(2), v(3)]),
+            vec![vec![0, 0], vec![0, 1], vec![0, 2], vec![1, 0], vec![1, 1], vec![1, 2]]
+        );
+    }
+}

@@ -1,0 +1,134 @@
+//! Sweeps (`hvstack sweep`, `study::sweep`): each point is a case of its
+//! own, checked against closed forms; bad points and keys are refused.
+
+mod common;
+
+use common::rel;
+use hvstack::study::{parse_vary, sweep};
+use std::process::Command;
+
+fn points(text: &str, vary: &[&str]) -> Vec<hvstack::study::Point> {
+    let vary: Vec<_> = vary.iter().map(|v| parse_vary(v).unwrap()).collect();
+    sweep(text, "study.yaml", &vary, &hvstack::Options::default()).expect("every point evaluates")
+}
+
+fn part<'a>(p: &'a hvstack::study::Point, name: &str) -> &'a hvstack::report::PartOut {
+    p.result.parts.iter().find(|q| q.name == name).unwrap()
+}
+
+/// A 0.1 mm εr 3.5 film over an air gap (as in `tests/discharge.rs`).
+const FILM_AND_GAP: &str = "
+title: film over a gap
+materials:
+  film: { permittivity: 3.5, strength_kv_per_mm: 200, strength_basis: peak, source: test value }
+  gas: { base: air, permittivity: 1.0, source: test value }
+stack:
+  form: planar
+  voltage_kv: 0.5
+  layers:
+    - { name: film, material: film, thickness: 0.1 }
+    - { name: gap, material: gas, thickness: 0.05 }
+";
+
+/// The field is linear in the voltage: every judged peak over U is the
+/// same at 0.5, 1 and 2 kV (to solver round-off), and the allowable level
+/// does not move (superposition, common practice).
+#[test]
+fn a_voltage_sweep_is_exactly_linear() {
+    let p = points(FILM_AND_GAP, &["stack.voltage_kv=0.5,1,2"]);
+    assert_eq!(p.len(), 3);
+    let per_volt = |k: usize, name: &str| part(&p[k], name).e_max_judged_kv_per_mm / [0.5, 1.0, 2.0][k];
+    for name in ["film", "gap"] {
+        for k in 1..3 {
+            assert!(rel(per_volt(k, name), per_volt(0, name)) < 1e-8, "{name}");
+        }
+    }
+    for k in 1..3 {
+        assert!(rel(p[k].result.allowable_kv.unwrap(), p[0].result.allowable_kv.unwrap()) < 1e-8);
+        assert!(rel(p[k].result.pd_inception_kv.unwrap(), p[0].result.pd_inception_kv.unwrap()) < 1e-6);
+    }
+}
+
+/// Gap thickness 20 / 50 / 100 µm: the stack incepts at 843 / 867 V
+/// (Paschen through the series divider, issue 12 figures) and at 100 µm
+/// 1.7 % below Paschen's 1112 V on the streamer curve (J. Lux's Paschen
+/// notes; `tests/discharge.rs`).
+#[test]
+fn a_gap_sweep_follows_paschen_through_the_divider() {
+    let p = points(FILM_AND_GAP, &["stack.layers[1].thickness=0.02,0.05,0.1"]);
+    let v: Vec<f64> = p.iter().map(|q| 1e3 * q.result.pd_inception_kv.unwrap()).collect();
+    assert!(rel(v[0], 843.0) < 0.01 && rel(v[1], 867.0) < 0.01, "{v:?}");
+    assert!(rel(v[2], 1112.0) < 0.025, "{v:?}");
+    assert_eq!(p[2].set[0], ("stack.layers[1].thickness".to_string(), serde_json::json!(0.1)));
+}
+
+/// A coaxial wall of 5, 10 and 20 mm on a 10 mm conductor at 100 kV:
+/// E(r_i) = U/(r_i·ln(r_o/r_i)) (common practice).
+#[test]
+fn a_wall_thickness_sweep_follows_the_logarithmic_formula() {
+    let text = "
+title: wall
+stack:
+  form: coaxial
+  voltage_kv: 100
+  inner_radius: 10
+  length: 20
+  layers: [ { name: wall, material: xlpe, thickness: 10 } ]
+";
+    let p = points(text, &["stack.layers[0].thickness=5:20:4"]);
+    for (q, t) in p.iter().zip([5.0, 10.0, 15.0, 20.0]) {
+        let exact = 100.0 / (10.0 * ((10.0 + t) / 10.0f64).ln());
+        assert!(rel(part(q, "wall").e_max_judged_kv_per_mm, exact) < 1e-6, "{t} mm");
+    }
+}
+
+fn hvstack(args: &[&str]) -> std::process::Output {
+    Command::new(env!("CARGO_BIN_EXE_hvstack")).args(args).output().expect("binary runs")
+}
+
+/// The command prints the exact JSON shape, and a grid of two keys, first
+/// slowest; a point that does not validate is reported with its key and
+/// value, exit 2, and nothing on stdout.
+#[test]
+fn the_sweep_command_prints_points_and_refuses_bad_ones() {
+    let dir = tempfile::tempdir().unwrap();
+    let case = dir.path().join("film.yaml");
+    std::fs::write(&case, FILM_AND_GAP).unwrap();
+    let c = case.to_str().unwrap();
+    let out = hvstack(&[
+        "sweep",
+        c,
+        "--vary",
+        "stack.voltage_kv=0.5,1",
+        "--vary",
+        "stack.layers[1].thickness=0.02,0.05",
+        "--format",
+        "json",
+    ]);
+    assert!(matches!(out.status.code(), Some(0 | 1)), "{}", String::from_utf8_lossy(&out.stderr));
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["vary"][1]["key"], "stack.layers[1].thickness");
+    let points = v["points"].as_array().unwrap();
+    assert_eq!(points.len(), 4);
+    assert_eq!(points[1]["set"], serde_json::json!({ "stack.voltage_kv": 0.5, "stack.layers[1].thickness": 0.05 }));
+    assert!(points[3]["result"]["parts"].is_array());
+
+    let bad = hvstack(&["sweep", c, "--vary", "stack.layers[1].thickness=0.05,-1"]);
+    assert_eq!(bad.status.code(), Some(2));
+    assert!(bad.stdout.is_empty());
+    let e = String::from_utf8_lossy(&bad.stderr);
+    assert!(e.contains("stack.layers[1].thickness=-1") && e.contains("thickness must be positive"), "{e}");
+
+    let missing = hvstack(&["sweep", c, "--vary", "parts[0].water.volume_pct=1"]);
+    assert_eq!(missing.status.code(), Some(2));
+    assert!(
+        String::from_utf8_lossy(&missing.stderr).contains("`parts` is not a list"),
+        "{}",
+        String::from_utf8_lossy(&missing.stderr)
+    );
+
+    let table = hvstack(&["sweep", c, "--vary", "stack.voltage_kv=0.5,1", "--format", "csv"]);
+    let csv = String::from_utf8_lossy(&table.stdout);
+    assert!(csv.starts_with("stack.voltage_kv,verdict,allowable kV peak"), "{csv}");
+    assert_eq!(csv.lines().count(), 3);
+}
