@@ -1,6 +1,6 @@
 //! The `hvstack` command: reads files, wires the library's stages, prints,
-//! and maps outcomes to exit status 0 (pass), 1 (review or fail) and 2 (the
-//! case could not be evaluated).
+//! and maps outcomes to exit status 0 (pass), 1 (review or fail; with
+//! `--fail-on fail` only fail) and 2 (the case could not be evaluated).
 
 mod cli;
 
@@ -15,7 +15,8 @@ use std::time::Instant;
 /// Electrostatic screening of insulation cross-sections.
 ///
 /// Exit status: 0 = pass, 1 = review or fail (the case was evaluated and
-/// something needs attention), 2 = the case could not be evaluated.
+/// something needs attention; `--fail-on fail`: fail only), 2 = the case
+/// could not be evaluated.
 ///
 /// Results are screening estimates from typical material values: check every
 /// design against the applicable codes and have it reviewed by a licensed or
@@ -33,6 +34,23 @@ enum Format {
     Text,
     /// The result model as JSON (nothing else on stdout).
     Json,
+}
+
+#[derive(Clone, Copy, ValueEnum)]
+enum FailOnArg {
+    /// A review or fail verdict gives exit status 1.
+    Review,
+    /// Only a fail verdict gives exit status 1.
+    Fail,
+}
+
+impl From<FailOnArg> for hvstack::report::summary::FailOn {
+    fn from(a: FailOnArg) -> Self {
+        match a {
+            FailOnArg::Review => hvstack::report::summary::FailOn::Review,
+            FailOnArg::Fail => hvstack::report::summary::FailOn::Fail,
+        }
+    }
 }
 
 #[derive(Clone, Copy, ValueEnum)]
@@ -82,6 +100,10 @@ enum Command {
         /// e.g. from a cluster job array's task index.
         #[arg(long, value_parser = parse_shard)]
         shard: Option<(usize, usize)>,
+        /// Which verdicts fail the exit status and the JUnit test: `review`
+        /// (review and fail, the default) or `fail` (only fail).
+        #[arg(long, value_enum, default_value = "review")]
+        fail_on: FailOnArg,
         /// Write a review folder: field maps (SVG, PNG), an HTML page, the JSON
         /// result, line CSVs and a VTK file; a batch gets one subfolder per case
         /// and an index page. The folder is replaced whole, and only if it is new,
@@ -130,6 +152,9 @@ enum Command {
         /// Points checked at once (each solve also uses every core).
         #[arg(long, default_value_t = 1, value_parser = clap::value_parser!(u16).range(1..=256))]
         jobs: u16,
+        /// Which verdicts fail the exit status: `review` (the default) or `fail`.
+        #[arg(long, value_enum, default_value = "review")]
+        fail_on: FailOnArg,
     },
     /// Print the JSON Schema of the case format (for editor support).
     Schema,
@@ -230,6 +255,7 @@ fn result_value(path: &Path) -> Result<serde_json::Value, String> {
 
 struct BatchOptions {
     format: Format,
+    fail_on: hvstack::report::summary::FailOn,
     max_nodes: usize,
     jobs: u16,
     junit: Option<PathBuf>,
@@ -288,10 +314,10 @@ fn batch(paths: &[PathBuf], o: &BatchOptions) -> ExitCode {
                         match run_case(f, o.max_nodes, staging.is_some()) {
                             Ok((r, review)) => match (&staging, review) {
                                 (Some(st), Some(files)) => match st.write(key, &files) {
-                                    Ok(()) => (summary::row(&name, &r), Some(key.clone())),
+                                    Ok(()) => (summary::row(&name, &r, o.fail_on), Some(key.clone())),
                                     Err(e) => (summary::error_row(&name, &e), None),
                                 },
-                                _ => (summary::row(&name, &r), None),
+                                _ => (summary::row(&name, &r, o.fail_on), None),
                             },
                             Err(e) => (summary::error_row(&name, &e), None),
                         }
@@ -328,7 +354,14 @@ fn batch(paths: &[PathBuf], o: &BatchOptions) -> ExitCode {
 }
 
 /// A sweep of one case (see `Command::Sweep`).
-fn sweep(path: &Path, vary: &[String], format: SweepFormat, max_nodes: usize, jobs: u16) -> ExitCode {
+fn sweep(
+    path: &Path,
+    vary: &[String],
+    format: SweepFormat,
+    max_nodes: usize,
+    jobs: u16,
+    fail_on: hvstack::report::summary::FailOn,
+) -> ExitCode {
     let vary: Vec<hvstack::study::Vary> = match vary.iter().map(|v| hvstack::study::parse_vary(v)).collect() {
         Ok(v) => v,
         Err(e) => return refuse(&format!("hvstack sweep: {e}")),
@@ -358,13 +391,20 @@ fn sweep(path: &Path, vary: &[String], format: SweepFormat, max_nodes: usize, jo
             Err(e) => return refuse(&format!("hvstack sweep: cannot write the CSV: {e}")),
         },
     };
-    let all_pass = points.iter().all(|p| p.result.verdict == hvstack::report::VerdictOut::Pass);
+    let status =
+        points.iter().map(|p| hvstack::report::summary::verdict_exit(p.result.verdict, fail_on)).max().unwrap_or(0);
     let code = emit(&out);
-    if code != ExitCode::SUCCESS || all_pass { code } else { ExitCode::from(1) }
+    if code != ExitCode::SUCCESS { code } else { ExitCode::from(status) }
 }
 
 /// One case: its full report, and its review folder when asked.
-fn single(path: &Path, format: Format, max_nodes: usize, report: Option<&Path>) -> ExitCode {
+fn single(
+    path: &Path,
+    format: Format,
+    max_nodes: usize,
+    report: Option<&Path>,
+    fail_on: hvstack::report::summary::FailOn,
+) -> ExitCode {
     let staging = match report.map(|d| Staging::new(d, &[path.to_path_buf()])).transpose() {
         Ok(s) => s,
         Err(e) => return refuse(&e),
@@ -376,12 +416,12 @@ fn single(path: &Path, format: Format, max_nodes: usize, report: Option<&Path>) 
             {
                 return refuse(&e);
             }
-            let pass = report.verdict == hvstack::report::VerdictOut::Pass;
+            let status = hvstack::report::summary::verdict_exit(report.verdict, fail_on);
             let code = emit(&match format {
                 Format::Text => hvstack::report::render_text(&report),
                 Format::Json => json(&report),
             });
-            if code != ExitCode::SUCCESS || pass { code } else { ExitCode::from(1) }
+            if code != ExitCode::SUCCESS { code } else { ExitCode::from(status) }
         }
         Err(message) => refuse(&message),
     }
@@ -395,14 +435,15 @@ fn main() -> ExitCode {
     }
     let cli = Cli::parse();
     match cli.command {
-        Command::Check { paths, format, max_nodes, jobs, junit, quiet, shard, report } => {
+        Command::Check { paths, format, max_nodes, jobs, junit, quiet, shard, fail_on, report } => {
+            let fail_on = fail_on.into();
             // the parser bounds it by MAX_SUPPORTED_NODES, which fits usize
             let max_nodes = usize::try_from(max_nodes).unwrap_or(hvstack::grid::MAX_SUPPORTED_NODES);
             let one = paths.len() == 1 && !paths[0].is_dir() && junit.is_none() && shard.is_none();
             if one {
-                single(&paths[0], format, max_nodes, report.as_deref())
+                single(&paths[0], format, max_nodes, report.as_deref(), fail_on)
             } else {
-                batch(&paths, &BatchOptions { format, max_nodes, jobs, junit, quiet, shard, report })
+                batch(&paths, &BatchOptions { format, fail_on, max_nodes, jobs, junit, quiet, shard, report })
             }
         }
         Command::Diff { old, new, format } => match (result_value(&old), result_value(&new)) {
@@ -415,9 +456,9 @@ fn main() -> ExitCode {
             }
             (Err(e), _) | (_, Err(e)) => refuse(&e),
         },
-        Command::Sweep { case, vary, format, max_nodes, jobs } => {
+        Command::Sweep { case, vary, format, max_nodes, jobs, fail_on } => {
             let max_nodes = usize::try_from(max_nodes).unwrap_or(hvstack::grid::MAX_SUPPORTED_NODES);
-            sweep(&case, &vary, format, max_nodes, jobs)
+            sweep(&case, &vary, format, max_nodes, jobs, fail_on.into())
         }
         Command::Schema => emit(&hvstack::case::json_schema()),
         Command::Materials { format } => {

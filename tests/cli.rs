@@ -345,3 +345,23 @@ fn readme_example_report_is_current() {
     let out = hvstack(&["check", "cases/moist-resin-gap.yaml"]);
     assert_eq!(String::from_utf8_lossy(&out.stdout), shown, "update README's example report");
 }
+
+/// CI policy (issue 15): `--fail-on fail` lets a case under review pass the
+/// exit status and its JUnit test, while a failing case still fails; the
+/// default (`review`) fails both, as before.
+#[test]
+fn fail_on_chooses_whether_review_fails_the_run() {
+    let review = "cases/moist-resin-gap.yaml";
+    let fail = "cases/resin-void.yaml";
+    assert_eq!(hvstack(&["check", review]).status.code(), Some(1));
+    assert_eq!(hvstack(&["check", review, "--fail-on", "fail"]).status.code(), Some(0));
+    assert_eq!(hvstack(&["check", fail, "--fail-on", "fail"]).status.code(), Some(1));
+    let dir = tempfile::tempdir().unwrap();
+    let junit = dir.path().join("results.xml");
+    let out = hvstack(&["check", review, fail, "--fail-on", "fail", "--junit", junit.to_str().unwrap(), "--quiet"]);
+    assert_eq!(out.status.code(), Some(1));
+    let xml = std::fs::read_to_string(&junit).unwrap();
+    assert!(xml.contains(r#"failures="1""#), "{xml}");
+    let out = hvstack(&["sweep", review, "--vary", "stack.voltage_kv=1,2", "--fail-on", "fail"]);
+    assert_eq!(out.status.code(), Some(0), "{}", String::from_utf8_lossy(&out.stderr));
+}

@@ -38,17 +38,39 @@ pub struct SummaryRow {
     pub error: Option<String>,
 }
 
+/// Which verdicts fail a run (its exit status and its JUnit test): the
+/// CI policy of `--fail-on`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum FailOn {
+    /// Review and fail both give exit status 1 (the default).
+    #[default]
+    Review,
+    /// Only fail gives exit status 1; a case under review passes the run
+    /// (its findings are still printed).
+    Fail,
+}
+
+/// The exit status an evaluated case gives under a policy: 0, or 1 when
+/// its verdict fails the run.
+pub fn verdict_exit(verdict: VerdictOut, policy: FailOn) -> u8 {
+    match (verdict, policy) {
+        (VerdictOut::Pass, _) | (VerdictOut::Review, FailOn::Fail) => 0,
+        (VerdictOut::Review, FailOn::Review) | (VerdictOut::Fail, _) => 1,
+    }
+}
+
 /// The summary row of an evaluated case.
-pub fn row(file: &str, r: &CheckReport) -> SummaryRow {
+pub fn row(file: &str, r: &CheckReport, policy: FailOn) -> SummaryRow {
     let worst = r.parts.iter().min_by(|a, b| {
         let key = |p: &super::PartOut| p.margin.unwrap_or(f64::INFINITY);
         key(a).total_cmp(&key(b)).then(b.e_max_kv_per_mm.total_cmp(&a.e_max_kv_per_mm))
     });
-    let (verdict, exit_status) = match r.verdict {
-        VerdictOut::Pass => ("pass", 0),
-        VerdictOut::Review => ("review", 1),
-        VerdictOut::Fail => ("fail", 1),
+    let verdict = match r.verdict {
+        VerdictOut::Pass => "pass",
+        VerdictOut::Review => "review",
+        VerdictOut::Fail => "fail",
     };
+    let exit_status = verdict_exit(r.verdict, policy);
     SummaryRow {
         file: file.to_string(),
         verdict,
