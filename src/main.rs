@@ -115,7 +115,10 @@ enum Command {
     ///
     /// Each side is a result JSON (from `check --format json`) or a case
     /// file, which is checked first. Prints each part's peak field, margin
-    /// and verdict before and after, and the case verdict.
+    /// and verdict before and after, the case verdict, the findings added,
+    /// removed or changed in severity, the input keys that differ (when both
+    /// sides are case files), and a warning when the sides look like
+    /// different cases. Exit status 1 when the new verdict is worse.
     Diff {
         /// The earlier result or case.
         old: PathBuf,
@@ -236,20 +239,26 @@ fn run_case(
 }
 
 /// A result as JSON: read from a .json file (which must be an hvstack
-/// result), or computed from a case file.
-fn result_value(path: &Path) -> Result<serde_json::Value, String> {
+/// result), or computed from a case file (then with the case document, for
+/// the input comparison).
+fn result_value(path: &Path) -> Result<(serde_json::Value, Option<serde_yaml::Value>), String> {
     let name = shown(path);
     if path.extension().and_then(|e| e.to_str()) == Some("json") {
         let bytes = input::read_regular(path, "result")?;
         let value: serde_json::Value = serde_json::from_slice(&bytes)
             .map_err(|e| format!("{name}:{}:{}: not a result JSON: {e}", e.line(), e.column()))?;
         match hvstack::report::diff::not_a_result(&value) {
-            None => Ok(value),
+            None => Ok((value, None)),
             Some(why) => Err(format!("{name}: not an hvstack result (from `check --format json`): it {why}")),
         }
     } else {
         let (report, _) = run_case(path, hvstack::DEFAULT_MAX_NODES, false)?;
-        serde_json::to_value(&report).map_err(|e| format!("{name}: {e}"))
+        // the case evaluated, so it is YAML
+        let doc = input::read_regular(path, "case")
+            .ok()
+            .and_then(|b| hvstack::case::decode(&b, &name).ok())
+            .and_then(|t| serde_yaml::from_str(&t).ok());
+        Ok((serde_json::to_value(&report).map_err(|e| format!("{name}: {e}"))?, doc))
     }
 }
 
@@ -447,12 +456,18 @@ fn main() -> ExitCode {
             }
         }
         Command::Diff { old, new, format } => match (result_value(&old), result_value(&new)) {
-            (Ok(a), Ok(b)) => {
-                let d = hvstack::report::diff::diff(&a, &b);
-                emit(&match format {
+            (Ok((a, da)), Ok((b, db))) => {
+                let mut d = hvstack::report::diff::diff(&a, &b);
+                d.inputs = match (da, db) {
+                    (Some(x), Some(y)) => Some(hvstack::report::diff::input_changes(&x, &y)),
+                    // results: the same case file bytes, or unknown
+                    _ => (a["case_sha256"].is_string() && a["case_sha256"] == b["case_sha256"]).then(Vec::new),
+                };
+                let code = emit(&match format {
                     Format::Text => hvstack::report::diff::render_diff(&d),
                     Format::Json => json(&d),
-                })
+                });
+                if code != ExitCode::SUCCESS || !d.worse { code } else { ExitCode::from(1) }
             }
             (Err(e), _) | (_, Err(e)) => refuse(&e),
         },

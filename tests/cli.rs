@@ -365,3 +365,39 @@ fn fail_on_chooses_whether_review_fails_the_run() {
     let out = hvstack(&["sweep", review, "--vary", "stack.voltage_kv=1,2", "--fail-on", "fail"]);
     assert_eq!(out.status.code(), Some(0), "{}", String::from_utf8_lossy(&out.stderr));
 }
+
+/// `diff` (issue 15): findings added or removed, the input keys that
+/// differ between two case files, exit 1 when the new verdict is worse, and
+/// a warning when the two sides are different cases.
+#[test]
+fn diff_lists_finding_and_input_changes_and_fails_when_worse() {
+    let dir = tempfile::tempdir().unwrap();
+    let thinner = dir.path().join("thinner-gap.yaml");
+    let text = std::fs::read_to_string("cases/moist-resin-gap.yaml").unwrap();
+    assert!(text.contains("thickness: 0.4"));
+    std::fs::write(&thinner, text.replace("thickness: 0.4", "thickness: 0.2")).unwrap();
+    let t = thinner.to_str().unwrap();
+    let better = hvstack(&["diff", "cases/moist-resin-gap.yaml", t, "--format", "json"]);
+    assert_eq!(better.status.code(), Some(0), "{}", String::from_utf8_lossy(&better.stderr));
+    let d: serde_json::Value = serde_json::from_slice(&better.stdout).unwrap();
+    assert_eq!(d["inputs"], serde_json::json!(["stack.layers[1].thickness"]));
+    assert_eq!(d["worse"], false);
+    assert!(d["different_cases"].is_null());
+    let removed: Vec<&str> = d["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|f| f["change"] == "removed")
+        .map(|f| f["code"].as_str().unwrap())
+        .collect();
+    assert!(removed.contains(&"pd-margin-thin"), "{removed:?}");
+    // the other way round the verdict of the air gap gets worse, the case's stays
+    let back = hvstack(&["diff", t, "cases/moist-resin-gap.yaml", "--format", "json"]);
+    let d: serde_json::Value = serde_json::from_slice(&back.stdout).unwrap();
+    assert!(d["findings"].as_array().unwrap().iter().any(|f| f["change"] == "added" && f["code"] == "pd-margin-thin"));
+    // a worse case verdict fails the run; different cases are flagged
+    let worse = hvstack(&["diff", "cases/planar-sheet.yaml", "cases/moist-resin-gap.yaml"]);
+    assert_eq!(worse.status.code(), Some(1));
+    let text = String::from_utf8_lossy(&worse.stdout);
+    assert!(text.contains("look like different cases") && text.contains("(worse)"), "{text}");
+}
