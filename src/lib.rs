@@ -457,6 +457,18 @@ impl Prepared {
     /// Fields, inception, self-check and assessment of a solution; an error
     /// when a field result is not finite.
     pub fn evaluate(&self, solution: &Solution, options: &Options) -> Result<Evaluated, Error> {
+        self.evaluate_with(solution, options, None)
+    }
+
+    /// `evaluate`, with the mesh self-check given instead of run (`Some`:
+    /// a sweep point whose potentials are a multiple of an evaluated one's
+    /// takes that point's check, scaled).
+    pub fn evaluate_with(
+        &self,
+        solution: &Solution,
+        options: &Options,
+        given_check: Option<Option<meshcheck::MeshCheck>>,
+    ) -> Result<Evaluated, Error> {
         let non_finite = |f: &fields::Fields| match f.first_non_finite() {
             Some(what) => Err(Error::NonFinite { file: self.file.clone(), what }),
             None => Ok(()),
@@ -483,7 +495,10 @@ impl Prepared {
             });
         }
         let dc = solution.dc.as_ref().map(|state| self.dc_results(&f, &solution.phi, state));
-        let check = self.self_check(&f, &discharge, options);
+        let check = match given_check {
+            Some(c) => c,
+            None => self.self_check(&f, &discharge, options),
+        };
         let assessment = assess::assess(&assess::Inputs {
             case: &self.case,
             layout: &self.layout,
@@ -514,7 +529,12 @@ impl Prepared {
     /// The result model; `seconds` is the solve time measured by the caller.
     pub fn report(&self, solution: &Solution, options: &Options, seconds: f64) -> Result<report::CheckReport, Error> {
         let e = self.evaluate(solution, options)?;
-        Ok(report::build(
+        Ok(self.report_of(solution, &e, seconds))
+    }
+
+    /// The result model of an evaluated solution.
+    pub fn report_of(&self, solution: &Solution, e: &Evaluated, seconds: f64) -> report::CheckReport {
+        report::build(
             &report::Inputs {
                 case: &self.case,
                 grid: &self.grid,
@@ -532,7 +552,61 @@ impl Prepared {
                 phase_deg: e.phase_deg.as_deref(),
             },
             seconds,
-        ))
+        )
+    }
+
+    /// The largest factor by which the fixed potentials of `self` are those
+    /// of `base` (`Some(s)` when every fixed potential is s times the base's,
+    /// on the same grid and layout, with s ≠ 0): then a field linear in the
+    /// potentials is `base`'s times s.
+    pub fn potential_multiple_of(&self, base: &Prepared) -> Option<f64> {
+        if self.grid != base.grid
+            || self.layout.cell_region != base.layout.cell_region
+            || self.layout.node_electrode != base.layout.node_electrode
+            || self.case.operation.mode == case::Mode::Dc
+            || self.potentials.len() != base.potentials.len()
+        {
+            return None;
+        }
+        let (k, &largest) = base.potentials.iter().enumerate().max_by(|a, b| a.1.abs().total_cmp(&b.1.abs()))?;
+        if largest == 0.0 {
+            return None;
+        }
+        let s = self.potentials[k] / largest;
+        let tol = 1e-12 * largest.abs().max(self.potentials[k].abs());
+        (s != 0.0
+            && s.is_finite()
+            && self.potentials.iter().zip(&base.potentials).all(|(p, b)| (p - s * b).abs() <= tol))
+        .then_some(s)
+    }
+
+    /// The report of this case from an evaluated `base` whose potentials
+    /// this case's are `s` times (`potential_multiple_of`): the potentials
+    /// scaled, no new solve, the base's self-check scaled; every stage after
+    /// the solve runs on this case as usual.
+    pub fn report_scaled(
+        &self,
+        base: &Solution,
+        base_check: Option<&meshcheck::MeshCheck>,
+        s: f64,
+        options: &Options,
+    ) -> Result<report::CheckReport, Error> {
+        let times = |v: &[f64]| v.iter().map(|x| x * s).collect::<Vec<f64>>();
+        let mut solve = base.report.clone();
+        solve.method = format!(
+            "{} (not solved again: the sweep's evaluated point, potentials × {})",
+            solve.method,
+            report::significant(s, 6)
+        );
+        let solution = Solution {
+            phi: times(&base.phi),
+            quadrature: base.quadrature.as_deref().map(times),
+            dc: None,
+            report: solve,
+            reference: base.reference.as_ref().map(|(phi, rep)| (times(phi), rep.clone())),
+        };
+        let e = self.evaluate_with(&solution, options, Some(base_check.map(|c| c.scaled(s))))?;
+        Ok(self.report_of(&solution, &e, 0.0))
     }
 }
 

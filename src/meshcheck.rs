@@ -82,7 +82,31 @@ pub struct MeshCheck {
     pub singular: Vec<[RegionCheck; 2]>,
 }
 
+impl RegionCheck {
+    fn scaled(&self, s: f64) -> RegionCheck {
+        RegionCheck { e_max: self.e_max.map(|e| e * s), ..self.clone() }
+    }
+}
+
 impl MeshCheck {
+    /// The same check for every fixed potential multiplied by `s` (the
+    /// field being linear in the potentials): fields × s, the energy × s²,
+    /// inception scales ÷ s; orders, estimates and growth are ratios and
+    /// do not change.
+    pub fn scaled(&self, s: f64) -> MeshCheck {
+        let all = |v: &[RegionCheck]| v.iter().map(|c| c.scaled(s)).collect();
+        MeshCheck {
+            nodes: self.nodes,
+            regions: all(&self.regions),
+            inception: self.inception.iter().map(|(r, v)| (*r, v.map(|x| x.map(|x| x / s)))).collect(),
+            probes: all(&self.probes),
+            lines: all(&self.lines),
+            energy: RegionCheck { e_max: self.energy.e_max.map(|e| e * s * s), ..self.energy.clone() },
+            judged: all(&self.judged),
+            singular: self.singular.iter().map(|c| c.clone().map(|c| c.scaled(s))).collect(),
+        }
+    }
+
     /// The refinement ratio between the grids, from their node counts.
     pub fn ratio(&self) -> f64 {
         ratio(self.nodes)

@@ -248,28 +248,74 @@ pub fn sweep(text: &str, file: &str, vary: &[Vary], options: &Options) -> Result
         })?;
     }
     let combos = combinations(vary);
-    combos
+    // the text and name of each point
+    let point = |combo: &Vec<usize>| -> Result<(Settings, String, String), StudyError> {
+        let set: Vec<(String, serde_json::Value)> =
+            vary.iter().zip(combo).map(|(v, &k)| (v.key.clone(), v.values[k].clone())).collect();
+        let mut d = doc.clone();
+        for (k, value) in &set {
+            // the keys were checked above: a failure here is a value the key cannot take
+            set_key(&mut d, k, value).map_err(|why| StudyError::BadKey {
+                file: file.to_string(),
+                key: k.clone(),
+                why,
+            })?;
+        }
+        let text = serde_yaml::to_string(&d)
+            .map_err(|e| StudyError::NotYaml { file: file.to_string(), why: e.to_string() })?;
+        let name = format!("{file} [{}]", describe(&set));
+        Ok((set, text, name))
+    };
+    let fail =
+        |set: &[(String, serde_json::Value)], e: Error| StudyError::Point { set: describe(set), source: Box::new(e) };
+    if !vary.iter().all(|v| is_potential_key(&v.key)) || combos.len() < 2 {
+        return combos
+            .par_iter()
+            .map(|combo| {
+                let (set, text, name) = point(combo)?;
+                let result = crate::check(&text, &name, options).map_err(|e| fail(&set, e))?;
+                Ok(Point { set, result })
+            })
+            .collect();
+    }
+    // Potentials only: the first point is solved and self-checked; every
+    // point whose fixed potentials are a multiple of its potentials takes
+    // its solution and self-check scaled (the field is linear in them),
+    // the others are checked from scratch.
+    let (set0, text0, name0) = point(&combos[0])?;
+    let base = crate::case::parse(&text0, &name0)
+        .map_err(Error::from)
+        .and_then(|c| crate::prepare(c, &name0, options))
+        .map_err(|e| fail(&set0, e))?;
+    let solution = base.solve(&options.solve).map_err(|e| fail(&set0, e))?;
+    let evaluated = base.evaluate(&solution, options).map_err(|e| fail(&set0, e))?;
+    let first = Point { set: set0, result: base.report_of(&solution, &evaluated, 0.0) };
+    let rest: Vec<Point> = combos[1..]
         .par_iter()
         .map(|combo| {
-            let set: Vec<(String, serde_json::Value)> =
-                vary.iter().zip(combo).map(|(v, &k)| (v.key.clone(), v.values[k].clone())).collect();
-            let mut d = doc.clone();
-            for (k, value) in &set {
-                // the keys were checked above: a failure here is a value the key cannot take
-                set_key(&mut d, k, value).map_err(|why| StudyError::BadKey {
-                    file: file.to_string(),
-                    key: k.clone(),
-                    why,
-                })?;
+            let (set, text, name) = point(combo)?;
+            let prepared = crate::case::parse(&text, &name)
+                .map_err(Error::from)
+                .and_then(|c| crate::prepare(c, &name, options))
+                .map_err(|e| fail(&set, e))?;
+            let result = match prepared.potential_multiple_of(&base) {
+                Some(s) => prepared.report_scaled(&solution, evaluated.check.as_ref(), s, options),
+                None => prepared.solve(&options.solve).and_then(|sol| prepared.report(&sol, options, 0.0)),
             }
-            let point_text = serde_yaml::to_string(&d)
-                .map_err(|e| StudyError::NotYaml { file: file.to_string(), why: e.to_string() })?;
-            let name = format!("{file} [{}]", describe(&set));
-            let result = crate::check(&point_text, &name, options)
-                .map_err(|e| StudyError::Point { set: describe(&set), source: Box::new(e) })?;
+            .map_err(|e| fail(&set, e))?;
             Ok(Point { set, result })
         })
-        .collect()
+        .collect::<Result<_, _>>()?;
+    Ok(std::iter::once(first).chain(rest).collect())
+}
+
+/// The value of each varied key at one point.
+type Settings = Vec<(String, serde_json::Value)>;
+
+/// Keys that set a fixed potential: `stack.voltage_kv` and any
+/// `….potential_kv`.
+fn is_potential_key(key: &str) -> bool {
+    key == "stack.voltage_kv" || key.ends_with(".potential_kv")
 }
 
 #[cfg(test)]

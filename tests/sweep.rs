@@ -132,3 +132,53 @@ fn the_sweep_command_prints_points_and_refuses_bad_ones() {
     assert!(csv.starts_with("stack.voltage_kv,verdict,allowable kV peak"), "{csv}");
     assert_eq!(csv.lines().count(), 3);
 }
+
+/// Walks two results side by side: numbers agree to `tol` relative (with
+/// a floor near zero), everything else exactly; `solve` is left out (a
+/// reused point says it was not solved again).
+fn agree(a: &serde_json::Value, b: &serde_json::Value, tol: f64, path: &str) {
+    use serde_json::Value::*;
+    match (a, b) {
+        (Number(x), Number(y)) => {
+            let (x, y) = (x.as_f64().unwrap(), y.as_f64().unwrap());
+            let floor =
+                if path.contains("error_estimate_pct") || path.contains("observed_order") { 1e-3 } else { 1e-9 };
+            assert!((x - y).abs() <= (tol * x.abs().max(y.abs())).max(floor), "{path}: {x} vs {y}");
+        }
+        (Array(x), Array(y)) => {
+            assert_eq!(x.len(), y.len(), "{path}");
+            for (k, (p, q)) in x.iter().zip(y).enumerate() {
+                agree(p, q, tol, &format!("{path}[{k}]"));
+            }
+        }
+        (Object(x), Object(y)) => {
+            for (k, v) in x {
+                if path.is_empty() && (k == "solve" || k == "case_sha256" || k == "reference") {
+                    continue;
+                }
+                agree(v, &y[k], tol, &format!("{path}.{k}"));
+            }
+        }
+        // findings word numbers rounded to 3 digits: they agree exactly
+        _ => assert_eq!(a, b, "{path}"),
+    }
+}
+
+/// A sweep of potentials only solves its first point: every other point
+/// takes that solution and self-check scaled (superposition, common
+/// practice), and its result is the result of checking that point on its
+/// own, figure by figure (to 1e-6 relative: the solver's tolerance).
+#[test]
+fn a_potential_sweep_reuses_the_first_solve_and_matches_separate_checks() {
+    let text = std::fs::read_to_string("cases/busbar-support.yaml").unwrap();
+    let p = points(&text, &["parts[2].electrode.potential_kv=12,30"]);
+    assert!(!p[0].result.solve.method.contains("not solved again"));
+    assert!(p[1].result.solve.method.contains("not solved again"), "{}", p[1].result.solve.method);
+    let alone = hvstack::check(
+        &text.replace("potential_kv: 24 }", "potential_kv: 30 }"),
+        "alone.yaml",
+        &hvstack::Options::default(),
+    )
+    .unwrap();
+    agree(&serde_json::to_value(&p[1].result).unwrap(), &serde_json::to_value(&alone).unwrap(), 1e-6, "");
+}
