@@ -134,7 +134,10 @@ enum Command {
     /// (`stack.layers[1].thickness`, `parts[3].water.volume_pct`,
     /// `environment.temperature_c`, `operation.frequency_hz`,
     /// `stack.voltage_kv`) to a comma list of values or to `start:stop:count`
-    /// evenly spaced values; several make a full grid, the first slowest.
+    /// evenly spaced values, or `±T%` for a tolerance band around the
+    /// case's own value (low, nominal, high; the table then names the worst
+    /// point and the spread of each figure); several make a full grid, the
+    /// first slowest.
     /// Every point is validated and checked as a case of its own; if one
     /// cannot be evaluated nothing is printed and the exit status is 2.
     /// Exit status otherwise: 0 when every point passes, 1 when any needs
@@ -381,6 +384,10 @@ fn sweep(
     {
         Ok(t) => t,
         Err(e) => return refuse(&e),
+    };
+    let vary = match hvstack::study::resolve(&text, &file, &vary) {
+        Ok(v) => v,
+        Err(e) => return refuse(&e.to_string()),
     };
     let mut options = hvstack::Options::default();
     options.limits.max_nodes = max_nodes;

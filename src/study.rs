@@ -25,6 +25,10 @@ pub struct Vary {
     pub key: String,
     /// Values, in order (numbers, or words for keys that take words).
     pub values: Vec<serde_json::Value>,
+    /// `KEY=±T%`: a tolerance band around the case's own value, T/100;
+    /// `resolve` turns it into the values low, nominal, high.
+    #[serde(skip)]
+    pub tolerance: Option<f64>,
 }
 
 /// A study could not be set up or one of its points could not be
@@ -93,6 +97,14 @@ pub fn parse_vary(arg: &str) -> Result<Vary, StudyError> {
         return Err(bad("the key is empty or holds spaces"));
     }
     let values = values.trim();
+    if let Some(band) = values.strip_prefix('±').or_else(|| values.strip_prefix("+-")) {
+        let pct = band.trim().strip_suffix('%').ok_or_else(|| bad("a tolerance is ±T% (e.g. ±10%)"))?;
+        let t: f64 = pct.trim().parse().map_err(|_| bad("the tolerance is not a number"))?;
+        if !(t > 0.0 && t < 100.0) {
+            return Err(bad("a tolerance must lie between 0 and 100 %"));
+        }
+        return Ok(Vary { key: key.to_string(), values: Vec::new(), tolerance: Some(t / 100.0) });
+    }
     let parts: Vec<&str> = values.split(':').collect();
     let list: Vec<serde_json::Value> = if parts.len() == 3 {
         let num =
@@ -132,7 +144,44 @@ pub fn parse_vary(arg: &str) -> Result<Vary, StudyError> {
     if list.len() > MAX_VALUES {
         return Err(bad(&format!("more than {MAX_VALUES} values")));
     }
-    Ok(Vary { key: key.to_string(), values: list })
+    Ok(Vary { key: key.to_string(), values: list, tolerance: None })
+}
+
+/// The value at a key path, if it is there.
+fn get_key<'a>(doc: &'a serde_yaml::Value, key: &str) -> Option<&'a serde_yaml::Value> {
+    let mut at = doc;
+    for step in steps(key).ok()? {
+        at = match step {
+            Step::Key(k) => at.as_mapping()?.get(serde_yaml::Value::String(k))?,
+            Step::Index(i) => at.as_sequence()?.get(i)?,
+        };
+    }
+    Some(at)
+}
+
+/// Turns each tolerance band into its values: the case's own value at the
+/// key times 1 − T, 1 and 1 + T (the corners and the nominal point).
+pub fn resolve(text: &str, file: &str, vary: &[Vary]) -> Result<Vec<Vary>, StudyError> {
+    let doc: serde_yaml::Value =
+        serde_yaml::from_str(text).map_err(|e| StudyError::NotYaml { file: file.to_string(), why: e.to_string() })?;
+    vary.iter()
+        .map(|v| match v.tolerance {
+            None => Ok(v.clone()),
+            Some(t) => {
+                let x =
+                    get_key(&doc, &v.key).and_then(serde_yaml::Value::as_f64).ok_or_else(|| StudyError::BadKey {
+                        file: file.to_string(),
+                        key: v.key.clone(),
+                        why: "a tolerance band needs a number at this key in the case".into(),
+                    })?;
+                Ok(Vary {
+                    key: v.key.clone(),
+                    values: vec![number(x * (1.0 - t)), number(x), number(x * (1.0 + t))],
+                    tolerance: None,
+                })
+            }
+        })
+        .collect()
 }
 
 /// A JSON number, whole numbers without a fraction (so `3` stays `3`).
@@ -233,6 +282,13 @@ pub fn describe(set: &[(String, serde_json::Value)]) -> String {
 pub fn sweep(text: &str, file: &str, vary: &[Vary], options: &Options) -> Result<Vec<Point>, StudyError> {
     let doc: serde_yaml::Value =
         serde_yaml::from_str(text).map_err(|e| StudyError::NotYaml { file: file.to_string(), why: e.to_string() })?;
+    if let Some(v) = vary.iter().find(|v| v.tolerance.is_some() || v.values.is_empty()) {
+        return Err(StudyError::BadKey {
+            file: file.to_string(),
+            key: v.key.clone(),
+            why: "no values (a tolerance band is resolved first: `study::resolve`)".into(),
+        });
+    }
     let points: usize =
         vary.iter().map(|v| v.values.len()).try_fold(1usize, |a, n| a.checked_mul(n)).unwrap_or(usize::MAX);
     if points > MAX_POINTS {
@@ -334,6 +390,16 @@ mod tests {
         assert!(parse_vary("a=1:2").is_err());
         assert!(parse_vary("a=1:2:0").is_err());
         assert!(parse_vary("a=1,,2").is_err());
+        assert_eq!(parse_vary("stack.layers[0].thickness=±10%").unwrap().tolerance, Some(0.1));
+        assert!(parse_vary("a=±10").is_err() && parse_vary("a=±150%").is_err());
+        let r = resolve(
+            "stack: { layers: [ { thickness: 2 } ] }\n",
+            "t.yaml",
+            &[parse_vary("stack.layers[0].thickness=±10%").unwrap()],
+        )
+        .unwrap();
+        assert_eq!(r[0].values, vec![serde_json::json!(1.8), serde_json::json!(2), serde_json::json!(2.2)]);
+        assert!(resolve("a: x\n", "t.yaml", &[parse_vary("a=±5%").unwrap()]).is_err());
     }
 
     #[test]
@@ -352,7 +418,11 @@ mod tests {
 
     #[test]
     fn combinations_run_first_key_slowest() {
-        let v = |n: usize| Vary { key: "k".into(), values: (0..n).map(|k| serde_json::json!(k)).collect() };
+        let v = |n: usize| Vary {
+            key: "k".into(),
+            values: (0..n).map(|k| serde_json::json!(k)).collect(),
+            tolerance: None,
+        };
         assert_eq!(
             combinations(&[v(2), v(3)]),
             vec![vec![0, 0], vec![0, 1], vec![0, 2], vec![1, 0], vec![1, 1], vec![1, 2]]

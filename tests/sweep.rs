@@ -182,3 +182,24 @@ fn a_potential_sweep_reuses_the_first_solve_and_matches_separate_checks() {
     .unwrap();
     agree(&serde_json::to_value(&p[1].result).unwrap(), &serde_json::to_value(&alone).unwrap(), 1e-6, "");
 }
+
+/// `KEY=±T%` sweeps the case's own value low, nominal and high; the table
+/// names the worst point (here the thinnest film: the highest field in
+/// the gap, series divider) and the spread of each figure.
+#[test]
+fn a_tolerance_band_sweeps_around_the_case_value() {
+    let dir = tempfile::tempdir().unwrap();
+    let case = dir.path().join("film.yaml");
+    std::fs::write(&case, FILM_AND_GAP).unwrap();
+    let out =
+        hvstack(&["sweep", case.to_str().unwrap(), "--vary", "stack.layers[0].thickness=±10%", "--format", "json"]);
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["vary"][0]["values"], serde_json::json!([0.09, 0.1, 0.11]));
+    let text = hvstack(&["sweep", case.to_str().unwrap(), "--vary", "stack.layers[0].thickness=±10%"]);
+    let t = String::from_utf8_lossy(&text.stdout);
+    assert!(t.contains("worst point  stack.layers[0].thickness=0.09"), "{t}");
+    assert!(t.contains("spread (lowest … highest over the points)"), "{t}");
+    let bad = hvstack(&["sweep", case.to_str().unwrap(), "--vary", "stack.layers[0].name=±10%"]);
+    assert_eq!(bad.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&bad.stderr).contains("needs a number"));
+}

@@ -100,13 +100,61 @@ pub fn render_table(vary: &[Vary], points: &[Point]) -> String {
         points.len(),
         points.first().map_or("", |p| p.result.title.as_str())
     );
-    out.push_str(&super::text::table(&head_refs, rows, &numeric));
+    out.push_str(&super::text::table(&head_refs, rows.clone(), &numeric));
+    if points.len() > 1 {
+        out.push_str(&worst_and_spread(vary, points, &head, &rows));
+    }
     out.push_str(
         "\n\nEach point is a screening check of its own (margins on judged peaks, safety factor and inception \
          margin of the case). Check every design against the applicable codes and have it reviewed by a licensed \
          or otherwise qualified engineer.\n",
     );
     out
+}
+
+/// The worst point (worst verdict, then the lowest allowable level, then
+/// the smallest margin of any part) and the lowest and highest value of
+/// every figure column.
+fn worst_and_spread(vary: &[Vary], points: &[Point], head: &[String], rows: &[Vec<String>]) -> String {
+    let rank = |v: VerdictOut| match v {
+        VerdictOut::Pass => 0,
+        VerdictOut::Review => 1,
+        VerdictOut::Fail => 2,
+    };
+    let low = |p: &Point| p.result.parts.iter().filter_map(|q| q.margin).fold(f64::INFINITY, f64::min);
+    let worst = points
+        .iter()
+        .enumerate()
+        .max_by(|(_, a), (_, b)| {
+            rank(a.result.verdict)
+                .cmp(&rank(b.result.verdict))
+                .then(
+                    b.result
+                        .allowable_kv
+                        .unwrap_or(f64::INFINITY)
+                        .total_cmp(&a.result.allowable_kv.unwrap_or(f64::INFINITY)),
+                )
+                .then(low(b).total_cmp(&low(a)))
+        })
+        .map(|(k, _)| k)
+        .unwrap_or(0);
+    let mut out = format!(
+        "\n\nworst point  {} ({}{})\nspread (lowest … highest over the points)\n",
+        crate::study::describe(&points[worst].set),
+        verdict_word(points[worst].result.verdict),
+        points[worst].result.allowable_kv.map_or_else(String::new, |a| format!(
+            ", allowable {} kV {}",
+            sig4(a),
+            points[worst].result.values
+        ))
+    );
+    for (c, name) in head.iter().enumerate().skip(vary.len() + 1) {
+        let v: Vec<f64> = rows.iter().filter_map(|r| r[c].parse::<f64>().ok()).collect();
+        if let (Some(lo), Some(hi)) = (v.iter().copied().reduce(f64::min), v.iter().copied().reduce(f64::max)) {
+            out.push_str(&format!(" {name}: {} … {}\n", sig4(lo), sig4(hi)));
+        }
+    }
+    out.trim_end().to_string()
 }
 
 /// The sweep as CSV (header row, then one row per point).
