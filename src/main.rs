@@ -161,6 +161,21 @@ enum Command {
         /// Which verdicts fail the exit status: `review` (the default) or `fail`.
         #[arg(long, value_enum, default_value = "review")]
         fail_on: FailOnArg,
+        /// Check only the I-th of N slices of the points (every N-th from the
+        /// I-th); `--format json` then adds `shard: {index, count}`, and
+        /// `sweep-combine` joins the N outputs into the whole sweep.
+        #[arg(long, value_parser = parse_shard)]
+        shard: Option<(usize, usize)>,
+    },
+    /// Join the JSON outputs of `sweep --shard I/N` (all N of them) into the
+    /// JSON, table or CSV of the whole sweep.
+    SweepCombine {
+        /// The shards' JSON files, in any order.
+        #[arg(required = true)]
+        shards: Vec<PathBuf>,
+        /// Output format.
+        #[arg(long, value_enum, default_value = "text")]
+        format: SweepFormat,
     },
     /// Print the JSON Schema of the case format (for editor support).
     Schema,
@@ -365,6 +380,17 @@ fn batch(paths: &[PathBuf], o: &BatchOptions) -> ExitCode {
     if code != ExitCode::SUCCESS { code } else { ExitCode::from(summary::exit_status(&rows)) }
 }
 
+/// A sweep's JSON in the asked format.
+fn render_sweep(value: &serde_json::Value, format: SweepFormat) -> Result<String, String> {
+    Ok(match format {
+        SweepFormat::Text => hvstack::report::sweep::render_table(value),
+        SweepFormat::Json => json(value),
+        SweepFormat::Csv => {
+            hvstack::report::sweep::render_csv(value).map_err(|e| format!("cannot write the CSV: {e}"))?
+        }
+    })
+}
+
 /// A sweep of one case (see `Command::Sweep`).
 fn sweep(
     path: &Path,
@@ -373,6 +399,7 @@ fn sweep(
     max_nodes: usize,
     jobs: u16,
     fail_on: hvstack::report::summary::FailOn,
+    shard: Option<(usize, usize)>,
 ) -> ExitCode {
     let vary: Vec<hvstack::study::Vary> = match vary.iter().map(|v| hvstack::study::parse_vary(v)).collect() {
         Ok(v) => v,
@@ -395,17 +422,20 @@ fn sweep(
         Ok(p) => p,
         Err(e) => return refuse(&format!("hvstack: cannot start {jobs} jobs: {e}")),
     };
-    let points = match pool.install(|| hvstack::study::sweep(&text, &file, &vary, &options)) {
+    let points = match pool.install(|| hvstack::study::sweep_shard(&text, &file, &vary, &options, shard)) {
         Ok(p) => p,
         Err(e) => return refuse(&e.to_string()),
     };
-    let out = match format {
-        SweepFormat::Text => hvstack::report::sweep::render_table(&vary, &points),
-        SweepFormat::Json => json(&hvstack::report::sweep::sweep_out(&vary, &points)),
-        SweepFormat::Csv => match hvstack::report::sweep::render_csv(&vary, &points) {
-            Ok(c) => c,
-            Err(e) => return refuse(&format!("hvstack sweep: cannot write the CSV: {e}")),
-        },
+    let mut value = match serde_json::to_value(hvstack::report::sweep::sweep_out(&vary, &points)) {
+        Ok(v) => v,
+        Err(e) => return refuse(&format!("hvstack sweep: {e}")),
+    };
+    if let Some((i, n)) = shard {
+        value["shard"] = serde_json::json!({ "index": i, "count": n });
+    }
+    let out = match render_sweep(&value, format) {
+        Ok(o) => o,
+        Err(e) => return refuse(&format!("hvstack sweep: {e}")),
     };
     let status =
         points.iter().map(|p| hvstack::report::summary::verdict_exit(p.result.verdict, fail_on)).max().unwrap_or(0);
@@ -478,9 +508,31 @@ fn main() -> ExitCode {
             }
             (Err(e), _) | (_, Err(e)) => refuse(&e),
         },
-        Command::Sweep { case, vary, format, max_nodes, jobs, fail_on } => {
+        Command::Sweep { case, vary, format, max_nodes, jobs, fail_on, shard } => {
             let max_nodes = usize::try_from(max_nodes).unwrap_or(hvstack::grid::MAX_SUPPORTED_NODES);
-            sweep(&case, &vary, format, max_nodes, jobs, fail_on.into())
+            sweep(&case, &vary, format, max_nodes, jobs, fail_on.into(), shard)
+        }
+        Command::SweepCombine { shards, format } => {
+            let mut read = Vec::new();
+            for path in &shards {
+                let name = shown(path);
+                let value = input::read_regular(path, "sweep shard").and_then(|b| {
+                    serde_json::from_slice::<serde_json::Value>(&b)
+                        .map_err(|e| format!("{name}:{}:{}: not a sweep shard JSON: {e}", e.line(), e.column()))
+                });
+                match value {
+                    Ok(v) => read.push((name, v)),
+                    Err(e) => return refuse(&e),
+                }
+            }
+            let whole = match hvstack::study::combine_shards(&read) {
+                Ok(v) => v,
+                Err(e) => return refuse(&format!("hvstack sweep-combine: {e}")),
+            };
+            match render_sweep(&whole, format) {
+                Ok(out) => emit(&out),
+                Err(e) => refuse(&format!("hvstack sweep-combine: {e}")),
+            }
         }
         Command::Schema => emit(&hvstack::case::json_schema()),
         Command::Materials { format } => {

@@ -280,6 +280,19 @@ pub fn describe(set: &[(String, serde_json::Value)]) -> String {
 /// module docs). `file` names the case in messages; each point is checked
 /// under `FILE [KEY=VALUE, …]`, its line numbers those of the point's text.
 pub fn sweep(text: &str, file: &str, vary: &[Vary], options: &Options) -> Result<Vec<Point>, StudyError> {
+    sweep_shard(text, file, vary, options, None)
+}
+
+/// The points of slice `I` of `N` (`shard = Some((I, N))`, 1 ≤ I ≤ N):
+/// every N-th point from the I-th, in order, so that N slices cover the
+/// sweep and `combine_shards` interleaves them back; `None`: every point.
+pub fn sweep_shard(
+    text: &str,
+    file: &str,
+    vary: &[Vary],
+    options: &Options,
+    shard: Option<(usize, usize)>,
+) -> Result<Vec<Point>, StudyError> {
     let doc: serde_yaml::Value =
         serde_yaml::from_str(text).map_err(|e| StudyError::NotYaml { file: file.to_string(), why: e.to_string() })?;
     if let Some(v) = vary.iter().find(|v| v.tolerance.is_some() || v.values.is_empty()) {
@@ -303,7 +316,15 @@ pub fn sweep(text: &str, file: &str, vary: &[Vary], options: &Options) -> Result
             why,
         })?;
     }
-    let combos = combinations(vary);
+    let combos: Vec<Vec<usize>> = match shard {
+        Some((i, n)) => {
+            combinations(vary).into_iter().enumerate().filter(|(k, _)| k % n == i - 1).map(|(_, c)| c).collect()
+        }
+        None => combinations(vary),
+    };
+    if combos.is_empty() {
+        return Ok(Vec::new());
+    }
     // the text and name of each point
     let point = |combo: &Vec<usize>| -> Result<(Settings, String, String), StudyError> {
         let set: Vec<(String, serde_json::Value)> =
@@ -363,6 +384,51 @@ pub fn sweep(text: &str, file: &str, vary: &[Vary], options: &Options) -> Result
         })
         .collect::<Result<_, _>>()?;
     Ok(std::iter::once(first).chain(rest).collect())
+}
+
+/// Interleaves the JSON of shards `1/N … N/N` of one sweep (each
+/// `{vary, points, shard: {index, count}}`, in any order) back into the
+/// JSON of the whole sweep, `{vary, points}`, point k from shard
+/// (k mod N) + 1. Refuses shards of different sweeps, missing or repeated
+/// slices.
+pub fn combine_shards(shards: &[(String, serde_json::Value)]) -> Result<serde_json::Value, String> {
+    let Some((first_name, first)) = shards.first() else { return Err("no shards given".into()) };
+    let count = first["shard"]["count"]
+        .as_u64()
+        .ok_or_else(|| format!("{first_name}: not a sweep shard (no `shard.count`)"))? as usize;
+    let mut by_index: Vec<Option<&serde_json::Value>> = vec![None; count];
+    for (name, s) in shards {
+        let (Some(i), Some(n)) = (s["shard"]["index"].as_u64(), s["shard"]["count"].as_u64()) else {
+            return Err(format!("{name}: not a sweep shard (no `shard.index` and `shard.count`)"));
+        };
+        if n as usize != count {
+            return Err(format!("{name}: a shard of {n}, the others of {count}"));
+        }
+        if s["vary"] != first["vary"] {
+            return Err(format!("{name}: a shard of a different sweep (its `vary` differs from {first_name}'s)"));
+        }
+        let slot =
+            by_index.get_mut((i as usize).wrapping_sub(1)).ok_or_else(|| format!("{name}: shard index {i} of {n}"))?;
+        if slot.is_some() {
+            return Err(format!("{name}: shard {i}/{n} given twice"));
+        }
+        *slot = Some(s);
+    }
+    if let Some(k) = by_index.iter().position(Option::is_none) {
+        return Err(format!("shard {}/{count} is missing", k + 1));
+    }
+    let lists: Vec<&Vec<serde_json::Value>> = by_index
+        .iter()
+        .map(|s| s.and_then(|s| s["points"].as_array()))
+        .collect::<Option<_>>()
+        .ok_or("a shard has no `points` list")?;
+    let total: usize = lists.iter().map(|l| l.len()).sum();
+    let mut points = Vec::with_capacity(total);
+    for k in 0..total {
+        let p = lists[k % count].get(k / count).ok_or_else(|| format!("shard {} has too few points", k % count + 1))?;
+        points.push(p.clone());
+    }
+    Ok(serde_json::json!({ "vary": first["vary"], "points": points }))
 }
 
 /// The value of each varied key at one point.
