@@ -18,46 +18,27 @@ fn report(path: &str, p: PreconditionerChoice) -> serde_json::Value {
     serde_json::to_value(hvstack::check(&text, path, &opts).unwrap()).unwrap()
 }
 
-/// Walks two results side by side; numbers must agree to `tol` relative
-/// (to the larger magnitude, with an absolute floor for values near zero).
+/// Numbers of two results agree to `tol` relative (to the larger
+/// magnitude, with an absolute floor for values near zero); the solve
+/// figures differ by design.
 fn agree(a: &serde_json::Value, b: &serde_json::Value, tol: f64, path: &str) {
-    use serde_json::Value::*;
-    match (a, b) {
-        (Number(x), Number(y)) => {
-            let (x, y) = (x.as_f64().unwrap(), y.as_f64().unwrap());
-            // the self-check's coarser grids are solved to 1e-8 only, and its
-            // estimate is a difference of peaks
-            let self_check =
-                ["error_estimate", "coarser_grids", "observed_order", "e_max_change_pct", "e_max_reference"]
-                    .iter()
-                    .any(|k| path.contains(k));
-            let tol = if self_check { 1e-3 } else { tol };
-            // the order is a ratio of differences of nearly equal peaks: a
-            // DC case iterated to 1e-7 of the voltage moves it by a few %
-            let tol = if path.contains("observed_order") { 0.05 } else { tol };
-            let scale = x.abs().max(y.abs()).max(1e-9);
-            // an error estimate below 0.01 % is a difference of nearly equal
-            // peaks: agreement to 1e-4 percentage points is enough there
-            // (DC cases iterate to 1e-7 of the voltage)
-            let floor = if path.contains("error_estimate_pct") { 1e-4 } else { 0.0 };
-            assert!((x - y).abs() <= (tol * scale).max(floor), "{path}: {x} vs {y}");
-        }
-        (Array(x), Array(y)) => {
-            assert_eq!(x.len(), y.len(), "{path}");
-            for (k, (p, q)) in x.iter().zip(y).enumerate() {
-                agree(p, q, tol, &format!("{path}[{k}]"));
-            }
-        }
-        (Object(x), Object(y)) => {
-            for (k, v) in x {
-                if path.is_empty() && (k == "solve" || k == "reference") {
-                    continue; // the solve figures differ by design
-                }
-                agree(v, &y[k], tol, &format!("{path}.{k}"));
-            }
-        }
-        _ => assert_eq!(a, b, "{path}"),
-    }
+    let tolerance = |path: &str| {
+        // the self-check's coarser grids are solved to 1e-8 only, and its
+        // estimate is a difference of peaks
+        let self_check = ["error_estimate", "coarser_grids", "observed_order", "e_max_change_pct", "e_max_reference"]
+            .iter()
+            .any(|k| path.contains(k));
+        let tol = if self_check { 1e-3 } else { tol };
+        // the order is a ratio of differences of nearly equal peaks: a
+        // DC case iterated to 1e-7 of the voltage moves it by a few %
+        let tol = if path.contains("observed_order") { 0.05 } else { tol };
+        // an error estimate below 0.01 % is a difference of nearly equal
+        // peaks: agreement to 1e-4 percentage points is enough there
+        // (DC cases iterate to 1e-7 of the voltage)
+        let floor = if path.contains("error_estimate_pct") { 1e-4 } else { 0.0 };
+        (tol, floor)
+    };
+    common::agree_json(a, b, path, &["solve", "reference"], &tolerance);
 }
 
 /// Both preconditioners solve the same system to 1e-10; every reported

@@ -133,35 +133,15 @@ fn the_sweep_command_prints_points_and_refuses_bad_ones() {
     assert_eq!(csv.lines().count(), 3);
 }
 
-/// Walks two results side by side: numbers agree to `tol` relative (with
-/// a floor near zero), everything else exactly; `solve` is left out (a
+/// Two results agree to `tol` relative (estimates and orders to 1e-3
+/// absolute, near zero 1e-9), findings exactly; `solve` is left out (a
 /// reused point says it was not solved again).
 fn agree(a: &serde_json::Value, b: &serde_json::Value, tol: f64, path: &str) {
-    use serde_json::Value::*;
-    match (a, b) {
-        (Number(x), Number(y)) => {
-            let (x, y) = (x.as_f64().unwrap(), y.as_f64().unwrap());
-            let floor =
-                if path.contains("error_estimate_pct") || path.contains("observed_order") { 1e-3 } else { 1e-9 };
-            assert!((x - y).abs() <= (tol * x.abs().max(y.abs())).max(floor), "{path}: {x} vs {y}");
-        }
-        (Array(x), Array(y)) => {
-            assert_eq!(x.len(), y.len(), "{path}");
-            for (k, (p, q)) in x.iter().zip(y).enumerate() {
-                agree(p, q, tol, &format!("{path}[{k}]"));
-            }
-        }
-        (Object(x), Object(y)) => {
-            for (k, v) in x {
-                if path.is_empty() && (k == "solve" || k == "case_sha256" || k == "reference") {
-                    continue;
-                }
-                agree(v, &y[k], tol, &format!("{path}.{k}"));
-            }
-        }
-        // findings word numbers rounded to 3 digits: they agree exactly
-        _ => assert_eq!(a, b, "{path}"),
-    }
+    let tolerance = |path: &str| {
+        let floor = if path.contains("error_estimate_pct") || path.contains("observed_order") { 1e-3 } else { 1e-9 };
+        (tol, floor)
+    };
+    common::agree_json(a, b, path, &["solve", "case_sha256", "reference"], &tolerance);
 }
 
 /// A sweep of potentials only solves its first point: every other point
