@@ -166,6 +166,9 @@ enum Command {
         /// `sweep-combine` joins the N outputs into the whole sweep.
         #[arg(long, value_parser = parse_shard)]
         shard: Option<(usize, usize)>,
+        /// No progress bar.
+        #[arg(long)]
+        quiet: bool,
     },
     /// Join the JSON outputs of `sweep --shard I/N` (all N of them) into the
     /// JSON, table or CSV of the whole sweep.
@@ -392,15 +395,17 @@ fn render_sweep(value: &serde_json::Value, format: SweepFormat) -> Result<String
 }
 
 /// A sweep of one case (see `Command::Sweep`).
-fn sweep(
-    path: &Path,
-    vary: &[String],
+struct SweepOptions {
     format: SweepFormat,
     max_nodes: usize,
     jobs: u16,
     fail_on: hvstack::report::summary::FailOn,
     shard: Option<(usize, usize)>,
-) -> ExitCode {
+    quiet: bool,
+}
+
+fn sweep(path: &Path, vary: &[String], o: &SweepOptions) -> ExitCode {
+    let SweepOptions { format, max_nodes, jobs, fail_on, shard, quiet } = *o;
     let vary: Vec<hvstack::study::Vary> = match vary.iter().map(|v| hvstack::study::parse_vary(v)).collect() {
         Ok(v) => v,
         Err(e) => return refuse(&format!("hvstack sweep: {e}")),
@@ -422,7 +427,15 @@ fn sweep(
         Ok(p) => p,
         Err(e) => return refuse(&format!("hvstack: cannot start {jobs} jobs: {e}")),
     };
-    let points = match pool.install(|| hvstack::study::sweep_shard(&text, &file, &vary, &options, shard)) {
+    // indicatif draws only on a terminal (stderr), so pipes and CI stay clean
+    let total: usize = vary.iter().map(|v| v.values.len()).product();
+    let total = shard.map_or(total, |(i, n)| total / n + usize::from(i <= total % n));
+    let bar = if quiet { indicatif::ProgressBar::hidden() } else { indicatif::ProgressBar::new(total as u64) };
+    let tick = || bar.inc(1);
+    let run = hvstack::study::Run { shard, progress: Some(&tick) };
+    let points = pool.install(|| hvstack::study::sweep_shard(&text, &file, &vary, &options, &run));
+    bar.finish_and_clear();
+    let points = match points {
         Ok(p) => p,
         Err(e) => return refuse(&e.to_string()),
     };
@@ -508,9 +521,9 @@ fn main() -> ExitCode {
             }
             (Err(e), _) | (_, Err(e)) => refuse(&e),
         },
-        Command::Sweep { case, vary, format, max_nodes, jobs, fail_on, shard } => {
+        Command::Sweep { case, vary, format, max_nodes, jobs, fail_on, shard, quiet } => {
             let max_nodes = usize::try_from(max_nodes).unwrap_or(hvstack::grid::MAX_SUPPORTED_NODES);
-            sweep(&case, &vary, format, max_nodes, jobs, fail_on.into(), shard)
+            sweep(&case, &vary, &SweepOptions { format, max_nodes, jobs, fail_on: fail_on.into(), shard, quiet })
         }
         Command::SweepCombine { shards, format } => {
             let mut read = Vec::new();

@@ -280,7 +280,18 @@ pub fn describe(set: &[(String, serde_json::Value)]) -> String {
 /// module docs). `file` names the case in messages; each point is checked
 /// under `FILE [KEY=VALUE, …]`, its line numbers those of the point's text.
 pub fn sweep(text: &str, file: &str, vary: &[Vary], options: &Options) -> Result<Vec<Point>, StudyError> {
-    sweep_shard(text, file, vary, options, None)
+    sweep_shard(text, file, vary, options, &Run::default())
+}
+
+/// How a sweep runs: which slice of its points, and what to call as each
+/// point ends (a progress bar; called from rayon's threads).
+#[derive(Default)]
+pub struct Run<'a> {
+    /// Slice `I` of `N` (1 ≤ I ≤ N): every N-th point from the I-th;
+    /// `None`: every point.
+    pub shard: Option<(usize, usize)>,
+    /// Called once per point evaluated.
+    pub progress: Option<&'a (dyn Fn() + Sync)>,
 }
 
 /// The points of slice `I` of `N` (`shard = Some((I, N))`, 1 ≤ I ≤ N):
@@ -291,8 +302,14 @@ pub fn sweep_shard(
     file: &str,
     vary: &[Vary],
     options: &Options,
-    shard: Option<(usize, usize)>,
+    run: &Run,
 ) -> Result<Vec<Point>, StudyError> {
+    let shard = run.shard;
+    let tick = || {
+        if let Some(f) = run.progress {
+            f();
+        }
+    };
     let doc: serde_yaml::Value =
         serde_yaml::from_str(text).map_err(|e| StudyError::NotYaml { file: file.to_string(), why: e.to_string() })?;
     if let Some(v) = vary.iter().find(|v| v.tolerance.is_some() || v.values.is_empty()) {
@@ -351,6 +368,7 @@ pub fn sweep_shard(
             .map(|combo| {
                 let (set, text, name) = point(combo)?;
                 let result = crate::check(&text, &name, options).map_err(|e| fail(&set, e))?;
+                tick();
                 Ok(Point { set, result })
             })
             .collect();
@@ -367,6 +385,7 @@ pub fn sweep_shard(
     let solution = base.solve(&options.solve).map_err(|e| fail(&set0, e))?;
     let evaluated = base.evaluate(&solution, options).map_err(|e| fail(&set0, e))?;
     let first = Point { set: set0, result: base.report_of(&solution, &evaluated, 0.0) };
+    tick();
     let rest: Vec<Point> = combos[1..]
         .par_iter()
         .map(|combo| {
@@ -380,6 +399,7 @@ pub fn sweep_shard(
                 None => prepared.solve(&options.solve).and_then(|sol| prepared.report(&sol, options, 0.0)),
             }
             .map_err(|e| fail(&set, e))?;
+            tick();
             Ok(Point { set, result })
         })
         .collect::<Result<_, _>>()?;
