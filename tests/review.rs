@@ -429,5 +429,14 @@ fn maps_place_labels_clear_of_each_other_and_zoom_on_small_parts() {
         if zoomed {
             assert!(read(&dir.join("index.html")).contains("zoomed in"), "{case}: zoom not on the page");
         }
+        // the maps sit inline on one page, where a clip's id names the first
+        // element with it: each map clips with its own (a zoom clipped by the
+        // main map's rectangle spilled its outlines over the page)
+        let page = read(&dir.join("index.html"));
+        let clips: Vec<&str> = page.split("clip-path=\"").skip(1).map(|r| &r[..r.find('"').unwrap()]).collect();
+        let mut unique = clips.clone();
+        unique.sort_unstable();
+        unique.dedup();
+        assert_eq!(unique.len(), clips.len(), "{case}: maps share a clip id: {clips:?}");
     }
 }

@@ -157,14 +157,23 @@ pub fn render(map: &FieldMap) -> String {
         .add(Rectangle::new().set("width", "100%").set("height", "100%").set("fill", "#ffffff"));
 
     // Definitions: plot clip and the colour-bar gradient (bottom = 0).
-    let mut gradient = LinearGradient::new().set("id", "hv-scale").set("x1", 0).set("y1", 1).set("x2", 0).set("y2", 0);
+    // Several maps sit inline on one review page, where an id names the
+    // first element that has it: the clip and the gradient take ids of this
+    // map's own (its quantity and window).
+    let own: String = format!("{}-{:?}", map.shading.name, map.extent_mm)
+        .chars()
+        .map(|c| if c.is_ascii_alphanumeric() { c } else { '-' })
+        .collect();
+    let (clip_id, scale_id) = (format!("hv-plot-{own}"), format!("hv-scale-{own}"));
+    let mut gradient =
+        LinearGradient::new().set("id", scale_id.as_str()).set("x1", 0).set("y1", 1).set("x2", 0).set("y2", 0);
     for k in 0..=32 {
         let t = k as f64 / 32.0;
         let [r, g, b] = colour::at(t);
         gradient = gradient.add(Stop::new().set("offset", t).set("stop-color", format!("#{r:02x}{g:02x}{b:02x}")));
     }
     let clip = svg::node::element::ClipPath::new()
-        .set("id", "hv-plot")
+        .set("id", clip_id.as_str())
         .add(Rectangle::new().set("x", LEFT).set("y", TOP).set("width", round1(pw)).set("height", round1(ph)));
     doc = doc.add(Definitions::new().add(gradient).add(clip));
 
@@ -177,7 +186,7 @@ pub fn render(map: &FieldMap) -> String {
 
     // Field raster, drawn on a light grey that shows through at electrodes.
     let plot = Group::new()
-        .set("clip-path", "url(#hv-plot)")
+        .set("clip-path", format!("url(#{clip_id})"))
         .add(
             Rectangle::new()
                 .set("x", LEFT)
@@ -431,7 +440,7 @@ pub fn render(map: &FieldMap) -> String {
             .set("y", TOP)
             .set("width", 16)
             .set("height", round1(bh))
-            .set("fill", "url(#hv-scale)")
+            .set("fill", format!("url(#{scale_id})"))
             .set("stroke", "#444a50")
             .set("stroke-width", 0.8),
     );
