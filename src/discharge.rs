@@ -314,7 +314,7 @@ pub fn inception(case: &Case, sampler: &Sampler, fields: &Fields, config: &Confi
         gas,
         cells,
         peak: Values::Peak.factor_from(case.operation.values),
-        sharp: crate::fields::sharp_points(case),
+        sharp: crate::grid::electrode_sharp_points(case),
         config,
     };
     search
@@ -474,7 +474,7 @@ pub fn triple_junctions(case: &Case, sampler: &Sampler, permittivity: &[f64]) ->
         }
         let (i, j) = grid.node_ij(NodeIx(n));
         let mut solid = None;
-        let mut fluid: Vec<(u32, [f64; 2])> = Vec::new();
+        let mut fluid = None;
         for (ci, cj) in [(i.wrapping_sub(1), j.wrapping_sub(1)), (i, j.wrapping_sub(1)), (i.wrapping_sub(1), j), (i, j)]
         {
             if ci >= nx - 1 || cj >= ny - 1 {
@@ -484,13 +484,12 @@ pub fn triple_junctions(case: &Case, sampler: &Sampler, permittivity: &[f64]) ->
             if r == CONDUCTOR {
                 continue;
             }
-            let centre = [0.5 * (grid.x[ci] + grid.x[ci + 1]), 0.5 * (grid.y[cj] + grid.y[cj + 1])];
             match class(r) {
                 MaterialClass::Solid => solid = solid.or(Some(r)),
-                MaterialClass::Gas | MaterialClass::Liquid => fluid.push((r, centre)),
+                MaterialClass::Gas | MaterialClass::Liquid => fluid = fluid.or(Some(r)),
             }
         }
-        let (Some(solid), Some(&(fl, _))) = (solid, fluid.first()) else { continue };
+        let (Some(solid), Some(fl)) = (solid, fluid) else { continue };
         // a node inside an electrode line lying on a solid–fluid surface (a
         // foil or sleeve on the surface) is on a contact line, not a junction
         let on = |a: usize, b: usize| a < nx && b < ny && layout.node_electrode[grid.node(a, b).0] == e;

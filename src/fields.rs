@@ -33,7 +33,6 @@ mod surfaces;
 pub mod trace;
 
 use electrodes::gap;
-pub(crate) use peaks::sharp_points;
 use peaks::{SURFACE_FLOOR, near_any, smooth_surface_fields, surface_fields};
 use sampler::probe;
 pub use sampler::{Inside, Sample, Sampler, line_field};

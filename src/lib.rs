@@ -457,18 +457,11 @@ impl Prepared {
     /// Fields, inception, self-check and assessment of a solution; an error
     /// when a field result is not finite.
     pub fn evaluate(&self, solution: &Solution, options: &Options) -> Result<Evaluated, Error> {
-        self.evaluate_with(solution, options, None)
+        self.evaluate_with(solution, options, SelfCheck::Run)
     }
 
-    /// `evaluate`, with the mesh self-check given instead of run (`Some`:
-    /// a sweep point whose potentials are a multiple of an evaluated one's
-    /// takes that point's check, scaled).
-    pub fn evaluate_with(
-        &self,
-        solution: &Solution,
-        options: &Options,
-        given_check: Option<Option<meshcheck::MeshCheck>>,
-    ) -> Result<Evaluated, Error> {
+    /// `evaluate`, with the mesh self-check run or given (`SelfCheck`).
+    pub fn evaluate_with(&self, solution: &Solution, options: &Options, check: SelfCheck) -> Result<Evaluated, Error> {
         let non_finite = |f: &fields::Fields| match f.first_non_finite() {
             Some(what) => Err(Error::NonFinite { file: self.file.clone(), what }),
             None => Ok(()),
@@ -495,9 +488,9 @@ impl Prepared {
             });
         }
         let dc = solution.dc.as_ref().map(|state| self.dc_results(&f, &solution.phi, state));
-        let check = match given_check {
-            Some(c) => c,
-            None => self.self_check(&f, &discharge, options),
+        let check = match check {
+            SelfCheck::Given(c) => c.map(|c| *c),
+            SelfCheck::Run => self.self_check(&f, &discharge, options),
         };
         let assessment = assess::assess(&assess::Inputs {
             case: &self.case,
@@ -605,9 +598,19 @@ impl Prepared {
             report: solve,
             reference: base.reference.as_ref().map(|(phi, rep)| (times(phi), rep.clone())),
         };
-        let e = self.evaluate_with(&solution, options, Some(base_check.map(|c| c.scaled(s))))?;
+        let e = self.evaluate_with(&solution, options, SelfCheck::Given(base_check.map(|c| Box::new(c.scaled(s)))))?;
         Ok(self.report_of(&solution, &e, 0.0))
     }
+}
+
+/// Where an evaluation's mesh self-check comes from.
+#[derive(Debug, Clone)]
+pub enum SelfCheck {
+    /// Solved again on the coarser grids (`Prepared::self_check`).
+    Run,
+    /// Given: a sweep point whose potentials are a multiple of an evaluated
+    /// point's takes that point's check, scaled (`None`: it could not run).
+    Given(Option<Box<meshcheck::MeshCheck>>),
 }
 
 /// What the stages after the solve made of a solution.

@@ -202,23 +202,6 @@ fn arc_position(outline: &[[f64; 2]], p: [f64; 2]) -> f64 {
     best.1
 }
 
-/// Sharp convex features of the electrodes, leaving out those on the
-/// domain boundary (a zero-flux edge mirrors the electrode into a flat face).
-pub(crate) fn sharp_points(case: &Case) -> Vec<[f64; 2]> {
-    let d = case.domain;
-    let tol = 1e-9 * d.width().max(d.height());
-    let on_boundary = |p: &[f64; 2]| {
-        (p[0] - d.x0).abs() <= tol
-            || (p[0] - d.x1).abs() <= tol
-            || (p[1] - d.y0).abs() <= tol
-            || (p[1] - d.y1).abs() <= tol
-    };
-    case.electrodes()
-        .flat_map(|(_, p, _)| p.shape.sharp_points())
-        .filter(|p| !on_boundary(p) && d.contains_closed(*p, tol))
-        .collect()
-}
-
 /// True when `at` lies within two local grid steps of one of `points`.
 pub(super) fn near_any(grid: &Grid, at: [f64; 2], points: &[[f64; 2]]) -> bool {
     let c = grid.locate(at);

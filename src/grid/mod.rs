@@ -12,7 +12,7 @@ pub use axis::{AxisPlan, graded_axis};
 pub use paint::{CONDUCTOR, CutCell, ElectrodeInfo, Layout, NO_ELECTRODE, Region, SUBSAMPLES};
 pub use singular::{
     GRADING_NODE_BUDGET, SINGULAR_GRADING, SINGULAR_ZONE, SingularKind, SingularPoint, curved_boxes,
-    singular_candidates, singular_points,
+    electrode_sharp_points, singular_candidates, singular_points,
 };
 
 use crate::case::Case;

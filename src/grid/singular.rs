@@ -105,6 +105,27 @@ pub struct SingularPoint {
     pub electrode: usize,
 }
 
+/// A test for points inside the domain and off its boundary (a zero-flux
+/// edge mirrors a corner there into a flat face).
+fn inside_domain(case: &Case) -> impl Fn(&[f64; 2]) -> bool + '_ {
+    let d = case.domain;
+    let tol = 1e-9 * d.width().max(d.height());
+    move |p: &[f64; 2]| {
+        d.contains_closed(*p, tol)
+            && (p[0] - d.x0).abs() > tol
+            && (p[0] - d.x1).abs() > tol
+            && (p[1] - d.y0).abs() > tol
+            && (p[1] - d.y1).abs() > tol
+    }
+}
+
+/// The sharp convex points of the electrodes (corners, foil ends) inside
+/// the domain and off its boundary, in part order.
+pub fn electrode_sharp_points(case: &Case) -> Vec<[f64; 2]> {
+    let inside = inside_domain(case);
+    case.electrodes().flat_map(|(_, p, _)| p.shape.sharp_points()).filter(|p| inside(p)).collect()
+}
+
 /// Where the field may be singular, from the outlines alone: the sharp
 /// convex points of electrodes and the convex corners of insulating parts
 /// that lie on an electrode (but not a rectangle's corner on a rectangular
@@ -113,17 +134,10 @@ pub struct SingularPoint {
 /// removed. Later parts may paint over some; [`singular_points`] keeps
 /// those the painted layout confirms.
 pub fn singular_candidates(case: &Case) -> Vec<[f64; 2]> {
-    let d = case.domain;
-    let tol = 1e-9 * d.width().max(d.height());
-    let inside = |p: &[f64; 2]| {
-        d.contains_closed(*p, tol)
-            && (p[0] - d.x0).abs() > tol
-            && (p[0] - d.x1).abs() > tol
-            && (p[1] - d.y0).abs() > tol
-            && (p[1] - d.y1).abs() > tol
-    };
+    let tol = 1e-9 * case.domain.width().max(case.domain.height());
+    let inside = inside_domain(case);
     let electrodes: Vec<&Shape> = case.electrodes().map(|(_, p, _)| &p.shape).collect();
-    let mut out: Vec<[f64; 2]> = electrodes.iter().flat_map(|s| s.sharp_points()).filter(|p| inside(p)).collect();
+    let mut out = electrode_sharp_points(case);
     // A rectangle's corner on a rectangular electrode's face meets it at a
     // right angle: with the interface normal to the face λ = 1 whatever the
     // permittivities (ε1·cot(λπ/2) + ε2·cot(λπ/2) = 0), not singular.
