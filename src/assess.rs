@@ -419,8 +419,13 @@ pub struct PartAssessment {
     /// scaled together, case convention), V, at which this part just keeps
     /// its safety factor (gas parts judged by inception: its inception
     /// margin); `None` without a margin or when the field does not scale
-    /// with the potentials.
+    /// with the potentials (then `study::allowable_by_bisection` finds it
+    /// and sets it here).
     pub allowable: Option<f64>,
+    /// The level this part would allow if its field scaled with the
+    /// potentials from here on (the local linear extrapolation, V): equal to
+    /// `allowable` for linear fields; one step of the bisection otherwise.
+    pub allowable_if_linear: Option<f64>,
 }
 
 /// The largest level the case allows.
@@ -430,6 +435,11 @@ pub struct Allowable {
     pub level: f64,
     /// The part that sets it (layout region).
     pub region: usize,
+    /// Found by bisection of solves at scaled levels (a field that does not
+    /// scale with the potentials): the relative tolerance of `level`, which
+    /// is the highest level found to keep every margin. `None`: exact by
+    /// scaling.
+    pub bisection_tolerance: Option<f64>,
 }
 
 /// How far the field turns the water dipoles of a part toward it: x =
@@ -710,6 +720,8 @@ pub fn assess(inp: &Inputs) -> Assessment {
         findings.extend(kinds.into_iter().map(|kind| Finding { kind, part: part.clone() }));
         let eps = permittivity[r];
         let e2 = f.e_max * f.e_max;
+        let if_linear =
+            allowable_level(working, margin, inception.is_some(), case.safety_factor, case.pd_inception_margin);
         parts.push(PartAssessment {
             region: r,
             margin,
@@ -729,14 +741,8 @@ pub fn assess(inp: &Inputs) -> Assessment {
             inception,
             pd_inception: inception.and_then(|k| discharge[k].scale).map(|s| s * working),
             point_margin: point_margin.filter(|_| inception.is_some()),
-            allowable: allowable_level(
-                working,
-                margin,
-                inception.is_some(),
-                case.safety_factor,
-                case.pd_inception_margin,
-            )
-            .filter(|_| linear),
+            allowable: if_linear.filter(|_| linear),
+            allowable_if_linear: if_linear,
         });
     }
     let pd_inception = parts.iter().filter_map(|p| p.pd_inception).min_by(f64::total_cmp);
@@ -863,7 +869,7 @@ pub fn assess(inp: &Inputs) -> Assessment {
     let verdict = parts.iter().map(|p| p.verdict).chain(worst_finding).max().unwrap_or(Verdict::Pass);
     let allowable = parts
         .iter()
-        .filter_map(|p| p.allowable.map(|level| Allowable { level, region: p.region }))
+        .filter_map(|p| p.allowable.map(|level| Allowable { level, region: p.region, bisection_tolerance: None }))
         .min_by(|a, b| a.level.total_cmp(&b.level));
     Assessment {
         verdict,

@@ -461,7 +461,59 @@ impl Prepared {
     }
 
     /// `evaluate`, with the mesh self-check run or given (`SelfCheck`).
+    /// Where the field does not scale with the potentials (DC with field-
+    /// or temperature-dependent conduction) the allowable levels come from
+    /// solves at scaled levels (`study::allowable::by_bisection`).
     pub fn evaluate_with(&self, solution: &Solution, options: &Options, check: SelfCheck) -> Result<Evaluated, Error> {
+        let mut e = self.evaluate_once(solution, options, check)?;
+        if e.dc.as_ref().is_some_and(|d| !d.linear) {
+            let levels = study::allowable::by_bisection(self, options, e.assessment.working_level)?;
+            let a = &mut e.assessment;
+            for (region, level) in &levels.parts {
+                if let Some(p) = a.parts.iter_mut().find(|p| p.region == *region) {
+                    p.allowable = *level;
+                }
+            }
+            a.allowable = levels.case.map(|(level, region)| assess::Allowable {
+                level,
+                region,
+                bisection_tolerance: Some(study::allowable::ALLOWABLE_TOLERANCE),
+            });
+        }
+        Ok(e)
+    }
+
+    /// This case with every fixed potential × `s` (a study's level): the
+    /// same grid, layout, pattern and matrices; the right-hand sides, which
+    /// are linear in the fixed potentials, scaled.
+    pub fn scaled(&self, s: f64) -> Prepared {
+        let mut p = self.clone();
+        let scale = |k: &mut case::ElectrodeKind| {
+            if let case::ElectrodeKind::Fixed { potential_v } = k {
+                *potential_v *= s;
+            }
+        };
+        for part in &mut p.case.parts {
+            if let case::Role::Electrode(k) = &mut part.role {
+                scale(k);
+            }
+        }
+        p.layout.electrodes.iter_mut().for_each(|e| scale(&mut e.kind));
+        p.potentials.iter_mut().for_each(|v| *v *= s);
+        let times = |v: &mut Vec<f64>| v.iter_mut().for_each(|x| *x *= s);
+        for ev in std::iter::once(&mut p.service).chain(p.reference.as_mut()) {
+            times(&mut ev.system.rhs);
+            if let Some(l) = ev.lossy.as_mut() {
+                times(&mut l.rhs.re);
+                times(&mut l.rhs.im);
+            }
+        }
+        p
+    }
+
+    /// One evaluation, with no study above it (the allowable levels of a
+    /// field that does not scale with the potentials stay unknown).
+    pub fn evaluate_once(&self, solution: &Solution, options: &Options, check: SelfCheck) -> Result<Evaluated, Error> {
         let non_finite = |f: &fields::Fields| match f.first_non_finite() {
             Some(what) => Err(Error::NonFinite { file: self.file.clone(), what }),
             None => Ok(()),

@@ -237,9 +237,13 @@ pub fn render_page(inp: &PageInputs) -> String {
                             (scaled together) at which every part keeps its safety factor and every gas part its inception \
                             margin; set by " b { (by) }
                             @if let Some(x) = r.allowable_error_estimate_pct { " (± " (crate::report::text::significant(x, 2)) " %)" }
+                            @if let Some(t) = r.allowable_bisection_tolerance_pct {
+                                "; the DC field does not scale with the voltage, so it was found by bisection of solves at \
+                                scaled levels, within " (crate::report::text::significant(t, 2)) " %"
+                            }
                             "."
                         }
-                        _ => "Allowable level: not given (no part has a margin, or the DC field does not scale with the voltage)."
+                        _ => "Allowable level: not given (no part has a margin)."
                     }
                 }
                 h2 { "Field map" }

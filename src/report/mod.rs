@@ -732,6 +732,7 @@ pub fn build(inp: &Inputs, seconds: f64) -> CheckReport {
         pd_inception_kv: assessment.pd_inception.map(to_kv),
         allowable_kv: assessment.allowable.map(|a| to_kv(a.level)),
         allowable_limited_by: assessment.allowable.map(|a| layout.regions[a.region].name.clone()),
+        allowable_bisection_tolerance_pct: assessment.allowable.and_then(|a| a.bisection_tolerance).map(|t| 100.0 * t),
         allowable_error_estimate_pct: assessment.allowable.and_then(|a| {
             let c = mesh_check?;
             let gas = assessment.parts.iter().find(|p| p.region == a.region)?.inception.is_some();

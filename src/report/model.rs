@@ -416,11 +416,17 @@ pub struct CheckReport {
     /// The largest level of the largest fixed |potential| (all fixed
     /// potentials scaled together), in the case's convention, at which
     /// every part keeps the safety factor on its judged peak and every gas
-    /// part the inception margin (null when no part has a margin, or when a
-    /// DC field does not scale with the voltage).
+    /// part the inception margin (null when no part has a margin). Exact
+    /// by scaling where the field is linear in the potentials; where it is
+    /// not (DC with field- or temperature-dependent conduction), found by
+    /// bisection of solves at scaled levels.
     pub allowable_kv: Option<f64>,
     /// The part that sets `allowable_kv`.
     pub allowable_limited_by: Option<String>,
+    /// Where `allowable_kv` was found by bisection: the bracket's relative
+    /// width (the level given keeps every margin, one higher by this
+    /// fraction does not); null where it is exact by scaling.
+    pub allowable_bisection_tolerance_pct: Option<f64>,
     /// Estimated discretisation error of `allowable_kv` (that of the
     /// limiting part's judged peak or inception level).
     pub allowable_error_estimate_pct: Option<f64>,

@@ -142,15 +142,16 @@ pub fn render_text(r: &CheckReport) -> String {
         (Some(a), Some(by)) => writeln!(
             o,
             "allowable    {} kV {v}: the largest level of the fixed potentials (scaled together) at which every part \
-             keeps its margin; set by {by}{}",
+             keeps its margin; set by {by}{}{}",
             sig4(a),
-            r.allowable_error_estimate_pct.map_or_else(String::new, |x| format!(" (± {} %)", significant(x, 2)))
+            r.allowable_error_estimate_pct.map_or_else(String::new, |x| format!(" (± {} %)", significant(x, 2))),
+            r.allowable_bisection_tolerance_pct.map_or_else(String::new, |t| format!(
+                "; the DC field does not scale with the voltage, so found by bisection of solves at scaled levels, \
+                 within {} %",
+                significant(t, 2)
+            ))
         ),
-        _ => writeln!(
-            o,
-            "allowable    — (no part has a margin, or the DC field does not scale with the voltage: field- or \
-             temperature-dependent conduction)"
-        ),
+        _ => writeln!(o, "allowable    — (no part has a margin)"),
     };
 
     let _ = writeln!(o, "\nparts");

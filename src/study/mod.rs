@@ -9,6 +9,8 @@
 //! Missing mapping keys are created (a case without `environment:` can
 //! still vary `environment.temperature_c`); a sequence index must exist.
 
+pub mod allowable;
+
 use crate::report::CheckReport;
 use crate::{Error, Options};
 use rayon::prelude::*;
