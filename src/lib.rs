@@ -226,15 +226,50 @@ pub fn prepare_on_grid(case: Case, file: &str, grid: Grid) -> Result<Prepared, E
     prepare_evaluations(case, file, grid, reference)
 }
 
+/// Prepares `case` on `base`'s grid, unknown numbering and matrix pattern
+/// when the case grids and paints the same geometry as `base` (a study that
+/// changes material values, water, temperature or frequency only);
+/// otherwise as [`prepare`]. Either way the result is the one `prepare`
+/// gives: the grid and layout are built and compared, and only the
+/// geometric factors and the pattern are taken over.
+pub fn prepare_like(case: Case, file: &str, options: &Options, base: &Prepared) -> Result<Prepared, Error> {
+    let grid =
+        Grid::for_case(&case, &options.limits).map_err(|e| Error::Grid { file: file.into(), source: Box::new(e) })?;
+    let with_reference = coefficients::differs_from_reference(&case) && case.operation.mode != case::Mode::Dc;
+    let layout = Layout::paint(&case, &grid).map_err(|e| Error::Grid { file: file.into(), source: Box::new(e) })?;
+    let reuse =
+        (grid == base.grid && layout.same_geometry(&base.layout)).then(|| (base.factors.clone(), base.pattern.clone()));
+    assemble_evaluations(case, file, grid, layout, reuse, with_reference)
+}
+
 /// Paints, numbers and assembles; the dry reference too when asked.
 fn prepare_evaluations(case: Case, file: &str, grid: Grid, with_reference: bool) -> Result<Prepared, Error> {
     let layout = Layout::paint(&case, &grid).map_err(|e| Error::Grid { file: file.into(), source: Box::new(e) })?;
-    let factors = Factors::new(&grid, case.geometry);
+    assemble_evaluations(case, file, grid, layout, None, with_reference)
+}
+
+/// Numbers and assembles a painted case (with the factors and pattern of a
+/// case of the same geometry when given).
+fn assemble_evaluations(
+    case: Case,
+    file: &str,
+    grid: Grid,
+    layout: Layout,
+    reuse: Option<(Factors, Pattern)>,
+    with_reference: bool,
+) -> Result<Prepared, Error> {
     let potentials = assemble::potentials(&layout);
     let coefficients = coefficients::permittivities(&case, &grid, &layout, Conditions::Service);
+    let (factors, pattern) = match reuse {
+        Some((f, p)) => (f, Some(p)),
+        None => (Factors::new(&grid, case.geometry), None),
+    };
     let stencil = Stencil::new(&grid, &layout, &factors, &coefficients);
-    let pattern = Pattern::new(&grid, &stencil, &assemble::constraints(&layout))
-        .map_err(|source| Error::Assemble { file: file.into(), source })?;
+    let pattern = match pattern {
+        Some(p) => p,
+        None => Pattern::new(&grid, &stencil, &assemble::constraints(&layout))
+            .map_err(|source| Error::Assemble { file: file.into(), source })?,
+    };
     let evaluation = |conditions: Conditions, coefficients: Coefficients<f64>, stencil: Stencil| {
         let system = pattern.system(&grid, &stencil, &potentials);
         Evaluation { conditions, coefficients, stencil, system, ac: None, lossy: None }

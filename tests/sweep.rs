@@ -163,6 +163,32 @@ fn a_potential_sweep_reuses_the_first_solve_and_matches_separate_checks() {
     agree(&serde_json::to_value(&p[1].result).unwrap(), &serde_json::to_value(&alone).unwrap(), 1e-6, "");
 }
 
+/// A sweep of material values and frequency keeps the first point's grid,
+/// numbering and pattern (`prepare_like`): every point's result is the
+/// result of checking that point on its own, exactly (the same matrices,
+/// the same solves; invariant of the study layer).
+#[test]
+fn a_values_sweep_keeps_the_geometry_and_matches_separate_checks_exactly() {
+    let text = std::fs::read_to_string("cases/wet-bushing-layer.yaml").unwrap();
+    let p = points(&text, &["materials.rip-wet.conductivity_s_per_m=1e-9,1e-8", "operation.frequency_hz=50,60"]);
+    assert_eq!(p.len(), 4);
+    let alone = hvstack::check(
+        &text.replace("3e-9      # wet", "1e-8 # wet").replace("frequency_hz: 50", "frequency_hz: 60"),
+        "study.yaml [materials.rip-wet.conductivity_s_per_m=1e-8, operation.frequency_hz=60]",
+        &hvstack::Options::default(),
+    )
+    .unwrap();
+    let mut a = serde_json::to_value(&p[3].result).unwrap();
+    let mut b = serde_json::to_value(&alone).unwrap();
+    for v in [&mut a, &mut b] {
+        v["case_sha256"] = serde_json::Value::Null;
+    }
+    assert_eq!(a, b);
+    // the values matter: the wet layer's share moves with its conductivity
+    let wet = |k: usize| part(&p[k], "wet layer").e_max_kv_per_mm;
+    assert!(rel(wet(0), wet(2)) > 1e-3, "{} {}", wet(0), wet(2));
+}
+
 /// `KEY=±T%` sweeps the case's own value low, nominal and high; the table
 /// names the worst point (here the thinnest film: the highest field in
 /// the gap, series divider) and the spread of each figure.

@@ -216,6 +216,23 @@ fn part_regions(case: &Case) -> Vec<Option<u16>> {
 }
 
 impl Layout {
+    /// Whether `other` paints the same geometry: the same regions in the
+    /// same cells and cut cells, the same electrodes (fixed or floating) on
+    /// the same nodes and the same curved boundary edges; materials and
+    /// potentials may differ. Two such layouts number their unknowns alike
+    /// and give matrices of one pattern.
+    pub fn same_geometry(&self, other: &Layout) -> bool {
+        let floating = |l: &Layout| -> Vec<bool> {
+            l.electrodes.iter().map(|e| matches!(e.kind, ElectrodeKind::Floating)).collect()
+        };
+        self.regions.len() == other.regions.len()
+            && self.cell_region == other.cell_region
+            && self.node_electrode == other.node_electrode
+            && self.cut_cells == other.cut_cells
+            && self.boundary_edges == other.boundary_edges
+            && floating(self) == floating(other)
+    }
+
     /// Whether each region (layout order) owns at least one cell.
     pub fn regions_with_cells(&self) -> Vec<bool> {
         let mut present = vec![false; self.regions.len()];

@@ -364,7 +364,7 @@ pub fn sweep_shard(
     };
     let fail =
         |set: &[(String, serde_json::Value)], e: Error| StudyError::Point { set: describe(set), source: Box::new(e) };
-    if !vary.iter().all(|v| is_potential_key(&v.key)) || combos.len() < 2 {
+    if combos.len() < 2 {
         return combos
             .par_iter()
             .map(|combo| {
@@ -375,15 +375,36 @@ pub fn sweep_shard(
             })
             .collect();
     }
-    // Potentials only: the first point is solved and self-checked; every
-    // point whose fixed potentials are a multiple of its potentials takes
-    // its solution and self-check scaled (the field is linear in them),
-    // the others are checked from scratch.
     let (set0, text0, name0) = point(&combos[0])?;
     let base = crate::case::parse(&text0, &name0)
         .map_err(Error::from)
         .and_then(|c| crate::prepare(c, &name0, options))
         .map_err(|e| fail(&set0, e))?;
+    if !vary.iter().all(|v| is_potential_key(&v.key)) {
+        // Every point is solved; a point of the first point's geometry
+        // (values changed only) keeps its grid, numbering and pattern.
+        let checked = |p: &crate::Prepared| p.solve(&options.solve).and_then(|sol| p.report(&sol, options, 0.0));
+        let first = Point { result: checked(&base).map_err(|e| fail(&set0, e))?, set: set0 };
+        tick();
+        let rest: Vec<Point> = combos[1..]
+            .par_iter()
+            .map(|combo| {
+                let (set, text, name) = point(combo)?;
+                let result = crate::case::parse(&text, &name)
+                    .map_err(Error::from)
+                    .and_then(|c| crate::prepare_like(c, &name, options, &base))
+                    .and_then(|p| checked(&p))
+                    .map_err(|e| fail(&set, e))?;
+                tick();
+                Ok(Point { set, result })
+            })
+            .collect::<Result<_, _>>()?;
+        return Ok(std::iter::once(first).chain(rest).collect());
+    }
+    // Potentials only: the first point is solved and self-checked; every
+    // point whose fixed potentials are a multiple of its potentials takes
+    // its solution and self-check scaled (the field is linear in them),
+    // the others are checked from scratch.
     let solution = base.solve(&options.solve).map_err(|e| fail(&set0, e))?;
     let evaluated = base.evaluate(&solution, options).map_err(|e| fail(&set0, e))?;
     let first = Point { set: set0, result: base.report_of(&solution, &evaluated, 0.0) };
