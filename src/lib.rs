@@ -671,6 +671,15 @@ impl Prepared {
         s: f64,
         options: &Options,
     ) -> Result<report::CheckReport, Error> {
+        let solution = self.scaled_solution(base, s);
+        let e = self.evaluate_with(&solution, options, SelfCheck::Given(base_check.map(|c| Box::new(c.scaled(s)))))?;
+        Ok(self.report_of(&solution, &e, 0.0))
+    }
+
+    /// The solution of this case from `base`'s, whose potentials this
+    /// case's are `s` times (`potential_multiple_of`): every potential
+    /// scaled, the solve report saying it was not solved again.
+    pub fn scaled_solution(&self, base: &Solution, s: f64) -> Solution {
         let times = |v: &[f64]| v.iter().map(|x| x * s).collect::<Vec<f64>>();
         let mut solve = base.report.clone();
         solve.method = format!(
@@ -678,15 +687,13 @@ impl Prepared {
             solve.method,
             report::significant(s, 6)
         );
-        let solution = Solution {
+        Solution {
             phi: times(&base.phi),
             quadrature: base.quadrature.as_deref().map(times),
             dc: None,
             report: solve,
             reference: base.reference.as_ref().map(|(phi, rep)| (times(phi), rep.clone())),
-        };
-        let e = self.evaluate_with(&solution, options, SelfCheck::Given(base_check.map(|c| Box::new(c.scaled(s)))))?;
-        Ok(self.report_of(&solution, &e, 0.0))
+        }
     }
 }
 

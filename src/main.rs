@@ -169,6 +169,13 @@ enum Command {
         /// No progress bar.
         #[arg(long)]
         quiet: bool,
+        /// Write a review folder here: plots (SVG and PNG) of peak field,
+        /// margin, partial-discharge inception and allowable level against
+        /// each varied key with the limits dashed, every point's review
+        /// folder (point-0001, …) and an index page. Staged and moved into
+        /// place only when complete.
+        #[arg(long, value_name = "DIR")]
+        report: Option<PathBuf>,
     },
     /// Join the JSON outputs of `sweep --shard I/N` (all N of them) into the
     /// JSON, table or CSV of the whole sweep.
@@ -179,6 +186,10 @@ enum Command {
         /// Output format.
         #[arg(long, value_enum, default_value = "text")]
         format: SweepFormat,
+        /// Write the plots and index page of the whole sweep here (the
+        /// points' own review folders stay in the shards' folders).
+        #[arg(long, value_name = "DIR")]
+        report: Option<PathBuf>,
     },
     /// Print the JSON Schema of the case format (for editor support).
     Schema,
@@ -402,10 +413,19 @@ struct SweepOptions {
     fail_on: hvstack::report::summary::FailOn,
     shard: Option<(usize, usize)>,
     quiet: bool,
+    report: Option<PathBuf>,
+}
+
+/// Writes a sweep's plots and index into a staged review folder and moves
+/// it into place (`links[k]`: the folder of point k, where it has one).
+fn sweep_review(st: Staging, value: &serde_json::Value, links: &[Option<String>]) -> Result<(), String> {
+    let files = hvstack::review::sweep_files(value, links).map_err(|e| format!("cannot build the sweep plots: {e}"))?;
+    st.write("", &files)?;
+    st.commit()
 }
 
 fn sweep(path: &Path, vary: &[String], o: &SweepOptions) -> ExitCode {
-    let SweepOptions { format, max_nodes, jobs, fail_on, shard, quiet } = *o;
+    let SweepOptions { format, max_nodes, jobs, fail_on, shard, quiet, .. } = *o;
     let vary: Vec<hvstack::study::Vary> = match vary.iter().map(|v| hvstack::study::parse_vary(v)).collect() {
         Ok(v) => v,
         Err(e) => return refuse(&format!("hvstack sweep: {e}")),
@@ -432,7 +452,15 @@ fn sweep(path: &Path, vary: &[String], o: &SweepOptions) -> ExitCode {
     let total = shard.map_or(total, |(i, n)| total / n + usize::from(i <= total % n));
     let bar = if quiet { indicatif::ProgressBar::hidden() } else { indicatif::ProgressBar::new(total as u64) };
     let tick = || bar.inc(1);
-    let run = hvstack::study::Run { shard, progress: Some(&tick) };
+    let staging = match o.report.as_deref().map(|d| Staging::new(d, &[path.to_path_buf()])).transpose() {
+        Ok(s) => s,
+        Err(e) => return refuse(&e),
+    };
+    let keep = |k: usize, files: Vec<hvstack::review::ReviewFile>| match &staging {
+        Some(st) => st.write(&hvstack::review::point_folder(k), &files),
+        None => Ok(()),
+    };
+    let run = hvstack::study::Run { shard, progress: Some(&tick), review: staging.as_ref().map(|_| &keep as _) };
     let points = pool.install(|| hvstack::study::sweep_shard(&text, &file, &vary, &options, &run));
     bar.finish_and_clear();
     let points = match points {
@@ -450,6 +478,15 @@ fn sweep(path: &Path, vary: &[String], o: &SweepOptions) -> ExitCode {
         Ok(o) => o,
         Err(e) => return refuse(&format!("hvstack sweep: {e}")),
     };
+    if let Some(st) = staging {
+        // point j of shard I/N is point j·N + I − 1 of the whole sweep
+        let (i, n) = shard.unwrap_or((1, 1));
+        let links: Vec<Option<String>> =
+            (0..points.len()).map(|j| Some(hvstack::review::point_folder(j * n + i - 1))).collect();
+        if let Err(e) = sweep_review(st, &value, &links) {
+            return refuse(&format!("hvstack sweep: {e}"));
+        }
+    }
     let status =
         points.iter().map(|p| hvstack::report::summary::verdict_exit(p.result.verdict, fail_on)).max().unwrap_or(0);
     let code = emit(&out);
@@ -521,11 +558,16 @@ fn main() -> ExitCode {
             }
             (Err(e), _) | (_, Err(e)) => refuse(&e),
         },
-        Command::Sweep { case, vary, format, max_nodes, jobs, fail_on, shard, quiet } => {
+        Command::Sweep { case, vary, format, max_nodes, jobs, fail_on, shard, quiet, report } => {
             let max_nodes = usize::try_from(max_nodes).unwrap_or(hvstack::grid::MAX_SUPPORTED_NODES);
-            sweep(&case, &vary, &SweepOptions { format, max_nodes, jobs, fail_on: fail_on.into(), shard, quiet })
+            let o = SweepOptions { format, max_nodes, jobs, fail_on: fail_on.into(), shard, quiet, report };
+            sweep(&case, &vary, &o)
         }
-        Command::SweepCombine { shards, format } => {
+        Command::SweepCombine { shards, format, report } => {
+            let staging = match report.as_deref().map(|d| Staging::new(d, &shards)).transpose() {
+                Ok(s) => s,
+                Err(e) => return refuse(&e),
+            };
             let mut read = Vec::new();
             for path in &shards {
                 let name = shown(path);
@@ -542,10 +584,17 @@ fn main() -> ExitCode {
                 Ok(v) => v,
                 Err(e) => return refuse(&format!("hvstack sweep-combine: {e}")),
             };
-            match render_sweep(&whole, format) {
-                Ok(out) => emit(&out),
-                Err(e) => refuse(&format!("hvstack sweep-combine: {e}")),
+            let out = match render_sweep(&whole, format) {
+                Ok(out) => out,
+                Err(e) => return refuse(&format!("hvstack sweep-combine: {e}")),
+            };
+            if let Some(st) = staging {
+                let links = vec![None; whole["points"].as_array().map_or(0, Vec::len)];
+                if let Err(e) = sweep_review(st, &whole, &links) {
+                    return refuse(&format!("hvstack sweep-combine: {e}"));
+                }
             }
+            emit(&out)
         }
         Command::Schema => emit(&hvstack::case::json_schema()),
         Command::Materials { format } => {

@@ -203,6 +203,32 @@ pub fn files(
     Ok(out)
 }
 
+/// The files of a sweep's review folder besides the points' own folders:
+/// every plot of `report::sweep::plots` as SVG and PNG, and `index.html`
+/// linking the plots and each point's folder (`links[k]`, where point k
+/// has one).
+pub fn sweep_files(sweep: &serde_json::Value, links: &[Option<String>]) -> Result<Vec<ReviewFile>, ReviewError> {
+    let mut out = Vec::new();
+    let mut shown = Vec::new();
+    for (stem, plot) in report::sweep::plots(sweep) {
+        let svg = picture::plot::render(&plot);
+        let png = picture::png::render(&svg, PNG_ZOOM)?;
+        let what = format!("{} against {}", plot.title, plot.x_label);
+        out.push(ReviewFile { name: format!("{stem}.svg"), what: format!("{what} (vector)"), bytes: svg.into_bytes() });
+        out.push(ReviewFile { name: format!("{stem}.png"), what: format!("{what} (picture)"), bytes: png });
+        shown.push((format!("{stem}.svg"), what));
+    }
+    let page = report::html::render_sweep(sweep, &shown, links);
+    out.insert(0, ReviewFile { name: "index.html".into(), what: "sweep review page".into(), bytes: page.into_bytes() });
+    Ok(out)
+}
+
+/// The folder name of sweep point `index` (from 0) in a sweep's review
+/// folder.
+pub fn point_folder(index: usize) -> String {
+    format!("point-{:04}", index + 1)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

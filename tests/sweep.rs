@@ -253,3 +253,55 @@ fn sharded_sweeps_combine_into_the_whole() {
     assert_eq!(missing.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&missing.stderr).contains("shard 1/2 is missing"));
 }
+
+/// `sweep --report DIR`: plots of peak field, margin, PD inception and
+/// allowable level against each varied key (limits dashed, a marker per
+/// point), every point's review folder and an index linking them; a
+/// sharded sweep numbers its folders as the whole sweep does, and
+/// `sweep-combine --report` draws the same plots as the unsharded run.
+#[test]
+fn a_sweep_review_folder_has_plots_and_every_points_page() {
+    let dir = tempfile::tempdir().unwrap();
+    let case = dir.path().join("film.yaml");
+    std::fs::write(&case, FILM_AND_GAP).unwrap();
+    let c = case.to_str().unwrap();
+    let at = |name: &str| dir.path().join(name);
+    let sweep = ["sweep", c, "--vary", "stack.layers[1].thickness=0.02,0.05,0.1", "--format", "json", "--quiet"];
+    let out = hvstack(&[&sweep[..], &["--report", at("whole").to_str().unwrap()]].concat());
+    assert_eq!(out.status.code(), Some(0), "{}", String::from_utf8_lossy(&out.stderr));
+    let stem = "plot-stack-layers-1-thickness";
+    for figure in ["peak", "margin", "pd-inception", "allowable"] {
+        let svg = std::fs::read_to_string(at("whole").join(format!("{stem}-{figure}.svg"))).unwrap();
+        assert!(svg.contains("stroke-dasharray"), "{figure}: no limit line");
+        assert!(svg.matches("<circle").count() >= 3, "{figure}: a marker per point");
+        let png = std::fs::read(at("whole").join(format!("{stem}-{figure}.png"))).unwrap();
+        assert_eq!(&png[1..4], b"PNG");
+    }
+    let index = std::fs::read_to_string(at("whole").join("index.html")).unwrap();
+    for k in 1..=3 {
+        let page = format!("point-{k:04}/index.html");
+        assert!(index.contains(&page) && at("whole").join(&page).is_file(), "{page}");
+    }
+    // shard 2/2 holds point 2 of the whole sweep
+    let mut shards = Vec::new();
+    for i in 1..=2 {
+        let folder = at(&format!("shard-{i}"));
+        let shard = format!("{i}/2");
+        let out = hvstack(&[&sweep[..], &["--shard", &shard, "--report", folder.to_str().unwrap()]].concat());
+        assert_eq!(out.status.code(), Some(0), "{}", String::from_utf8_lossy(&out.stderr));
+        let f = at(&format!("shard-{i}.json"));
+        std::fs::write(&f, &out.stdout).unwrap();
+        shards.push(f.to_str().unwrap().to_string());
+    }
+    assert!(at("shard-2/point-0002/index.html").is_file() && !at("shard-2/point-0001").exists());
+    let out = hvstack(&["sweep-combine", &shards[0], &shards[1], "--report", at("combined").to_str().unwrap()]);
+    assert_eq!(out.status.code(), Some(0), "{}", String::from_utf8_lossy(&out.stderr));
+    for figure in ["peak", "margin", "pd-inception", "allowable"] {
+        let name = format!("{stem}-{figure}.svg");
+        assert_eq!(std::fs::read(at("combined").join(&name)).unwrap(), std::fs::read(at("whole").join(&name)).unwrap());
+    }
+    // the case file is not a review folder to replace
+    let refused = hvstack(&[&sweep[..], &["--report", c]].concat());
+    assert_eq!(refused.status.code(), Some(2));
+    assert_eq!(std::fs::read_to_string(&case).unwrap(), FILM_AND_GAP);
+}

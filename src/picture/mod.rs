@@ -4,6 +4,7 @@
 //! only rasterises the SVG. Nothing here feeds back into the assessment.
 
 pub mod colour;
+pub mod plot;
 pub mod png;
 pub mod svg;
 

@@ -28,6 +28,12 @@ fn tick_text(v: f64) -> String {
     if r == 0.0 { "0".into() } else { format!("{r}") }
 }
 
+/// `v` kept in [lo, hi]; the middle when the range is empty (a plot
+/// flatter than a marker: a thin planar stack drawn to scale).
+fn within(v: f64, lo: f64, hi: f64) -> f64 {
+    if lo <= hi { v.clamp(lo, hi) } else { 0.5 * (lo + hi) }
+}
+
 /// Three significant digits.
 fn g3(v: f64) -> String {
     crate::report::significant(v, 3)
@@ -273,7 +279,7 @@ pub fn render(map: &FieldMap) -> String {
         .iter()
         .map(|p| {
             let (x, y) = frame.px(p.at_mm);
-            (x.clamp(LEFT + 7.0, LEFT + pw - 7.0), y.clamp(TOP + 7.0, TOP + ph - 7.0))
+            (within(x, LEFT + 7.0, LEFT + pw - 7.0), within(y, TOP + 7.0, TOP + ph - 7.0))
         })
         .collect();
     for &(x, y) in &spots {

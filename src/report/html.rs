@@ -374,3 +374,63 @@ pub fn render_batch(rows: &[super::summary::SummaryRow], links: &[Option<String>
     };
     page.into_string()
 }
+
+/// The index page of a sweep's review folder (from the sweep JSON): the
+/// varied keys, the worst point, the plots (SVG files beside the page) and
+/// a row per point, linked to its own review page where it has one
+/// (`links[k]`: the folder of point k).
+pub fn render_sweep(sweep: &serde_json::Value, plots: &[(String, String)], links: &[Option<String>]) -> String {
+    let points = sweep["points"].as_array().map_or(&[][..], Vec::as_slice);
+    let keys: Vec<&str> = sweep["vary"].as_array().into_iter().flatten().filter_map(|v| v["key"].as_str()).collect();
+    let title = points.first().and_then(|p| p["result"]["title"].as_str()).unwrap_or("");
+    let values = points.first().and_then(|p| p["result"]["values"].as_str()).unwrap_or("");
+    let verdict_of = |p: &serde_json::Value| p["result"]["verdict"].as_str().unwrap_or("?").to_string();
+    let any = |v: &str| points.iter().any(|p| verdict_of(p) == v);
+    let (class, words) = if any("fail") {
+        ("fail", "FAIL — at least one point exceeds a typical breakdown strength or starts discharge")
+    } else if any("review") {
+        ("review", "REVIEW — at least one point needs an engineer's look")
+    } else {
+        ("pass", "PASS — every point passes")
+    };
+    let text = |v: &serde_json::Value| v.as_str().map_or_else(|| v.to_string(), str::to_string);
+    let num = |v: &serde_json::Value| v.as_f64().map_or_else(|| "—".to_string(), sig4);
+    let page = html! {
+        (DOCTYPE)
+        html lang="en" {
+            (head("hvstack sweep review"))
+            body { main {
+                h1 { "Sweep review" }
+                div.meta { (title) " · " (points.len()) " point(s) · varied: " (keys.join(", ")) " · values " strong { (values) } }
+                div class={ "verdict " (class) } { (words) }
+                p { "Each point is a screening check of its own. Dashed lines are the limits a figure is judged \
+                     against: a part's strength over the safety factor, the safety factor, the working level times \
+                     the inception margin, the working level." }
+                h2 { "Plots" }
+                @for (file, what) in plots {
+                    figure { img src=(file) alt=(what) style="max-width:100%"; figcaption.meta { (what) } }
+                }
+                h2 { "Points" }
+                table {
+                    thead { tr {
+                        th { "point" }
+                        @for k in &keys { th { (k) } }
+                        th { "verdict" } th.num { "allowable kV " (values) } th.num { "PD inception kV " (values) }
+                    } }
+                    tbody { @for (k, p) in points.iter().enumerate() { tr {
+                        td { @match links.get(k).and_then(Option::as_ref) {
+                            Some(l) => a href={ (l) "/index.html" } { (k + 1) },
+                            None => (k + 1),
+                        } }
+                        @for key in &keys { td { (text(&p["set"][*key])) } }
+                        td { span class={ "tag " (verdict_of(p)) } { (verdict_of(p)) } }
+                        td.num { (num(&p["result"]["allowable_kv"])) }
+                        td.num { (num(&p["result"]["pd_inception_kv"])) }
+                    } } }
+                }
+                footer { p { b { "Caution. " } (super::CAUTION) } p.meta { "hvstack " (env!("CARGO_PKG_VERSION")) } }
+            } }
+        }
+    };
+    page.into_string()
+}

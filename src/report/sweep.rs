@@ -5,6 +5,7 @@
 
 use super::CheckReport;
 use super::text::sig4;
+use crate::picture::plot::{Plot, Series, SeriesKind};
 use crate::study::{Point, Vary};
 use serde::Serialize;
 use serde_json::Value;
@@ -182,4 +183,162 @@ pub fn render_csv(sweep: &Value) -> Result<String, csv::Error> {
     }
     let bytes = w.into_inner().map_err(|e| csv::Error::from(e.into_error()))?;
     Ok(String::from_utf8_lossy(&bytes).into_owned())
+}
+
+/// How many combinations of the other keys one plot draws a series for.
+pub const MAX_PLOT_GROUPS: usize = 6;
+
+/// The plots of a sweep, from its JSON: for every varied key, the judged
+/// peak field of each part (its strength over the safety factor dashed),
+/// each part's margin (the safety factor dashed), the partial-discharge
+/// inception of each gas part (the working level times the inception
+/// margin dashed; only when some part has one) and the allowable level
+/// (the working level dashed), against the key's values. With several keys
+/// the other keys' combinations are separate series (the first
+/// `MAX_PLOT_GROUPS`). Each comes with a file stem.
+pub fn plots(sweep: &Value) -> Vec<(String, Plot)> {
+    let points = points_of(sweep);
+    let keys = keys(sweep);
+    let names = part_names(points);
+    let values = points.first().and_then(|p| p["result"]["values"].as_str()).unwrap_or("").to_string();
+    let mut out = Vec::new();
+    for (ki, key) in keys.iter().enumerate() {
+        let listed: Vec<&Value> =
+            sweep["vary"][ki]["values"].as_array().map(|a| a.iter().collect()).unwrap_or_default();
+        let numeric = listed.iter().all(|v| v.as_f64().is_some());
+        let x_of = |p: &Value| -> f64 {
+            let v = &p["set"][key];
+            if numeric {
+                v.as_f64().unwrap_or(f64::NAN)
+            } else {
+                listed.iter().position(|w| *w == v).map_or(f64::NAN, |k| k as f64)
+            }
+        };
+        // the other keys' settings of each point: one series group each
+        // (named by the last step of each key path, to keep legends short)
+        let group_of = |p: &Value| -> String {
+            keys.iter()
+                .filter(|k| *k != key)
+                .map(|k| {
+                    let short = k.rsplit(['.', ']']).find(|s| !s.is_empty()).unwrap_or(k);
+                    format!("{short}={}", value_text(&p["set"][k]))
+                })
+                .collect::<Vec<_>>()
+                .join(", ")
+        };
+        let mut groups: Vec<String> = Vec::new();
+        for p in points {
+            let g = group_of(p);
+            if !groups.contains(&g) {
+                groups.push(g);
+            }
+        }
+        let shown = groups.len().min(MAX_PLOT_GROUPS);
+        let more = if groups.len() > shown {
+            format!(" (the first {shown} of {} combinations of the other keys)", groups.len())
+        } else {
+            String::new()
+        };
+        let categories = (!numeric).then(|| listed.iter().map(|v| value_text(v)).collect::<Vec<_>>());
+        let stem = crate::case::text::file_stem(key, 40, "key");
+        // one series of `figure` per group, sorted along x; each group of a
+        // colour slot gets a colour of its own
+        let series = |label: &str, colour: usize, kind: SeriesKind, figure: &dyn Fn(&Value) -> Option<f64>| {
+            groups[..shown]
+                .iter()
+                .enumerate()
+                .map(|(gi, g)| {
+                    let mut pts: Vec<[f64; 2]> = points
+                        .iter()
+                        .filter(|p| group_of(p) == *g)
+                        .map(|p| [x_of(p), figure(&p["result"]).unwrap_or(f64::NAN)])
+                        .filter(|q| q[0].is_finite())
+                        .collect();
+                    pts.sort_by(|a, b| a[0].total_cmp(&b[0]));
+                    let label = if g.is_empty() { label.to_string() } else { format!("{label}, {g}") };
+                    Series { label, kind, colour: colour * shown + gi, points: pts }
+                })
+                .collect::<Vec<_>>()
+        };
+        let part_field = |n: &str, field: &str| {
+            let (n, field) = (n.to_string(), field.to_string());
+            move |r: &Value| -> Option<f64> {
+                r["parts"].as_array()?.iter().find(|q| q["name"].as_str() == Some(n.as_str()))?[field.as_str()].as_f64()
+            }
+        };
+        let working = |r: &Value| -> Option<f64> {
+            r["electrodes"]
+                .as_array()?
+                .iter()
+                .filter(|e| e["kind"].as_str() == Some("fixed"))
+                .filter_map(|e| e["potential_kv"].as_f64())
+                .map(f64::abs)
+                .reduce(f64::max)
+        };
+        let plot = |title: &str, y_label: String, series: Vec<Series>| Plot {
+            title: format!("{title}{more}"),
+            x_label: key.clone(),
+            y_label,
+            categories: categories.clone(),
+            series,
+        };
+        let mut peak = Vec::new();
+        let mut margin = Vec::new();
+        let mut pd = Vec::new();
+        for (c, n) in names.iter().enumerate() {
+            let gas = points.iter().any(|p| part_field(n, "pd_inception_kv")(&p["result"]).is_some());
+            peak.extend(series(n, c, SeriesKind::Data, &part_field(n, "e_max_judged_kv_per_mm")));
+            let strength = part_field(n, "strength_kv_per_mm");
+            let limit = |r: &Value| Some(strength(r)? / r["safety_factor"].as_f64()?);
+            if !gas && points.iter().any(|p| limit(&p["result"]).is_some()) {
+                peak.extend(series(&format!("{n}: strength / safety factor"), c, SeriesKind::Limit, &limit));
+            }
+            if points.iter().any(|p| part_field(n, "margin")(&p["result"]).is_some()) {
+                margin.extend(series(n, c, SeriesKind::Data, &part_field(n, "margin")));
+            }
+            if gas {
+                pd.extend(series(n, c, SeriesKind::Data, &part_field(n, "pd_inception_kv")));
+            }
+        }
+        let sf = |r: &Value| r["safety_factor"].as_f64();
+        margin.extend(series("safety factor", names.len(), SeriesKind::Limit, &sf));
+        for list in [&mut peak, &mut margin, &mut pd] {
+            dedupe_limits(list);
+        }
+        out.push((format!("plot-{stem}-peak"), plot("Judged peak field", format!("kV/mm {values}"), peak)));
+        out.push((format!("plot-{stem}-margin"), plot("Margin (strength / judged peak)", "margin".into(), margin)));
+        if !pd.is_empty() {
+            let needed = |r: &Value| Some(working(r)? * r["pd_inception_margin"].as_f64()?);
+            pd.extend(series("working level × inception margin", names.len(), SeriesKind::Limit, &needed));
+            out.push((
+                format!("plot-{stem}-pd-inception"),
+                plot("Partial-discharge inception", format!("kV {values}"), pd),
+            ));
+        }
+        let mut allowable = series("allowable level", 0, SeriesKind::Data, &|r: &Value| r["allowable_kv"].as_f64());
+        allowable.extend(series("working level", 1, SeriesKind::Limit, &working));
+        dedupe_limits(&mut allowable);
+        out.push((format!("plot-{stem}-allowable"), plot("Allowable level", format!("kV {values}"), allowable)));
+    }
+    out
+}
+
+/// Drops a limit series that repeats an earlier one's points (the same
+/// limit in every group), keeping the first, its group named no more.
+fn dedupe_limits(list: &mut Vec<Series>) {
+    let mut kept: Vec<Series> = Vec::new();
+    for s in list.drain(..) {
+        match kept
+            .iter_mut()
+            .find(|k| k.kind == SeriesKind::Limit && s.kind == SeriesKind::Limit && k.points == s.points)
+        {
+            Some(k) => {
+                if let Some((head, _)) = k.label.split_once(", ") {
+                    k.label = head.to_string();
+                }
+            }
+            None => kept.push(s),
+        }
+    }
+    *list = kept;
 }

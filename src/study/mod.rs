@@ -12,7 +12,7 @@
 pub mod allowable;
 
 use crate::report::CheckReport;
-use crate::{Error, Options};
+use crate::{Error, Options, SelfCheck};
 use rayon::prelude::*;
 
 /// Most values one `--vary` may list or generate.
@@ -67,6 +67,14 @@ pub enum StudyError {
         /// Case file name.
         file: String,
         /// The parser's message.
+        why: String,
+    },
+    /// A point's review files could not be built or kept.
+    #[error("sweep point {set}: review files: {why}")]
+    Review {
+        /// The point's values, `KEY=VALUE, …`.
+        set: String,
+        /// The problem.
         why: String,
     },
     /// One point did not evaluate.
@@ -294,7 +302,14 @@ pub struct Run<'a> {
     pub shard: Option<(usize, usize)>,
     /// Called once per point evaluated.
     pub progress: Option<&'a (dyn Fn() + Sync)>,
+    /// When given, each point's review files are built and handed to it
+    /// with the point's index in the whole sweep (from 0), as the point
+    /// ends; an error ends the sweep.
+    pub review: Option<&'a ReviewSink<'a>>,
 }
+
+/// Takes a point's review files (the binary writes them).
+pub type ReviewSink<'a> = dyn Fn(usize, Vec<crate::review::ReviewFile>) -> Result<(), String> + Sync + 'a;
 
 /// The points of slice `I` of `N` (`shard = Some((I, N))`, 1 ≤ I ≤ N):
 /// every N-th point from the I-th, in order, so that N slices cover the
@@ -335,15 +350,12 @@ pub fn sweep_shard(
             why,
         })?;
     }
-    let combos: Vec<Vec<usize>> = match shard {
-        Some((i, n)) => {
-            combinations(vary).into_iter().enumerate().filter(|(k, _)| k % n == i - 1).map(|(_, c)| c).collect()
-        }
-        None => combinations(vary),
+    // each point with its index in the whole sweep (its review folder's name)
+    let combos: Vec<(usize, Vec<usize>)> = match shard {
+        Some((i, n)) => combinations(vary).into_iter().enumerate().filter(|(k, _)| k % n == i - 1).collect(),
+        None => combinations(vary).into_iter().enumerate().collect(),
     };
-    if combos.is_empty() {
-        return Ok(Vec::new());
-    }
+    let Some((first_index, first_combo)) = combos.first() else { return Ok(Vec::new()) };
     // the text and name of each point
     let point = |combo: &Vec<usize>| -> Result<(Settings, String, String), StudyError> {
         let set: Vec<(String, serde_json::Value)> =
@@ -364,66 +376,59 @@ pub fn sweep_shard(
     };
     let fail =
         |set: &[(String, serde_json::Value)], e: Error| StudyError::Point { set: describe(set), source: Box::new(e) };
-    if combos.len() < 2 {
-        return combos
-            .par_iter()
-            .map(|combo| {
-                let (set, text, name) = point(combo)?;
-                let result = crate::check(&text, &name, options).map_err(|e| fail(&set, e))?;
-                tick();
-                Ok(Point { set, result })
-            })
-            .collect();
-    }
-    let (set0, text0, name0) = point(&combos[0])?;
-    let base = crate::case::parse(&text0, &name0)
-        .map_err(Error::from)
-        .and_then(|c| crate::prepare(c, &name0, options))
-        .map_err(|e| fail(&set0, e))?;
-    if !vary.iter().all(|v| is_potential_key(&v.key)) {
-        // Every point is solved; a point of the first point's geometry
-        // (values changed only) keeps its grid, numbering and pattern.
-        let checked = |p: &crate::Prepared| p.solve(&options.solve).and_then(|sol| p.report(&sol, options, 0.0));
-        let first = Point { result: checked(&base).map_err(|e| fail(&set0, e))?, set: set0 };
+    // the end of every point: its review files when asked, the progress tick
+    let finish = |index: usize,
+                  set: Settings,
+                  name: &str,
+                  p: &crate::Prepared,
+                  solution: &crate::Solution,
+                  result: CheckReport|
+     -> Result<Point, StudyError> {
+        if let Some(review) = run.review {
+            let files = crate::review::files(p, solution, &result, name)
+                .map_err(|e| StudyError::Review { set: describe(&set), why: e.to_string() })?;
+            review(index, files).map_err(|why| StudyError::Review { set: describe(&set), why })?;
+        }
         tick();
-        let rest: Vec<Point> = combos[1..]
-            .par_iter()
-            .map(|combo| {
-                let (set, text, name) = point(combo)?;
-                let result = crate::case::parse(&text, &name)
-                    .map_err(Error::from)
-                    .and_then(|c| crate::prepare_like(c, &name, options, &base))
-                    .and_then(|p| checked(&p))
-                    .map_err(|e| fail(&set, e))?;
-                tick();
-                Ok(Point { set, result })
-            })
-            .collect::<Result<_, _>>()?;
-        return Ok(std::iter::once(first).chain(rest).collect());
-    }
-    // Potentials only: the first point is solved and self-checked; every
-    // point whose fixed potentials are a multiple of its potentials takes
-    // its solution and self-check scaled (the field is linear in them),
-    // the others are checked from scratch.
+        Ok(Point { set, result })
+    };
+    let prepare = |text: &str, name: &str, base: Option<&crate::Prepared>| {
+        crate::case::parse(text, name).map_err(Error::from).and_then(|c| match base {
+            Some(b) => crate::prepare_like(c, name, options, b),
+            None => crate::prepare(c, name, options),
+        })
+    };
+    let (set0, text0, name0) = point(first_combo)?;
+    let base = prepare(&text0, &name0, None).map_err(|e| fail(&set0, e))?;
     let solution = base.solve(&options.solve).map_err(|e| fail(&set0, e))?;
     let evaluated = base.evaluate(&solution, options).map_err(|e| fail(&set0, e))?;
-    let first = Point { set: set0, result: base.report_of(&solution, &evaluated, 0.0) };
-    tick();
+    let first_result = base.report_of(&solution, &evaluated, 0.0);
+    let first = finish(*first_index, set0, &name0, &base, &solution, first_result)?;
+    // Every other point: potentials only — when its fixed potentials are a
+    // multiple of the first point's it takes that solution and self-check
+    // scaled (the field is linear in them); otherwise it is solved, and a
+    // point of the first point's geometry (values changed only) keeps its
+    // grid numbering and pattern (`prepare_like`).
+    let potentials_only = vary.iter().all(|v| is_potential_key(&v.key));
     let rest: Vec<Point> = combos[1..]
         .par_iter()
-        .map(|combo| {
+        .map(|(index, combo)| {
             let (set, text, name) = point(combo)?;
-            let prepared = crate::case::parse(&text, &name)
-                .map_err(Error::from)
-                .and_then(|c| crate::prepare(c, &name, options))
-                .map_err(|e| fail(&set, e))?;
-            let result = match prepared.potential_multiple_of(&base) {
-                Some(s) => prepared.report_scaled(&solution, evaluated.check.as_ref(), s, options),
-                None => prepared.solve(&options.solve).and_then(|sol| prepared.report(&sol, options, 0.0)),
+            let p = prepare(&text, &name, Some(&base)).map_err(|e| fail(&set, e))?;
+            let (sol, result) = match p.potential_multiple_of(&base).filter(|_| potentials_only) {
+                Some(s) => {
+                    let sol = p.scaled_solution(&solution, s);
+                    let check = SelfCheck::Given(evaluated.check.as_ref().map(|c| Box::new(c.scaled(s))));
+                    let e = p.evaluate_with(&sol, options, check);
+                    e.map(|e| {
+                        let r = p.report_of(&sol, &e, 0.0);
+                        (sol, r)
+                    })
+                }
+                None => p.solve(&options.solve).and_then(|sol| p.report(&sol, options, 0.0).map(|r| (sol, r))),
             }
             .map_err(|e| fail(&set, e))?;
-            tick();
-            Ok(Point { set, result })
+            finish(*index, set, &name, &p, &sol, result)
         })
         .collect::<Result<_, _>>()?;
     Ok(std::iter::once(first).chain(rest).collect())
