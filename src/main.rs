@@ -169,6 +169,16 @@ enum Command {
         /// No progress bar.
         #[arg(long)]
         quiet: bool,
+        /// A seeded random tolerance study: this many points, each drawing
+        /// every `KEY=±T%` band uniformly within nominal·(1 ± T) (every
+        /// --vary must be a band); `--format json` then adds
+        /// `samples: {count, seed, distribution}`.
+        #[arg(long, value_parser = clap::value_parser!(u32).range(1..=hvstack::study::MAX_POINTS as i64))]
+        samples: Option<u32>,
+        /// Seed of the random study (the same seed gives the same points on
+        /// every machine).
+        #[arg(long, default_value_t = 1, requires = "samples")]
+        seed: u64,
         /// Write a review folder here: plots (SVG and PNG) of peak field,
         /// margin, partial-discharge inception and allowable level against
         /// each varied key with the limits dashed, every point's review
@@ -414,6 +424,7 @@ struct SweepOptions {
     shard: Option<(usize, usize)>,
     quiet: bool,
     report: Option<PathBuf>,
+    sampling: Option<hvstack::study::Sampling>,
 }
 
 /// Writes a sweep's plots and index into a staged review folder and moves
@@ -437,10 +448,15 @@ fn sweep(path: &Path, vary: &[String], o: &SweepOptions) -> ExitCode {
         Ok(t) => t,
         Err(e) => return refuse(&e),
     };
-    let vary = match hvstack::study::resolve(&text, &file, &vary) {
-        Ok(v) => v,
-        Err(e) => return refuse(&e.to_string()),
+    let resolved = match o.sampling {
+        Some(sampling) => hvstack::study::resolve_random(&text, &file, &vary, sampling),
+        None => hvstack::study::resolve(&text, &file, &vary),
     };
+    let vary = match resolved {
+        Ok(v) => v,
+        Err(e) => return refuse(&format!("hvstack sweep: {e}")),
+    };
+    let design = if o.sampling.is_some() { hvstack::study::Design::Zip } else { hvstack::study::Design::Grid };
     let mut options = hvstack::Options::default();
     options.limits.max_nodes = max_nodes;
     let pool = match rayon::ThreadPoolBuilder::new().num_threads(jobs as usize).build() {
@@ -448,7 +464,10 @@ fn sweep(path: &Path, vary: &[String], o: &SweepOptions) -> ExitCode {
         Err(e) => return refuse(&format!("hvstack: cannot start {jobs} jobs: {e}")),
     };
     // indicatif draws only on a terminal (stderr), so pipes and CI stay clean
-    let total: usize = vary.iter().map(|v| v.values.len()).product();
+    let total: usize = match o.sampling {
+        Some(sampling) => sampling.samples,
+        None => vary.iter().map(|v| v.values.len()).product(),
+    };
     let total = shard.map_or(total, |(i, n)| total / n + usize::from(i <= total % n));
     let bar = if quiet { indicatif::ProgressBar::hidden() } else { indicatif::ProgressBar::new(total as u64) };
     let tick = || bar.inc(1);
@@ -460,7 +479,8 @@ fn sweep(path: &Path, vary: &[String], o: &SweepOptions) -> ExitCode {
         Some(st) => st.write(&hvstack::review::point_folder(k), &files),
         None => Ok(()),
     };
-    let run = hvstack::study::Run { shard, progress: Some(&tick), review: staging.as_ref().map(|_| &keep as _) };
+    let run =
+        hvstack::study::Run { shard, design, progress: Some(&tick), review: staging.as_ref().map(|_| &keep as _) };
     let points = pool.install(|| hvstack::study::sweep_shard(&text, &file, &vary, &options, &run));
     bar.finish_and_clear();
     let points = match points {
@@ -471,6 +491,13 @@ fn sweep(path: &Path, vary: &[String], o: &SweepOptions) -> ExitCode {
         Ok(v) => v,
         Err(e) => return refuse(&format!("hvstack sweep: {e}")),
     };
+    if let Some(sampling) = o.sampling {
+        value["samples"] = serde_json::json!({
+            "count": sampling.samples,
+            "seed": sampling.seed,
+            "distribution": "uniform within nominal·(1 ± T)",
+        });
+    }
     if let Some((i, n)) = shard {
         value["shard"] = serde_json::json!({ "index": i, "count": n });
     }
@@ -558,9 +585,10 @@ fn main() -> ExitCode {
             }
             (Err(e), _) | (_, Err(e)) => refuse(&e),
         },
-        Command::Sweep { case, vary, format, max_nodes, jobs, fail_on, shard, quiet, report } => {
+        Command::Sweep { case, vary, format, max_nodes, jobs, fail_on, shard, quiet, report, samples, seed } => {
             let max_nodes = usize::try_from(max_nodes).unwrap_or(hvstack::grid::MAX_SUPPORTED_NODES);
-            let o = SweepOptions { format, max_nodes, jobs, fail_on: fail_on.into(), shard, quiet, report };
+            let sampling = samples.map(|n| hvstack::study::Sampling { samples: n as usize, seed });
+            let o = SweepOptions { format, max_nodes, jobs, fail_on: fail_on.into(), shard, quiet, report, sampling };
             sweep(&case, &vary, &o)
         }
         Command::SweepCombine { shards, format, report } => {

@@ -305,3 +305,59 @@ fn a_sweep_review_folder_has_plots_and_every_points_page() {
     assert_eq!(refused.status.code(), Some(2));
     assert_eq!(std::fs::read_to_string(&case).unwrap(), FILM_AND_GAP);
 }
+
+/// `--samples N --seed S`: a seeded random tolerance study; the same seed
+/// gives the same points (ChaCha8, reproducible by rand's guarantee),
+/// every draw lies in its band, shards combine into the whole, and a
+/// listed key is refused (exit 2).
+#[test]
+fn a_random_tolerance_study_repeats_with_its_seed() {
+    let dir = tempfile::tempdir().unwrap();
+    let case = dir.path().join("film.yaml");
+    std::fs::write(&case, FILM_AND_GAP).unwrap();
+    let c = case.to_str().unwrap();
+    let args =
+        ["sweep", c, "--vary", "stack.layers[1].thickness=±20%", "--samples", "6", "--seed", "5", "--format", "json"];
+    let run = |extra: &[&str]| {
+        let out = hvstack(&[&args[..], extra].concat());
+        assert!(out.status.code() != Some(2), "{}", String::from_utf8_lossy(&out.stderr));
+        serde_json::from_slice::<serde_json::Value>(&out.stdout).unwrap()
+    };
+    let a = run(&[]);
+    assert_eq!(a, run(&[]));
+    assert_eq!(a["samples"]["count"], 6);
+    let points = a["points"].as_array().unwrap();
+    assert_eq!(points.len(), 6);
+    for p in points {
+        let t = p["set"]["stack.layers[1].thickness"].as_f64().unwrap();
+        assert!((0.04..=0.06).contains(&t), "{t}");
+    }
+    let other = hvstack(&[
+        "sweep",
+        c,
+        "--vary",
+        "stack.layers[1].thickness=±20%",
+        "--samples",
+        "6",
+        "--seed",
+        "6",
+        "--format",
+        "json",
+    ]);
+    assert_ne!(serde_json::from_slice::<serde_json::Value>(&other.stdout).unwrap()["vary"], a["vary"]);
+    let mut files = Vec::new();
+    for i in 1..=2 {
+        let f = dir.path().join(format!("r{i}.json"));
+        std::fs::write(&f, serde_json::to_vec(&run(&["--shard", &format!("{i}/2")])).unwrap()).unwrap();
+        files.push(f.to_str().unwrap().to_string());
+    }
+    let combined = hvstack(&["sweep-combine", &files[0], &files[1], "--format", "json"]);
+    let combined: serde_json::Value = serde_json::from_slice(&combined.stdout).unwrap();
+    assert_eq!(combined["samples"], a["samples"]);
+    let sets =
+        |v: &serde_json::Value| v["points"].as_array().unwrap().iter().map(|p| p["set"].clone()).collect::<Vec<_>>();
+    assert_eq!(sets(&combined), sets(&a));
+    let listed = hvstack(&["sweep", c, "--vary", "stack.voltage_kv=1,2", "--samples", "3"]);
+    assert_eq!(listed.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&listed.stderr).contains("tolerance bands only"));
+}

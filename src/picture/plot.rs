@@ -14,6 +14,10 @@ pub enum SeriesKind {
     Data,
     /// A limit the figure is judged against: dashed, no markers.
     Limit,
+    /// Scattered points (a random study): markers only.
+    Points,
+    /// A limit at scattered points: a short dash at each.
+    LimitPoints,
 }
 
 /// One series: points (x, y) in plot units; a non-finite y breaks the line.
@@ -173,8 +177,25 @@ pub fn render(plot: &Plot) -> String {
         if s.kind == SeriesKind::Limit {
             path = path.set("stroke-dasharray", "6 4");
         }
-        doc = doc.add(path);
-        if s.kind == SeriesKind::Data {
+        match s.kind {
+            SeriesKind::Data | SeriesKind::Limit => doc = doc.add(path),
+            SeriesKind::Points => {}
+            SeriesKind::LimitPoints => {
+                for p in s.points.iter().filter(|p| p[1].is_finite()) {
+                    let (x, y) = (round1(px(p[0])), round1(py(p[1])));
+                    doc = doc.add(
+                        Line::new()
+                            .set("x1", x - 5.0)
+                            .set("x2", x + 5.0)
+                            .set("y1", y)
+                            .set("y2", y)
+                            .set("stroke", c)
+                            .set("stroke-width", 2),
+                    );
+                }
+            }
+        }
+        if matches!(s.kind, SeriesKind::Data | SeriesKind::Points) {
             for p in s.points.iter().filter(|p| p[1].is_finite()) {
                 doc = doc.add(
                     Circle::new().set("cx", round1(px(p[0]))).set("cy", round1(py(p[1]))).set("r", 2.8).set("fill", c),
@@ -182,13 +203,25 @@ pub fn render(plot: &Plot) -> String {
             }
         }
         let y = TOP + 8.0 + 18.0 * k as f64;
-        let mut key =
-            Line::new().set("x1", LEGEND_X).set("x2", LEGEND_X + 22.0).set("y1", y).set("y2", y).set("stroke", c);
-        key = key.set("stroke-width", 1.8);
-        if s.kind == SeriesKind::Limit {
-            key = key.set("stroke-dasharray", "6 4");
+        if s.kind == SeriesKind::Points {
+            doc = doc.add(Circle::new().set("cx", LEGEND_X + 11.0).set("cy", y).set("r", 2.8).set("fill", c));
+        } else {
+            let mut key = Line::new()
+                .set("x1", LEGEND_X)
+                .set("x2", LEGEND_X + 22.0)
+                .set("y1", y)
+                .set("y2", y)
+                .set("stroke", c)
+                .set("stroke-width", 1.8);
+            if s.kind == SeriesKind::Limit {
+                key = key.set("stroke-dasharray", "6 4");
+            }
+            if s.kind == SeriesKind::LimitPoints {
+                key = key.set("x1", LEGEND_X + 6.0).set("x2", LEGEND_X + 16.0).set("stroke-width", 2);
+            }
+            doc = doc.add(key);
         }
-        doc = doc.add(key).add(text(LEGEND_X + 28.0, y + 4.0, 11.0, &elide(&s.label)));
+        doc = doc.add(text(LEGEND_X + 28.0, y + 4.0, 11.0, &elide(&s.label)));
     }
     doc.to_string()
 }

@@ -107,10 +107,20 @@ pub fn render_table(sweep: &Value) -> String {
     let head_refs: Vec<&str> = head.iter().map(String::as_str).collect();
     let numeric: Vec<usize> = (0..head.len()).filter(|&k| k > nkeys).collect();
     let mut out = format!(
-        "hvstack sweep — {} point(s) of {}\n\n",
+        "hvstack sweep — {} point(s) of {}\n",
         points.len(),
         points.first().and_then(|p| p["result"]["title"].as_str()).unwrap_or("")
     );
+    let samples = &sweep["samples"];
+    if !samples.is_null() {
+        out.push_str(&format!(
+            "random study: {} points, each key drawn {} (seed {})\n",
+            samples["count"],
+            samples["distribution"].as_str().unwrap_or(""),
+            samples["seed"]
+        ));
+    }
+    out.push('\n');
     out.push_str(&super::text::table(&head_refs, rows.clone(), &numeric));
     if points.len() > 1 {
         out.push_str(&worst_and_spread(sweep, &head, &rows));
@@ -226,6 +236,11 @@ pub fn plots(sweep: &Value) -> Vec<(String, Plot)> {
                 .collect::<Vec<_>>()
                 .join(", ")
         };
+        // a random study's points scatter: one group, markers only
+        let random = !sweep["samples"].is_null();
+        let group_of = |p: &Value| if random { String::new() } else { group_of(p) };
+        let data = if random { SeriesKind::Points } else { SeriesKind::Data };
+        let limit = if random { SeriesKind::LimitPoints } else { SeriesKind::Limit };
         let mut groups: Vec<String> = Vec::new();
         for p in points {
             let g = group_of(p);
@@ -287,21 +302,21 @@ pub fn plots(sweep: &Value) -> Vec<(String, Plot)> {
         let mut pd = Vec::new();
         for (c, n) in names.iter().enumerate() {
             let gas = points.iter().any(|p| part_field(n, "pd_inception_kv")(&p["result"]).is_some());
-            peak.extend(series(n, c, SeriesKind::Data, &part_field(n, "e_max_judged_kv_per_mm")));
+            peak.extend(series(n, c, data, &part_field(n, "e_max_judged_kv_per_mm")));
             let strength = part_field(n, "strength_kv_per_mm");
-            let limit = |r: &Value| Some(strength(r)? / r["safety_factor"].as_f64()?);
-            if !gas && points.iter().any(|p| limit(&p["result"]).is_some()) {
-                peak.extend(series(&format!("{n}: strength / safety factor"), c, SeriesKind::Limit, &limit));
+            let allowed = |r: &Value| Some(strength(r)? / r["safety_factor"].as_f64()?);
+            if !gas && points.iter().any(|p| allowed(&p["result"]).is_some()) {
+                peak.extend(series(&format!("{n}: strength / safety factor"), c, limit, &allowed));
             }
             if points.iter().any(|p| part_field(n, "margin")(&p["result"]).is_some()) {
-                margin.extend(series(n, c, SeriesKind::Data, &part_field(n, "margin")));
+                margin.extend(series(n, c, data, &part_field(n, "margin")));
             }
             if gas {
-                pd.extend(series(n, c, SeriesKind::Data, &part_field(n, "pd_inception_kv")));
+                pd.extend(series(n, c, data, &part_field(n, "pd_inception_kv")));
             }
         }
         let sf = |r: &Value| r["safety_factor"].as_f64();
-        margin.extend(series("safety factor", names.len(), SeriesKind::Limit, &sf));
+        margin.extend(series("safety factor", names.len(), limit, &sf));
         for list in [&mut peak, &mut margin, &mut pd] {
             dedupe_limits(list);
         }
@@ -309,14 +324,14 @@ pub fn plots(sweep: &Value) -> Vec<(String, Plot)> {
         out.push((format!("plot-{stem}-margin"), plot("Margin (strength / judged peak)", "margin".into(), margin)));
         if !pd.is_empty() {
             let needed = |r: &Value| Some(working(r)? * r["pd_inception_margin"].as_f64()?);
-            pd.extend(series("working level × inception margin", names.len(), SeriesKind::Limit, &needed));
+            pd.extend(series("working level × inception margin", names.len(), limit, &needed));
             out.push((
                 format!("plot-{stem}-pd-inception"),
                 plot("Partial-discharge inception", format!("kV {values}"), pd),
             ));
         }
-        let mut allowable = series("allowable level", 0, SeriesKind::Data, &|r: &Value| r["allowable_kv"].as_f64());
-        allowable.extend(series("working level", 1, SeriesKind::Limit, &working));
+        let mut allowable = series("allowable level", 0, data, &|r: &Value| r["allowable_kv"].as_f64());
+        allowable.extend(series("working level", 1, limit, &working));
         dedupe_limits(&mut allowable);
         out.push((format!("plot-{stem}-allowable"), plot("Allowable level", format!("kV {values}"), allowable)));
     }
@@ -328,10 +343,9 @@ pub fn plots(sweep: &Value) -> Vec<(String, Plot)> {
 fn dedupe_limits(list: &mut Vec<Series>) {
     let mut kept: Vec<Series> = Vec::new();
     for s in list.drain(..) {
-        match kept
-            .iter_mut()
-            .find(|k| k.kind == SeriesKind::Limit && s.kind == SeriesKind::Limit && k.points == s.points)
-        {
+        match kept.iter_mut().find(|k| {
+            k.kind == s.kind && matches!(s.kind, SeriesKind::Limit | SeriesKind::LimitPoints) && k.points == s.points
+        }) {
             Some(k) => {
                 if let Some((head, _)) = k.label.split_once(", ") {
                     k.label = head.to_string();

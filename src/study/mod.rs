@@ -194,6 +194,67 @@ pub fn resolve(text: &str, file: &str, vary: &[Vary]) -> Result<Vec<Vary>, Study
         .collect()
 }
 
+/// A seeded random tolerance study: `samples` points, each drawing every
+/// toleranced key independently.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Sampling {
+    /// Points drawn.
+    pub samples: usize,
+    /// Seed of the ChaCha8 stream.
+    pub seed: u64,
+}
+
+/// How the points of a sweep are formed from the varied values.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Design {
+    /// Every combination, the first key slowest.
+    #[default]
+    Grid,
+    /// Point k takes the k-th value of every key (a random study's draws).
+    Zip,
+}
+
+/// Draws `sampling.samples` values for every tolerance band, uniform within
+/// nominal·(1 ± T) (T the band's fraction, nominal the case's own value),
+/// rounded to 6 significant digits; point k of the study (`Design::Zip`)
+/// takes draw k of every key. The numbers come from ChaCha8 seeded with
+/// `sampling.seed` (a stream rand guarantees across versions and machines),
+/// each a 53-bit fraction of one 64-bit output, draw k of key j being
+/// output k·keys + j: the same seed gives the same study everywhere.
+pub fn resolve_random(text: &str, file: &str, vary: &[Vary], sampling: Sampling) -> Result<Vec<Vary>, StudyError> {
+    use rand::{Rng, SeedableRng};
+    if let Some(v) = vary.iter().find(|v| v.tolerance.is_none()) {
+        return Err(StudyError::BadVary {
+            arg: v.key.clone(),
+            why: "a random study (--samples) varies tolerance bands only: give KEY=±T%".into(),
+        });
+    }
+    if sampling.samples == 0 || sampling.samples > MAX_POINTS {
+        return Err(StudyError::TooManyPoints { points: sampling.samples });
+    }
+    let nominal = resolve(text, file, vary)?;
+    let mut rng = rand::rngs::ChaCha8Rng::seed_from_u64(sampling.seed);
+    let mut values: Vec<Vec<serde_json::Value>> = vec![Vec::with_capacity(sampling.samples); vary.len()];
+    for _ in 0..sampling.samples {
+        for (j, v) in vary.iter().enumerate() {
+            let u = (rng.next_u64() >> 11) as f64 / (1u64 << 53) as f64;
+            let x = nominal[j].values[1].as_f64().unwrap_or(f64::NAN);
+            let t = v.tolerance.unwrap_or(0.0);
+            values[j].push(number(significant_digits(x * (1.0 + t * (2.0 * u - 1.0)), 6)));
+        }
+    }
+    Ok(vary.iter().zip(values).map(|(v, values)| Vary { key: v.key.clone(), values, tolerance: None }).collect())
+}
+
+/// `x` rounded to `digits` significant digits.
+fn significant_digits(x: f64, digits: i32) -> f64 {
+    if x == 0.0 || !x.is_finite() {
+        return x;
+    }
+    let scale = 10f64.powi(digits - 1 - x.abs().log10().floor() as i32);
+    (x * scale).round() / scale
+}
+
 /// A JSON number, whole numbers without a fraction (so `3` stays `3`).
 fn number(x: f64) -> serde_json::Value {
     // rounding residue of start + t·(stop − start) below 1e-12 relative
@@ -269,8 +330,14 @@ pub fn set_key(doc: &mut serde_yaml::Value, key: &str, value: &serde_json::Value
     Ok(())
 }
 
-/// The combinations of the varied values, first key slowest.
-fn combinations(vary: &[Vary]) -> Vec<Vec<usize>> {
+/// The points of the varied values: every combination, first key slowest
+/// (`Design::Grid`), or the k-th value of every key (`Design::Zip`, keys of
+/// one length).
+fn combinations(vary: &[Vary], design: Design) -> Vec<Vec<usize>> {
+    if design == Design::Zip {
+        let n = vary.iter().map(|v| v.values.len()).min().unwrap_or(0);
+        return (0..n).map(|k| vec![k; vary.len()]).collect();
+    }
     let mut out = vec![Vec::new()];
     for v in vary {
         out = out.into_iter().flat_map(|c| (0..v.values.len()).map(move |k| [c.clone(), vec![k]].concat())).collect();
@@ -300,6 +367,8 @@ pub struct Run<'a> {
     /// Slice `I` of `N` (1 ≤ I ≤ N): every N-th point from the I-th;
     /// `None`: every point.
     pub shard: Option<(usize, usize)>,
+    /// How the points are formed from the values.
+    pub design: Design,
     /// Called once per point evaluated.
     pub progress: Option<&'a (dyn Fn() + Sync)>,
     /// When given, each point's review files are built and handed to it
@@ -336,8 +405,12 @@ pub fn sweep_shard(
             why: "no values (a tolerance band is resolved first: `study::resolve`)".into(),
         });
     }
-    let points: usize =
-        vary.iter().map(|v| v.values.len()).try_fold(1usize, |a, n| a.checked_mul(n)).unwrap_or(usize::MAX);
+    let points: usize = match run.design {
+        Design::Grid => {
+            vary.iter().map(|v| v.values.len()).try_fold(1usize, |a, n| a.checked_mul(n)).unwrap_or(usize::MAX)
+        }
+        Design::Zip => vary.iter().map(|v| v.values.len()).min().unwrap_or(0),
+    };
     if points > MAX_POINTS {
         return Err(StudyError::TooManyPoints { points });
     }
@@ -352,8 +425,10 @@ pub fn sweep_shard(
     }
     // each point with its index in the whole sweep (its review folder's name)
     let combos: Vec<(usize, Vec<usize>)> = match shard {
-        Some((i, n)) => combinations(vary).into_iter().enumerate().filter(|(k, _)| k % n == i - 1).collect(),
-        None => combinations(vary).into_iter().enumerate().collect(),
+        Some((i, n)) => {
+            combinations(vary, run.design).into_iter().enumerate().filter(|(k, _)| k % n == i - 1).collect()
+        }
+        None => combinations(vary, run.design).into_iter().enumerate().collect(),
     };
     let Some((first_index, first_combo)) = combos.first() else { return Ok(Vec::new()) };
     // the text and name of each point
@@ -452,7 +527,7 @@ pub fn combine_shards(shards: &[(String, serde_json::Value)]) -> Result<serde_js
         if n as usize != count {
             return Err(format!("{name}: a shard of {n}, the others of {count}"));
         }
-        if s["vary"] != first["vary"] {
+        if s["vary"] != first["vary"] || s["samples"] != first["samples"] {
             return Err(format!("{name}: a shard of a different sweep (its `vary` differs from {first_name}'s)"));
         }
         let slot =
@@ -476,7 +551,11 @@ pub fn combine_shards(shards: &[(String, serde_json::Value)]) -> Result<serde_js
         let p = lists[k % count].get(k / count).ok_or_else(|| format!("shard {} has too few points", k % count + 1))?;
         points.push(p.clone());
     }
-    Ok(serde_json::json!({ "vary": first["vary"], "points": points }))
+    let mut whole = serde_json::json!({ "vary": first["vary"], "points": points });
+    if !first["samples"].is_null() {
+        whole["samples"] = first["samples"].clone();
+    }
+    Ok(whole)
 }
 
 /// The value of each varied key at one point.
@@ -531,6 +610,32 @@ mod tests {
     }
 
     #[test]
+    fn random_draws_stay_in_the_band_and_repeat_with_the_seed() {
+        let text = "stack: { layers: [ { thickness: 2 }, { thickness: 1 } ] }\n";
+        let vary = [
+            parse_vary("stack.layers[0].thickness=±10%").unwrap(),
+            parse_vary("stack.layers[1].thickness=±5%").unwrap(),
+        ];
+        let draw = |seed| resolve_random(text, "t.yaml", &vary, Sampling { samples: 200, seed }).unwrap();
+        let a = draw(7);
+        assert_eq!(a, draw(7));
+        assert_ne!(a, draw(8));
+        let x: Vec<f64> = a[0].values.iter().map(|v| v.as_f64().unwrap()).collect();
+        assert!(x.iter().all(|v| (1.8..=2.2).contains(v)), "{x:?}");
+        // uniform: the mean of 200 draws within ±0.04 of 2 (4 standard
+        // errors: σ = 0.2/√3, common practice)
+        let mean = x.iter().sum::<f64>() / 200.0;
+        assert!((mean - 2.0).abs() < 0.04, "{mean}");
+        // both halves of the band are drawn
+        assert!(x.iter().any(|v| *v < 1.9) && x.iter().any(|v| *v > 2.1));
+        let y: Vec<f64> = a[1].values.iter().map(|v| v.as_f64().unwrap()).collect();
+        assert!(y.iter().all(|v| (0.95..=1.05).contains(v)));
+        // a listed key is refused
+        let listed = [parse_vary("stack.layers[0].thickness=1,2").unwrap()];
+        assert!(resolve_random(text, "t.yaml", &listed, Sampling { samples: 3, seed: 1 }).is_err());
+    }
+
+    #[test]
     fn combinations_run_first_key_slowest() {
         let v = |n: usize| Vary {
             key: "k".into(),
@@ -538,7 +643,7 @@ mod tests {
             tolerance: None,
         };
         assert_eq!(
-            combinations(&[v(2), v(3)]),
+            combinations(&[v(2), v(3)], Design::Grid),
             vec![vec![0, 0], vec![0, 1], vec![0, 2], vec![1, 0], vec![1, 1], vec![1, 2]]
         );
     }
