@@ -10,7 +10,6 @@ use cli::output::{self, Staging};
 use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
-use std::time::Instant;
 
 /// Electrostatic screening of insulation cross-sections.
 ///
@@ -249,35 +248,25 @@ fn refuse(message: &str) -> ExitCode {
     ExitCode::from(2)
 }
 
-type ReviewFiles = Vec<hvstack::review::ReviewFile>;
-
 /// Reads, evaluates and reports one case, with its review files when
 /// asked; errors come back as the message to print (exit status 2).
-fn run_case(
-    path: &Path,
-    max_nodes: usize,
-    review: bool,
-) -> Result<(hvstack::report::CheckReport, Option<ReviewFiles>), String> {
-    let file = shown(path);
+fn run_case(path: &Path, max_nodes: usize, review: bool) -> Result<hvstack::study::batch::Checked, String> {
     let bytes = input::read_regular(path, "case")?;
-    let text = hvstack::case::decode(&bytes, &file).map_err(|e| e.to_string())?;
+    let run = hvstack::study::batch::CheckRun { review, clock: Some(&seconds) };
+    hvstack::study::batch::check_bytes(&bytes, &shown(path), &options_with(max_nodes), run)
+}
+
+/// Seconds since the first call (the library's clock for solve times).
+fn seconds() -> f64 {
+    static START: std::sync::OnceLock<std::time::Instant> = std::sync::OnceLock::new();
+    START.get_or_init(std::time::Instant::now).elapsed().as_secs_f64()
+}
+
+/// The default options with a node limit.
+fn options_with(max_nodes: usize) -> hvstack::Options {
     let mut options = hvstack::Options::default();
     options.limits.max_nodes = max_nodes;
-    let case = hvstack::case::parse(&text, &file).map_err(|e| e.to_string())?;
-    let prepared = hvstack::prepare(case, &file, &options).map_err(|e| e.to_string())?;
-    let started = Instant::now();
-    let solution = prepared.solve(&options.solve).map_err(|e| e.to_string())?;
-    let seconds = started.elapsed().as_secs_f64();
-    let report = prepared.report(&solution, &options, seconds).map_err(|e| e.to_string())?;
-    let files = if review {
-        Some(
-            hvstack::review::files(&prepared, &solution, &report, &file)
-                .map_err(|e| format!("{file}: cannot build the review files: {e}"))?,
-        )
-    } else {
-        None
-    };
-    Ok((report, files))
+    options
 }
 
 /// A result as JSON: read from a .json file (which must be an hvstack
@@ -317,7 +306,6 @@ struct BatchOptions {
 
 fn batch(paths: &[PathBuf], o: &BatchOptions) -> ExitCode {
     use hvstack::report::summary;
-    use rayon::prelude::*;
     let entries = match input::collect(paths) {
         Ok(f) => f,
         Err(e) => return refuse(&e),
@@ -349,59 +337,48 @@ fn batch(paths: &[PathBuf], o: &BatchOptions) -> ExitCode {
         Ok(p) => p,
         Err(e) => return refuse(&format!("hvstack: cannot start {} jobs: {e}", o.jobs)),
     };
-    // Cases run in parallel; results come back in file order. Review files
-    // go to disk as each case ends, so a batch holds one case's at a time.
-    let done: Vec<(summary::SummaryRow, Option<String>)> = pool.install(|| {
-        entries
-            .par_iter()
-            .map(|entry| {
-                let out = match entry {
-                    Entry::Refused(f, why) => {
-                        let name = shown(f);
-                        (summary::error_row(&name, &format!("{name}: {why}")), None)
-                    }
-                    Entry::Case(f, key) => {
-                        let name = shown(f);
-                        match run_case(f, o.max_nodes, staging.is_some()) {
-                            Ok((r, review)) => match (&staging, review) {
-                                (Some(st), Some(files)) => match st.write(key, &files) {
-                                    Ok(()) => (summary::row(&name, &r, o.fail_on), Some(key.clone())),
-                                    Err(e) => (summary::error_row(&name, &e), None),
-                                },
-                                _ => (summary::row(&name, &r, o.fail_on), None),
-                            },
-                            Err(e) => (summary::error_row(&name, &e), None),
-                        }
-                    }
-                };
-                bar.inc(1);
-                out
-            })
-            .collect()
-    });
+    let cases: Vec<hvstack::study::batch::BatchCase> = entries
+        .iter()
+        .map(|e| match e {
+            Entry::Case(p, key) => {
+                hvstack::study::batch::BatchCase { name: shown(p), folder: key.clone(), refused: None }
+            }
+            Entry::Refused(p, why) => {
+                hvstack::study::batch::BatchCase { name: shown(p), folder: String::new(), refused: Some(why.clone()) }
+            }
+        })
+        .collect();
+    let load = |k: usize| input::read_regular(&inputs[k], "case");
+    let keep = |k: usize, files: Vec<hvstack::review::ReviewFile>| match &staging {
+        Some(st) => st.write(&cases[k].folder, &files),
+        None => Ok(()),
+    };
+    let tick = || bar.inc(1);
+    let run = hvstack::study::batch::Batch {
+        fail_on: o.fail_on,
+        load: &load,
+        review: staging.as_ref().map(|_| &keep as _),
+        progress: Some(&tick),
+        clock: Some(&seconds),
+    };
+    let outcome = pool.install(|| hvstack::study::batch::batch(&cases, &options_with(o.max_nodes), &run));
     bar.finish_and_clear();
-    let (rows, links): (Vec<summary::SummaryRow>, Vec<Option<String>>) = done.into_iter().unzip();
-    if let Some(st) = staging {
-        let index = hvstack::report::html::render_batch(&rows, &links);
-        let page = hvstack::review::ReviewFile {
-            name: "index.html".into(),
-            what: "batch review page".into(),
-            bytes: index.into_bytes(),
-        };
-        if let Err(e) = st.write("", &[page]).and_then(|_| st.commit()) {
-            return refuse(&e);
-        }
+    if let Some(st) = staging
+        && let Err(e) = st.write("", &[outcome.index()]).and_then(|_| st.commit())
+    {
+        return refuse(&e);
     }
+    let rows = &outcome.rows;
     if let Some(path) = &o.junit
-        && let Err(e) = output::write_junit(path, &inputs, o.report.as_deref(), &summary::junit_xml(&rows))
+        && let Err(e) = output::write_junit(path, &inputs, o.report.as_deref(), &summary::junit_xml(rows))
     {
         return refuse(&e);
     }
     let code = emit(&match o.format {
-        Format::Text => summary::render_summary(&rows),
-        Format::Json => json(&rows),
+        Format::Text => summary::render_summary(rows),
+        Format::Json => json(rows),
     });
-    if code != ExitCode::SUCCESS { code } else { ExitCode::from(summary::exit_status(&rows)) }
+    if code != ExitCode::SUCCESS { code } else { ExitCode::from(outcome.exit_status()) }
 }
 
 /// A sweep's JSON in the asked format.
@@ -457,8 +434,7 @@ fn sweep(path: &Path, vary: &[String], o: &SweepOptions) -> ExitCode {
         Err(e) => return refuse(&format!("hvstack sweep: {e}")),
     };
     let design = if o.sampling.is_some() { hvstack::study::Design::Zip } else { hvstack::study::Design::Grid };
-    let mut options = hvstack::Options::default();
-    options.limits.max_nodes = max_nodes;
+    let options = options_with(max_nodes);
     let pool = match rayon::ThreadPoolBuilder::new().num_threads(jobs as usize).build() {
         Ok(p) => p,
         Err(e) => return refuse(&format!("hvstack: cannot start {jobs} jobs: {e}")),
@@ -514,8 +490,7 @@ fn sweep(path: &Path, vary: &[String], o: &SweepOptions) -> ExitCode {
             return refuse(&format!("hvstack sweep: {e}"));
         }
     }
-    let status =
-        points.iter().map(|p| hvstack::report::summary::verdict_exit(p.result.verdict, fail_on)).max().unwrap_or(0);
+    let status = hvstack::study::exit_status(&points, fail_on);
     let code = emit(&out);
     if code != ExitCode::SUCCESS { code } else { ExitCode::from(status) }
 }

@@ -10,6 +10,8 @@
 //! still vary `environment.temperature_c`); a sequence index must exist.
 
 pub mod allowable;
+pub mod batch;
+pub mod selfcheck;
 
 use crate::report::CheckReport;
 use crate::{Error, Options, SelfCheck};
@@ -507,6 +509,12 @@ pub fn sweep_shard(
         })
         .collect::<Result<_, _>>()?;
     Ok(std::iter::once(first).chain(rest).collect())
+}
+
+/// A sweep's exit status: the worst of its points' under the policy
+/// (`report::summary::verdict_exit`).
+pub fn exit_status(points: &[Point], fail_on: crate::report::summary::FailOn) -> u8 {
+    points.iter().map(|p| crate::report::summary::verdict_exit(p.result.verdict, fail_on)).max().unwrap_or(0)
 }
 
 /// Interleaves the JSON of shards `1/N … N/N` of one sweep (each
