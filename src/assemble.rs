@@ -57,7 +57,7 @@ pub fn radial_weight(r1: f64, r2: f64) -> f64 {
 /// for the even r² behaviour every smooth potential has near the axis as
 /// well. With faces at the arithmetic midpoint the log form costs the scheme
 /// its second order next to the axis (observed order ≈ 1.6 instead of 2.0 on
-/// the point-charge test in `tests/numerics.rs`).
+/// the point-charge test in `tests/suite/numerics.rs`).
 pub fn face_radius(r1: f64, r2: f64) -> f64 {
     if r1 > 0.0 { ((r2 - r1) * (r1 + r2) / (2.0 * ((r2 - r1) / r1).ln_1p())).sqrt() } else { 0.5 * (r1 + r2) }
 }
@@ -646,6 +646,22 @@ impl Pattern {
                 b[k] += nodal[n];
             }
         }
+    }
+
+    /// The unknowns of a nodal potential (the inverse of `expand` on the
+    /// free nodes; a floating electrode's unknown is the mean over its
+    /// nodes): a starting guess from a potential known at every node.
+    pub fn restrict(&self, nodal: &[f64]) -> Vec<f64> {
+        let mut u = vec![0.0; self.unknowns()];
+        let mut count = vec![0u32; self.unknowns()];
+        for (n, d) in self.dofs.iter().enumerate() {
+            if let Dof::Unknown(k) = *d {
+                u[k] += nodal[n];
+                count[k] += 1;
+            }
+        }
+        u.iter_mut().zip(&count).for_each(|(v, &c)| *v /= f64::from(c.max(1)));
+        u
     }
 
     /// Nodal potentials from the solved unknowns and the fixed potentials.

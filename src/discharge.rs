@@ -144,9 +144,11 @@ fn seeds(sampler: &Sampler, own_cells: &[u32], peak: [f64; 2]) -> Vec<[f64; 2]> 
     cells.retain(|c| c.0 >= SEED_FIELD_FRACTION * strongest);
     // strongest first; fields equal within rounding (a uniform field) keep
     // grid order (the sort is stable), so the seeds do not depend on
-    // solver round-off
-    let rank = |e: f64| (e / strongest / TIE).round() as i64;
-    cells.sort_by_key(|c| std::cmp::Reverse(rank(c.0)));
+    // solver round-off. The bands are counted down from the strongest, so
+    // a uniform field's cells, all within rounding of it, share the first
+    // band (bands on a fixed scale would cut through them).
+    let rank = |e: f64| ((strongest - e) / (strongest * TIE)).floor() as i64;
+    cells.sort_by_key(|c| rank(c.0));
     let spacing = SEED_SPACING * (hi[0] - lo[0]).hypot(hi[1] - lo[1]);
     let mut out = vec![peak];
     for (_, p) in cells {

@@ -306,6 +306,13 @@ impl Prepared {
     /// Solves for the potential (and the dry reference, when the case has
     /// one, with the multigrid hierarchy of the first solve).
     pub fn solve(&self, config: &SolverConfig) -> Result<Solution, Error> {
+        self.solve_from(config, None)
+    }
+
+    /// [`Prepared::solve`] from a starting guess (a nodal potential on this
+    /// case's grid, e.g. a coarser grid's solution interpolated); DC
+    /// iterations start from their own capacitive field.
+    pub fn solve_from(&self, config: &SolverConfig, start: Option<&Start>) -> Result<Solution, Error> {
         let fail = |source| Error::Solve { file: self.file.clone(), source };
         if self.case.operation.mode == case::Mode::Dc {
             let inputs = conduction::Inputs {
@@ -322,13 +329,21 @@ impl Prepared {
             return Ok(Solution { phi, quadrature: None, report, reference: None, dc: Some(state) });
         }
         let mut solver = solve::Solver::new(&self.service.system.matrix, config);
+        let x0 = start.map(|s| self.pattern.restrict(&s.phi));
         let (u, quadrature, report) = match &self.service.lossy {
             None => {
-                let (u, report) = solver.solve(&self.service.system.rhs).map_err(fail)?;
+                let system = &self.service.system;
+                let (u, report) = solver.solve_from(&system.matrix, &system.rhs, x0.as_deref()).map_err(fail)?;
                 (u, None, report)
             }
             Some(lossy) => {
-                let (u, report) = solver.solve_complex(&lossy.matrix, &lossy.rhs, None).map_err(fail)?;
+                let x0 = x0.map(|re| {
+                    let im = start
+                        .and_then(|s| s.quadrature.as_deref())
+                        .map_or_else(|| vec![0.0; re.len()], |q| self.pattern.restrict(q));
+                    solve::ComplexVector { re, im }
+                });
+                let (u, report) = solver.solve_complex(&lossy.matrix, &lossy.rhs, x0.as_ref()).map_err(fail)?;
                 let (_, im) = self.pattern.expand_phasor(&u, &self.potentials);
                 (u.re, Some(im), report)
             }
@@ -512,6 +527,7 @@ impl Prepared {
         let check = match check {
             SelfCheck::Given(c) => c.map(|c| *c),
             SelfCheck::Run => study::selfcheck::run(self, &f, &discharge, options),
+            SelfCheck::Solved(c) => Some(study::selfcheck::compare(self, &f, &discharge, &c)),
         };
         let assessment = assess::assess(&assess::Inputs {
             case: &self.case,
@@ -538,6 +554,23 @@ impl Prepared {
                 .collect()
         });
         Ok(Evaluated { fields: f, discharge, check, assessment, losses, dc, phase_deg })
+    }
+
+    /// Solves the self-check's coarser grids first (coarsest first, each
+    /// from the one before) and then this grid from the medium grid's
+    /// solution interpolated, so the fine solve starts close (full
+    /// multigrid's nesting); the self-check to evaluate the solution with
+    /// comes along (`SelfCheck::Given(None)` when a coarser grid could not
+    /// be solved).
+    pub fn solve_nested(&self, options: &Options) -> Result<(Solution, SelfCheck), Error> {
+        let coarser = study::selfcheck::solve_coarser(self, options);
+        let start = coarser.as_ref().map(|c| c.start_for(&self.grid));
+        let solution = self.solve_from(&options.solve, start.as_ref())?;
+        let check = match coarser {
+            Some(c) => SelfCheck::Solved(Box::new(c)),
+            None => SelfCheck::Given(None),
+        };
+        Ok((solution, check))
     }
 
     /// The result model; `seconds` is the solve time measured by the caller.
@@ -631,11 +664,22 @@ impl Prepared {
     }
 }
 
+/// A starting guess for a solve: a nodal potential on the case's grid.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Start {
+    /// Nodal potential (the in-phase part of an AC phasor), V.
+    pub phi: Vec<f64>,
+    /// AC with losses: the quadrature part, V.
+    pub quadrature: Option<Vec<f64>>,
+}
+
 /// Where an evaluation's mesh self-check comes from.
 #[derive(Debug, Clone)]
 pub enum SelfCheck {
-    /// Solved again on the coarser grids (`Prepared::self_check`).
+    /// Solved again on the coarser grids (`study::selfcheck::run`).
     Run,
+    /// The coarser grids were solved before the fine grid (`solve_nested`).
+    Solved(Box<study::selfcheck::Coarser>),
     /// Given: a sweep point whose potentials are a multiple of an evaluated
     /// point's takes that point's check, scaled (`None`: it could not run).
     Given(Option<Box<meshcheck::MeshCheck>>),
@@ -665,6 +709,7 @@ pub struct Evaluated {
 pub fn check(text: &str, file: &str, options: &Options) -> Result<report::CheckReport, Error> {
     let case = case::parse(text, file)?;
     let prepared = prepare(case, file, options)?;
-    let solution = prepared.solve(&options.solve)?;
-    prepared.report(&solution, options, 0.0)
+    let (solution, check) = prepared.solve_nested(options)?;
+    let e = prepared.evaluate_with(&solution, options, check)?;
+    Ok(prepared.report_of(&solution, &e, 0.0))
 }

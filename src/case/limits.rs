@@ -1,7 +1,7 @@
 //! What a case may hold: hard limits (beyond them a case is refused, exit
 //! status 2) and the ranges usual in insulation work (beyond them a case is
 //! evaluated but gets an `implausible-input` warning). README.md lists the
-//! same numbers; `tests/cli.rs` checks that it does.
+//! same numbers; `tests/suite/cli.rs` checks that it does.
 //!
 //! The hard limits keep memory and time bounded whatever the input, and
 //! keep numbers away from where floating point stops meaning anything (a

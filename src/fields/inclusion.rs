@@ -135,7 +135,7 @@ pub(super) type Candidate = (f64, [f64; 2], usize, f64);
 /// (κ − 1)·√(h/a), with κ the permittivity ratio across the outline (≥ 1),
 /// h the largest grid step over the inclusion and a its half-width.
 /// Measured against the closed forms of circular and spherical inclusions
-/// in a uniform field (`tests/curved.rs`, κ from 1.4 to 27, 8 to 32 cells
+/// in a uniform field (`tests/suite/curved.rs`, κ from 1.4 to 27, 8 to 32 cells
 /// per radius; largest ratios seen 0.27 % for inclusions of lower
 /// permittivity than their surroundings and 0.88 % for higher), with
 /// margin.

@@ -7,7 +7,7 @@ use crate::shape::dist;
 /// Error floor of peaks on curved electrode surfaces: the surface recovery
 /// settles about 0.3–0.4 % high under refinement (conducting cylinder and
 /// sphere in a uniform field, 16 to 64 cells per radius, domains 80 to
-/// 400 radii; `tests/curved.rs`), which differences between grids do not
+/// 400 radii; `tests/suite/curved.rs`), which differences between grids do not
 /// reveal. The self-check never reports less.
 pub(super) const SURFACE_FLOOR: f64 = 0.005;
 

@@ -290,6 +290,35 @@ impl Grid {
         (self.nx() - 1) * (self.ny() - 1)
     }
 
+    /// Values at this grid's nodes, interpolated bilinearly from `values`
+    /// at the nodes of `other` (a grid of the same domain: the self-check's
+    /// coarser grids); nodes outside `other` take its nearest edge.
+    pub fn interpolate_from(&self, other: &Grid, values: &[f64]) -> Vec<f64> {
+        // for each coordinate: the cell of `other` and the weight of its upper node
+        let locate = |along: &[f64], at: &[f64]| -> Vec<(usize, f64)> {
+            at.iter()
+                .map(|&v| {
+                    let k = along.partition_point(|&c| c <= v).clamp(1, along.len().max(2) - 1) - 1;
+                    let (a, b) = (along[k], along[(k + 1).min(along.len() - 1)]);
+                    let t = if b > a { ((v - a) / (b - a)).clamp(0.0, 1.0) } else { 0.0 };
+                    (k, t)
+                })
+                .collect()
+        };
+        let (xs, ys) = (locate(&other.x, &self.x), locate(&other.y, &self.y));
+        let (onx, ony) = (other.nx(), other.ny());
+        let at = |i: usize, j: usize| values[j.min(ony - 1) * onx + i.min(onx - 1)];
+        let mut out = Vec::with_capacity(self.nodes());
+        for &(j, ty) in &ys {
+            for &(i, tx) in &xs {
+                let lower = at(i, j) * (1.0 - tx) + at(i + 1, j) * tx;
+                let upper = at(i, j + 1) * (1.0 - tx) + at(i + 1, j + 1) * tx;
+                out.push(lower * (1.0 - ty) + upper * ty);
+            }
+        }
+        out
+    }
+
     /// Node at column i, row j.
     pub fn node(&self, i: usize, j: usize) -> NodeIx {
         NodeIx(j * self.nx() + i)

@@ -20,7 +20,7 @@ const CURVED_REFINEMENT: f64 = 3.0;
 /// falls off over a fraction of the radius — with 8 cells per radius the
 /// recovery misses that curvature (−0.9 % on a cylinder, −2.5 % on a
 /// sphere), with 16 it is within 0.5 %, with 24 within 0.1 %
-/// (`tests/curved.rs`). Only the arcs are refined, so a large part with
+/// (`tests/suite/curved.rs`). Only the arcs are refined, so a large part with
 /// small rounded corners does not refine its whole extent. Curved
 /// dielectric parts are not refined: doing so doubled the nodes around a
 /// void and moved its peak by under 0.05 %. The step follows the grid's
@@ -210,7 +210,7 @@ pub fn singular_points(case: &Case, grid: &Grid, layout: &Layout) -> Vec<Singula
 /// point is at most; from there the step grows geometrically. 32 brought
 /// the fields 2 mm from a 35 µm strip's edge on a board to within 0.7 % and
 /// its capacitance to 0.3 % of the converged values on the default grid
-/// (DEVELOPERS.md, Numerics in brief; `tests/singular.rs`).
+/// (DEVELOPERS.md, Numerics in brief; `tests/suite/singular.rs`).
 pub const SINGULAR_GRADING: f64 = 32.0;
 
 /// Largest growth of the node count that grading may cost: where the

@@ -477,8 +477,8 @@ pub fn sweep_shard(
     };
     let (set0, text0, name0) = point(first_combo)?;
     let base = prepare(&text0, &name0, None).map_err(|e| fail(&set0, e))?;
-    let solution = base.solve(&options.solve).map_err(|e| fail(&set0, e))?;
-    let evaluated = base.evaluate(&solution, options).map_err(|e| fail(&set0, e))?;
+    let (solution, check) = base.solve_nested(options).map_err(|e| fail(&set0, e))?;
+    let evaluated = base.evaluate_with(&solution, options, check).map_err(|e| fail(&set0, e))?;
     let first_result = base.report_of(&solution, &evaluated, 0.0);
     let first = finish(*first_index, set0, &name0, &base, &solution, first_result)?;
     // Every other point: potentials only — when its fixed potentials are a
@@ -502,7 +502,11 @@ pub fn sweep_shard(
                         (sol, r)
                     })
                 }
-                None => p.solve(&options.solve).and_then(|sol| p.report(&sol, options, 0.0).map(|r| (sol, r))),
+                None => p.solve_nested(options).and_then(|(sol, check)| {
+                    let e = p.evaluate_with(&sol, options, check)?;
+                    let r = p.report_of(&sol, &e, 0.0);
+                    Ok((sol, r))
+                }),
             }
             .map_err(|e| fail(&set, e))?;
             finish(*index, set, &name, &p, &sol, result)
