@@ -312,7 +312,7 @@ impl Prepared {
     /// [`Prepared::solve`] from a starting guess (a nodal potential on this
     /// case's grid, e.g. a coarser grid's solution interpolated); DC
     /// iterations start from their own capacitive field.
-    pub fn solve_from(&self, config: &SolverConfig, start: Option<&Start>) -> Result<Solution, Error> {
+    pub fn solve_from(&self, config: &SolverConfig, start: Option<Start>) -> Result<Solution, Error> {
         let fail = |source| Error::Solve { file: self.file.clone(), source };
         if self.case.operation.mode == case::Mode::Dc {
             let inputs = conduction::Inputs {
@@ -329,7 +329,11 @@ impl Prepared {
             return Ok(Solution { phi, quadrature: None, report, reference: None, dc: Some(state) });
         }
         let mut solver = solve::Solver::new(&self.service.system.matrix, config);
-        let x0 = start.map(|s| self.pattern.restrict(&s.phi));
+        // the nodal start is dropped once restricted (memory at the fine solve)
+        let (x0, x0_quadrature) = match start {
+            Some(s) => (Some(self.pattern.restrict(&s.phi)), s.quadrature.map(|q| self.pattern.restrict(&q))),
+            None => (None, None),
+        };
         let (u, quadrature, report) = match &self.service.lossy {
             None => {
                 let system = &self.service.system;
@@ -338,9 +342,7 @@ impl Prepared {
             }
             Some(lossy) => {
                 let x0 = x0.map(|re| {
-                    let im = start
-                        .and_then(|s| s.quadrature.as_deref())
-                        .map_or_else(|| vec![0.0; re.len()], |q| self.pattern.restrict(q));
+                    let im = x0_quadrature.unwrap_or_else(|| vec![0.0; re.len()]);
                     solve::ComplexVector { re, im }
                 });
                 let (u, report) = solver.solve_complex(&lossy.matrix, &lossy.rhs, x0.as_ref()).map_err(fail)?;
@@ -565,7 +567,7 @@ impl Prepared {
     pub fn solve_nested(&self, options: &Options) -> Result<(Solution, SelfCheck), Error> {
         let coarser = study::selfcheck::solve_coarser(self, options);
         let start = coarser.as_ref().map(|c| c.start_for(&self.grid));
-        let solution = self.solve_from(&options.solve, start.as_ref())?;
+        let solution = self.solve_from(&options.solve, start)?;
         let check = match coarser {
             Some(c) => SelfCheck::Solved(Box::new(c)),
             None => SelfCheck::Given(None),

@@ -64,7 +64,7 @@ pub fn solve_coarser(prepared: &Prepared, options: &Options) -> Option<Coarser> 
         let grid = Grid::planned(&prepared.case, &options.limits, plan).ok()?;
         let p = crate::prepare_evaluations(prepared.case.clone(), &prepared.file, grid, false).ok()?;
         let start = solved.last().map(|c| start_from(c, &p.grid));
-        let s = p.solve_from(&config, start.as_ref()).ok()?;
+        let s = p.solve_from(&config, start).ok()?;
         let f = p.fields(&p.service, &s.phi, s.quadrature.as_deref());
         let d = p.discharge(&p.sampler(&s.phi, s.quadrature.as_deref()), &f);
         solved.push(CoarseSolve {
