@@ -409,7 +409,9 @@ pub fn potentials(layout: &Layout) -> Vec<f64> {
 
 #[derive(Debug, Clone, Copy, PartialEq)]
 enum Dof {
-    Unknown(usize),
+    /// Its unknown (row); 32 bits, as the matrix's column indices.
+    Unknown(u32),
+    /// The index of its fixed potential.
     Fixed(u32),
 }
 
@@ -465,10 +467,10 @@ impl Pattern {
             return Err(AssembleError::NoFixedPotential);
         }
         let mut dofs = vec![Dof::Fixed(0); constraints.len()];
-        let mut free = Vec::new();
+        let mut free = Vec::with_capacity(constraints.iter().filter(|c| matches!(c, Constraint::Free)).count());
         for (n, c) in constraints.iter().enumerate() {
             if let Constraint::Free = c {
-                dofs[n] = Dof::Unknown(free.len());
+                dofs[n] = Dof::Unknown(free.len() as u32);
                 free.push(NodeIx(n));
             }
         }
@@ -481,7 +483,7 @@ impl Pattern {
                 Constraint::Group(g) => {
                     let next = free.len() + group_row.len();
                     let r = *group_row.entry(g).or_insert(next);
-                    dofs[n] = Dof::Unknown(r);
+                    dofs[n] = Dof::Unknown(r as u32);
                     if r - free.len() == groups.len() {
                         groups.push(Vec::new());
                     }
@@ -498,7 +500,7 @@ impl Pattern {
                 let axis = 4.min(stencil.axis_neighbours(grid, n).count());
                 for (k, (m, g)) in stencil.neighbours(grid, n).enumerate() {
                     if let (true, Dof::Unknown(q)) = (in_pattern(g, k >= axis), p.dofs[m.0]) {
-                        out.push(q as u32);
+                        out.push(q);
                     }
                 }
             }
@@ -519,8 +521,12 @@ impl Pattern {
                 (counts, cols)
             })
             .collect();
-        let mut indptr = vec![0usize];
-        let mut indices = Vec::new();
+        // sized exactly: these two are kept for the life of the case
+        let rows = p.free.len() + p.groups.len();
+        let group_entries: usize = p.groups.iter().map(|g| 5 * g.len()).sum();
+        let mut indptr = Vec::with_capacity(rows + 1);
+        indptr.push(0usize);
+        let mut indices = Vec::with_capacity(chunks.iter().map(|c| c.1.len()).sum::<usize>() + group_entries);
         for (counts, cols) in chunks {
             for c in counts {
                 indptr.push(indptr[indptr.len() - 1] + c);
@@ -533,6 +539,7 @@ impl Pattern {
             indptr.push(indptr[indptr.len() - 1] + row.len());
             indices.extend_from_slice(&row);
         }
+        indices.shrink_to_fit();
         p.indptr = indptr;
         p.indices = indices;
         Ok(p)
@@ -565,7 +572,7 @@ impl Pattern {
                     }
                     out[diag] = out[diag] + g;
                     if let Dof::Unknown(q) = self.dofs[m.0]
-                        && let Ok(at) = cols.binary_search(&(q as u32))
+                        && let Ok(at) = cols.binary_search(&q)
                     {
                         out[at] = out[at] - g;
                     }
@@ -643,7 +650,7 @@ impl Pattern {
     pub fn add_sources(&self, b: &mut [f64], nodal: &[f64]) {
         for (n, d) in self.dofs.iter().enumerate() {
             if let Dof::Unknown(k) = *d {
-                b[k] += nodal[n];
+                b[k as usize] += nodal[n];
             }
         }
     }
@@ -656,8 +663,8 @@ impl Pattern {
         let mut count = vec![0u32; self.unknowns()];
         for (n, d) in self.dofs.iter().enumerate() {
             if let Dof::Unknown(k) = *d {
-                u[k] += nodal[n];
-                count[k] += 1;
+                u[k as usize] += nodal[n];
+                count[k as usize] += 1;
             }
         }
         u.iter_mut().zip(&count).for_each(|(v, &c)| *v /= f64::from(c.max(1)));
@@ -669,7 +676,7 @@ impl Pattern {
         self.dofs
             .iter()
             .map(|d| match *d {
-                Dof::Unknown(k) => u[k],
+                Dof::Unknown(k) => u[k as usize],
                 Dof::Fixed(k) => potentials[k as usize],
             })
             .collect()
