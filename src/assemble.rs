@@ -521,7 +521,8 @@ impl Pattern {
                 (counts, cols)
             })
             .collect();
-        // sized exactly: these two are kept for the life of the case
+        // Kept for the life of the case: reserved for the free rows' columns
+        // and an estimate of the groups', trimmed at the end.
         let rows = p.free.len() + p.groups.len();
         let group_entries: usize = p.groups.iter().map(|g| 5 * g.len()).sum();
         let mut indptr = Vec::with_capacity(rows + 1);

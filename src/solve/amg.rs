@@ -28,7 +28,6 @@
 //!   symmetric, as CG needs.
 //! * Coarsest level: dense Cholesky (nalgebra) once it has at most
 //!   `max_coarse` rows.
-//!
 //! * Transfer operators P and R = Pᵀ in single precision with 32-bit
 //!   offsets (`Transfer`): a third less memory and traffic than the
 //!   matrices, the cycle unchanged in structure and still symmetric.
