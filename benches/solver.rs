@@ -72,6 +72,9 @@ fn run(n: usize, with_jacobi: bool) {
     if let Some(v) = env("HV_DEG") {
         ao.smoother_degree = v as usize;
     }
+    if let Some(v) = env("HV_CDEG") {
+        ao.coarse_smoother_degree = v as usize;
+    }
     if let Some(v) = env("HV_RATIO") {
         ao.eigen_ratio = v;
     }
