@@ -52,6 +52,14 @@ fn run(n: usize, with_jacobi: bool) {
     let assembly = t.elapsed().as_secs_f64();
     let a = &prepared.service.system.matrix;
     let b = &prepared.service.system.rhs;
+    // HV_EXPORT=DIR: the matrix and right-hand side as Matrix Market files,
+    // for solving the very same system with the peer
+    if let Ok(dir) = std::env::var("HV_EXPORT") {
+        let dir = std::path::Path::new(&dir);
+        sprs::io::write_matrix_market(dir.join(format!("a-{n}.mtx")), a).expect("matrix written");
+        let rhs: String = b.iter().map(|v| format!("{v:e}\n")).collect();
+        std::fs::write(dir.join(format!("b-{n}.txt")), rhs).expect("rhs written");
+    }
     let x: Vec<f64> = (0..a.rows()).map(|i| (i % 7) as f64).collect();
     let mut y = vec![0.0; a.rows()];
     let reps = (2e7 / a.nnz() as f64).clamp(3.0, 200.0) as usize;
