@@ -11,7 +11,7 @@
 //! runs on are shared and their timings vary by tens of percent.
 
 use hvstack::grid::Grid;
-use hvstack::solve::{Amg, AmgOptions, Jacobi, SolveOptions, matvec, pcg};
+use hvstack::solve::{Amg, AmgOptions, Jacobi, LineMultigrid, Preconditioner, SolveOptions, matvec, pcg};
 use std::time::Instant;
 
 const CASE: &str = "
@@ -44,6 +44,14 @@ fn run(n: usize, with_jacobi: bool) {
         CASE.replace("permittivity: 80.0", "permittivity: 1.0").replace("permittivity: 4.0", "permittivity: 1.0")
     } else {
         CASE.to_string()
+    };
+    // HV_REPLACE=FROM=>TO: a variant of the case (experiments)
+    let text = match std::env::var("HV_REPLACE")
+        .ok()
+        .and_then(|r| r.split_once("=>").map(|(a, b)| (a.to_string(), b.to_string())))
+    {
+        Some((from, to)) => text.replace(&from, &to),
+        None => text,
     };
     let case = hvstack::case::parse(&text, "bench.yaml").expect("benchmark case parses");
     let axis: Vec<f64> = (0..n).map(|i| 0.1 * i as f64 / (n - 1) as f64).collect();
@@ -86,11 +94,51 @@ fn run(n: usize, with_jacobi: bool) {
     if let Some(v) = env("HV_RATIO") {
         ao.eigen_ratio = v;
     }
-    let mut amg = Amg::new(a, &ao).expect("hierarchy builds");
+    // HV_AMG=1: the algebraic hierarchy instead of the line multigrid
+    let (mut pre, depth, complexity): (Box<dyn Preconditioner>, usize, f64) = if std::env::var("HV_AMG").is_ok() {
+        let amg = Amg::new(a, &ao).expect("hierarchy builds");
+        let (d, c) = (amg.depth(), amg.operator_complexity());
+        (Box::new(amg), d, c)
+    } else {
+        let p = &prepared;
+        let mg = LineMultigrid::new(p.pattern.structure(&p.grid, &p.service.stencil), a.rows()).expect("builds");
+        let (d, c) = (mg.depth(), mg.grid_complexity());
+        (Box::new(mg), d, c)
+    };
     let setup = t.elapsed().as_secs_f64();
+    // HV_PROBE=1: the preconditioner's symmetry and the cycle alone as a
+    // stationary iteration (residual factor per cycle), on stderr
+    if std::env::var("HV_PROBE").is_ok() {
+        let n = a.rows();
+        let u: Vec<f64> = (0..n).map(|k| ((k * 7 + 3) % 11) as f64 - 5.0).collect();
+        let v: Vec<f64> = (0..n).map(|k| ((k * 5 + 1) % 13) as f64 - 6.0).collect();
+        let (mut mu, mut mv) = (vec![0.0; n], vec![0.0; n]);
+        pre.apply(&u, &mut mu);
+        pre.apply(&v, &mut mv);
+        let d = |a: &[f64], b: &[f64]| a.iter().zip(b).map(|(x, y)| x * y).sum::<f64>();
+        eprintln!("symmetry: {:e} vs {:e}", d(&v, &mu), d(&u, &mv));
+        // the cycle alone as a stationary iteration
+        let mut x = vec![0.0; n];
+        let mut r = b.clone();
+        let mut last = hvstack::solve::norm(&r);
+        for k in 0..12 {
+            let mut e = vec![0.0; n];
+            pre.apply(&r, &mut e);
+            x.iter_mut().zip(&e).for_each(|(x, e)| *x += e);
+            let mut ax = vec![0.0; n];
+            matvec(a, &x, &mut ax);
+            r = b.iter().zip(&ax).map(|(b, a)| b - a).collect();
+            let now = hvstack::solve::norm(&r);
+            eprintln!("cycle {k}: factor {:.4} residual {:.3e}", now / last, now / hvstack::solve::norm(b));
+            last = now;
+        }
+    }
     let t = Instant::now();
-    let (_, rep) = pcg(a, b, &mut amg, &opts, None).expect("converges");
+    let (_, rep) = pcg(a, b, pre.as_mut(), &opts, None).expect("converges");
     let solve = t.elapsed().as_secs_f64();
+    if std::env::var("HV_HISTORY").is_ok() {
+        eprintln!("{:?}", rep.history);
+    }
     let unknowns = a.rows();
     println!(
         "{n:>5}² {unknowns:>9} {assembly:>8.3} {setup:>8.3} {solve:>8.3} {:>8.3} {:>5} {:>9.1} {:>8.1} {:>9.3} {:>8.1} {:>5} {:>5.2}",
@@ -100,8 +148,8 @@ fn run(n: usize, with_jacobi: bool) {
         peak_memory_mb(),
         mv * 1e3,
         solve / mv,
-        amg.depth(),
-        amg.operator_complexity(),
+        depth,
+        complexity,
     );
     if with_jacobi {
         let t = Instant::now();

@@ -342,6 +342,13 @@ fn cross_couplings<T: Coefficient>(
     out
 }
 
+/// The conductance that ties neighbouring nodes of one floating electrode
+/// in the lattice operator of the geometric multigrid, in units of the
+/// largest edge conductance: stiff enough that the group moves as one in the
+/// preconditioner (its own matrix row is exact either way), mild enough for
+/// single-precision line factors.
+pub const GROUP_TIE: f64 = 1e4;
+
 /// Nodes per parallel assembly task.
 const NODE_CHUNK: usize = 8192;
 
@@ -639,6 +646,84 @@ impl Pattern {
                 b
             })
             .collect()
+    }
+
+    /// The lattice form of a real stencil's operator, for the geometric
+    /// multigrid (`solve::LineMultigrid`): lattice point (i, j) is grid node
+    /// (i, j); fixed nodes are decoupled rows; the nodes of a floating
+    /// electrode keep their own couplings and are tied to their neighbours
+    /// in the group by [`GROUP_TIE`] times the largest conductance, so that
+    /// the lattice operator is a stiff model of the group (its couplings
+    /// within the group cancel in the system's matrix, see
+    /// `solve::Embedding`).
+    pub fn structure(&self, grid: &Grid, stencil: &Stencil<f64>) -> crate::solve::Structure {
+        let (nx, ny) = (grid.nx(), grid.ny());
+        let largest = stencil.gx.iter().chain(&stencil.gy).fold(0.0f64, |m, g| m.max(g.abs()));
+        let tie = GROUP_TIE * largest.max(f64::MIN_POSITIVE);
+        let mut l = crate::solve::Lattice::zeros(nx, ny);
+        let unknown = |n: NodeIx| match self.dofs[n.0] {
+            Dof::Unknown(q) => Some(q),
+            Dof::Fixed(_) => None,
+        };
+        let groups = self.free.len() as u32;
+        // conductance between two nodes as the lattice sees it
+        let tied = |a: NodeIx, b: NodeIx, g: f64| match (unknown(a), unknown(b)) {
+            (Some(p), Some(q)) if p == q && p >= groups => g + tie,
+            _ => g,
+        };
+        let point = |n: NodeIx| {
+            let (i, j) = grid.node_ij(n);
+            i + nx * j
+        };
+        // per point: the excess (conductance to fixed nodes) and the
+        // couplings towards (i−1, j) and (i, j−1)
+        let rows: Vec<[f64; 3]> = (0..nx * ny)
+            .into_par_iter()
+            .with_min_len(NODE_CHUNK)
+            .map(|k| {
+                let (i, j) = (k % nx, k / nx);
+                let n = grid.node(i, j);
+                if unknown(n).is_none() {
+                    return [1.0, 0.0, 0.0];
+                }
+                let mut row = [0.0; 3];
+                for (m, g) in stencil.axis_neighbours(grid, n) {
+                    let (mi, mj) = grid.node_ij(m);
+                    if unknown(m).is_none() {
+                        row[0] += g;
+                    } else if mi < i || mj < j {
+                        row[1 + usize::from(mj < j)] = -tied(n, m, g);
+                    }
+                }
+                row
+            })
+            .collect();
+        for (k, [excess, w, s]) in rows.into_iter().enumerate() {
+            (l.excess[k], l.w[k], l.s[k]) = (excess, w, s);
+        }
+        // diagonal couplings, each stored on the upper of its two nodes
+        for &(a, b, g) in &stencil.cross {
+            let (a, b) = (NodeIx(a as usize), NodeIx(b as usize));
+            if unknown(a).is_none() {
+                continue;
+            }
+            let k = point(a);
+            let ((ia, ja), (ib, jb)) = (grid.node_ij(a), grid.node_ij(b));
+            if unknown(b).is_none() {
+                l.excess[k] += g;
+            } else if jb + 1 == ja {
+                if ib + 1 == ia {
+                    l.sw[k] = -g;
+                } else if ib == ia + 1 {
+                    l.se[k] = -g;
+                }
+            }
+        }
+        let embedding = crate::solve::Embedding {
+            points: self.free.iter().map(|&n| point(n) as u32).collect(),
+            groups: self.groups.iter().map(|g| g.iter().map(|&n| point(n) as u32).collect()).collect(),
+        };
+        crate::solve::Structure { lattice: l, embedding }
     }
 
     /// The system of a real stencil for the given fixed potentials.

@@ -104,6 +104,8 @@ pub enum DcError {
 /// The thermal problem of a case, set up once.
 struct Thermal {
     pattern: Pattern,
+    /// Its edge conductances (k/ε0, see `coefficients`).
+    stencil: Stencil,
     matrix: crate::solve::Matrix,
     /// Right-hand side of the fixed temperatures alone.
     rhs: Vec<f64>,
@@ -129,7 +131,7 @@ fn thermal(case: &Case, grid: &Grid, layout: &Layout, factors: &Factors) -> Resu
             heat[n] += h;
         }
     }
-    Ok(Some(Thermal { pattern, matrix, rhs, fixed, heat }))
+    Ok(Some(Thermal { pattern, stencil, matrix, rhs, fixed, heat }))
 }
 
 /// |E| at every cell centre from the nodal potential (the mean of the two
@@ -193,24 +195,28 @@ pub struct Inputs<'a> {
     pub potentials: &'a [f64],
     /// The capacitive (ε) system of the case.
     pub capacitive: &'a crate::assemble::System,
+    /// Its stencil.
+    pub capacitive_stencil: &'a Stencil,
 }
 
 /// Solves the steady DC state (see the module docs). Returns the resistive
 /// nodal potential, the report of its last solve and the DC state.
 pub fn steady(inp: &Inputs, config: &SolverConfig) -> Result<(Vec<f64>, SolveReport, DcState), DcError> {
-    let Inputs { case, grid, layout, factors, pattern, potentials, capacitive } = *inp;
+    let Inputs { case, grid, layout, factors, pattern, potentials, capacitive, capacitive_stencil } = *inp;
     for (r, _) in layout.regions.iter().zip(layout.regions_with_cells()).filter(|(_, p)| *p) {
         let m = &case.materials[r.material];
         if m.conduction.is_none() {
             return Err(DcError::NoConductivity(m.name.clone()));
         }
     }
-    let (cap_u, _) = Solver::new(&capacitive.matrix, config).solve(&capacitive.rhs)?;
+    let (cap_u, _) = Solver::structured(&capacitive.matrix, pattern.structure(grid, capacitive_stencil), config)
+        .solve(&capacitive.rhs)?;
     let cap = pattern.expand(&cap_u, potentials);
     let span = potentials.iter().fold(0.0f64, |m, v| m.max(v.abs())).max(f64::MIN_POSITIVE);
 
     let thermal = thermal(case, grid, layout, factors)?;
-    let mut thermal_solver = thermal.as_ref().map(|t| Solver::new(&t.matrix, config));
+    let mut thermal_solver =
+        thermal.as_ref().map(|t| Solver::structured(&t.matrix, t.pattern.structure(grid, &t.stencil), config));
     let mut thermal_report = None;
     let solve_t = |solver: &mut Solver, t: &Thermal, q: &[f64], start: Option<&[f64]>| {
         let mut b = t.rhs.clone();
@@ -233,13 +239,14 @@ pub fn steady(inp: &Inputs, config: &SolverConfig) -> Result<(Vec<f64>, SolveRep
         let stencil = Stencil::new(grid, layout, factors, &sigma);
         // the coefficients are σ/ε0 (see `coefficients::conductivities`)
         let cells: Vec<f64> = sigma.cells.iter().flatten().map(|c| c * crate::units::EPSILON_0).collect();
-        (pattern.system(grid, &stencil, potentials), cells)
+        (pattern.system(grid, &stencil, potentials), cells, stencil)
     };
     // the field starts from the capacitive one (exact where σ ∝ ε)
     let mut cell_t = cell_temperatures(case, grid, layout, t_nodal.as_deref());
     let mut cell_e = cell_fields(grid, &cap);
-    let (first, mut sigma_cells) = system_of(&cell_t, &cell_e);
-    let mut solver = Solver::new(&first.matrix, config);
+    let (first, mut sigma_cells, first_stencil) = system_of(&cell_t, &cell_e);
+    let mut solver = Solver::structured(&first.matrix, pattern.structure(grid, &first_stencil), config);
+    drop(first_stencil);
     let (mut u, _) = solver.solve(&first.rhs)?;
     let mut phi = pattern.expand(&u, potentials);
     let (mut relaxation, mut last_mismatch): (f64, f64) = (1.0, f64::INFINITY);
@@ -273,7 +280,7 @@ pub fn steady(inp: &Inputs, config: &SolverConfig) -> Result<(Vec<f64>, SolveRep
         for (e, f) in cell_e.iter_mut().zip(&fresh) {
             *e += relaxation * (f - *e);
         }
-        let (system, cells) = system_of(&cell_t, &cell_e);
+        let (system, cells, _) = system_of(&cell_t, &cell_e);
         sigma_cells = cells;
         let (next, rep) = solver.solve_from(&system.matrix, &system.rhs, Some(&u))?;
         let next_phi = pattern.expand(&next, potentials);

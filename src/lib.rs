@@ -151,6 +151,9 @@ pub struct Evaluation {
     /// operator of the magnitudes |κ| whose multigrid hierarchy
     /// preconditions the complex solve.
     pub system: System,
+    /// The stencil of `system` where it is not `stencil` (the |κ|
+    /// operator of an AC case with losses).
+    pub system_stencil: Option<Stencil>,
     /// AC cases: each region's losses.
     pub ac: Option<coefficients::AcLosses>,
     /// AC cases whose losses change the field (loss tangents that differ by
@@ -272,7 +275,7 @@ fn assemble_evaluations(
     };
     let evaluation = |conditions: Conditions, coefficients: Coefficients<f64>, stencil: Stencil| {
         let system = pattern.system(&grid, &stencil, &potentials);
-        Evaluation { conditions, coefficients, stencil, system, ac: None, lossy: None }
+        Evaluation { conditions, coefficients, stencil, system, system_stencil: None, ac: None, lossy: None }
     };
     let mut service = evaluation(Conditions::Service, coefficients, stencil);
     if case.operation.mode == case::Mode::Ac {
@@ -282,6 +285,7 @@ fn assemble_evaluations(
             let magnitude = coefficients::magnitudes(&grid, case.geometry, &layout, &kappa.region);
             let stencil_m = Stencil::new(&grid, &layout, &factors, &magnitude);
             service.system = pattern.system(&grid, &stencil_m, &potentials);
+            service.system_stencil = Some(stencil_m);
             let stencil = Stencil::new(&grid, &layout, &factors, &kappa);
             let matrix = pattern.complex_matrix(&grid, &stencil);
             let rhs = solve::ComplexVector::from_values(&pattern.rhs(&grid, &stencil, &potentials));
@@ -300,6 +304,13 @@ fn assemble_evaluations(
         None
     };
     Ok(Prepared { case, file: file.into(), grid, layout, factors, pattern, potentials, service, reference })
+}
+
+impl Evaluation {
+    /// The stencil whose matrix is `system`.
+    pub fn system_stencil(&self) -> &Stencil {
+        self.system_stencil.as_ref().unwrap_or(&self.stencil)
+    }
 }
 
 impl Prepared {
@@ -323,12 +334,14 @@ impl Prepared {
                 pattern: &self.pattern,
                 potentials: &self.potentials,
                 capacitive: &self.service.system,
+                capacitive_stencil: &self.service.stencil,
             };
             let (phi, report, state) =
                 conduction::steady(&inputs, config).map_err(|source| Error::Dc { file: self.file.clone(), source })?;
             return Ok(Solution { phi, quadrature: None, report, reference: None, dc: Some(state) });
         }
-        let mut solver = solve::Solver::new(&self.service.system.matrix, config);
+        let structure = self.pattern.structure(&self.grid, self.service.system_stencil());
+        let mut solver = solve::Solver::structured(&self.service.system.matrix, structure, config);
         // the nodal start is dropped once restricted (memory at the fine solve)
         let (x0, x0_quadrature) = match start {
             Some(s) => (Some(self.pattern.restrict(&s.phi)), s.quadrature.map(|q| self.pattern.restrict(&q))),

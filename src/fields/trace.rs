@@ -109,6 +109,10 @@ fn last_inside(p: [f64; 2], q: [f64; 2], inside: &dyn Fn([f64; 2]) -> bool) -> [
     lerp(p, q, lo)
 }
 
+/// Excursion beyond the domain's edge, as a fraction of the step, that
+/// counts as rounding (a line along a zero-flux edge), not as leaving.
+const EDGE_ROUNDING: f64 = 1e-6;
+
 /// One direction from `seed`: points after the seed, and how it ended.
 fn half(
     sampler: &Sampler,
@@ -155,6 +159,12 @@ fn half(
             }
             (out, end)
         };
+        // Edges of the domain that are not electrodes carry no flux, so no
+        // line crosses them: a line running along one (a seed on the edge)
+        // that strays out by rounding stays on it; one that leaves by more
+        // than rounding ends there.
+        let on_edge = [q[0].clamp(domain[0], domain[1]), q[1].clamp(domain[2], domain[3])];
+        let q = if (q[0] - on_edge[0]).hypot(q[1] - on_edge[1]) <= EDGE_ROUNDING * h { on_edge } else { q };
         if !inside_domain(q) {
             return finish(out, last_inside(p, q, &inside_domain), End::Domain);
         }

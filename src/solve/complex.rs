@@ -161,7 +161,7 @@ fn xpby(z: &ComplexVector, beta: Complex64, p: &mut ComplexVector) {
 /// z = M⁻¹·r for both parts, through the preconditioner's two-part path
 /// (`buffers` holds the interleaved parts between calls).
 fn precondition(
-    m: &mut impl Preconditioner,
+    m: &mut (impl Preconditioner + ?Sized),
     r: &ComplexVector,
     z: &mut ComplexVector,
     buffers: &mut (Vec<kernels::Pair>, Vec<kernels::Pair>),
@@ -191,7 +191,7 @@ pub fn cocg(
     a: &ComplexMatrix,
     b: &ComplexVector,
     x0: Option<&ComplexVector>,
-    m: &mut impl Preconditioner,
+    m: &mut (impl Preconditioner + ?Sized),
     opts: &SolveOptions,
     stall_window: Option<usize>,
 ) -> Result<(ComplexVector, SolveReport), SolveError> {

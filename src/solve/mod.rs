@@ -11,9 +11,13 @@
 mod amg;
 pub mod complex;
 pub mod kernels;
+pub mod lattice;
+mod lines;
 
 pub use amg::{Amg, AmgError, AmgOptions};
 pub use kernels::{dot, matvec, norm};
+pub use lattice::{Embedding, Lattice, Structure};
+pub use lines::{LineMultigrid, LinesError};
 
 use kernels::{inverse_diagonal, xpby};
 
@@ -116,9 +120,12 @@ pub const STALL_WINDOW: usize = 100;
 /// Jacobi-CG iteration at a million unknowns). A solve that needs more is
 /// reported as not converged rather than left to run for hours.
 pub const WORK_LIMIT: f64 = 2e10;
-/// Cost of a multigrid-preconditioned iteration in matrix–vector products
-/// (DEVELOPERS.md, benchmarks: about 7).
+/// Cost of an algebraic-multigrid-preconditioned iteration in
+/// matrix–vector products (DEVELOPERS.md, benchmarks: about 7).
 pub const AMG_ITERATION_COST: f64 = 7.0;
+/// Cost of a line-multigrid-preconditioned iteration in matrix–vector
+/// products (DEVELOPERS.md, benchmarks).
+pub const LINES_ITERATION_COST: f64 = 6.0;
 /// Iterations always allowed, however large the matrix.
 pub const MIN_ITERATIONS: usize = 50;
 
@@ -130,8 +137,12 @@ pub const MAX_RESTARTS: usize = 3;
 /// Which preconditioner the solve uses.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum PreconditionerChoice {
-    /// Smoothed-aggregation multigrid, falling back to Jacobi if its setup
-    /// fails or CG stalls with it.
+    /// Multigrid: the geometric line multigrid where the system comes with
+    /// its lattice ([`Solver::structured`]), smoothed aggregation where it
+    /// does not or where the geometric one fails; Jacobi last.
+    Multigrid(AmgOptions),
+    /// Smoothed-aggregation multigrid only, falling back to Jacobi if its
+    /// setup fails or CG stalls with it.
     Amg(AmgOptions),
     /// Jacobi (diagonal) only.
     Jacobi,
@@ -150,7 +161,7 @@ impl Default for SolverConfig {
     fn default() -> Self {
         SolverConfig {
             options: SolveOptions::default(),
-            preconditioner: PreconditionerChoice::Amg(AmgOptions::default()),
+            preconditioner: PreconditionerChoice::Multigrid(AmgOptions::default()),
         }
     }
 }
@@ -165,25 +176,58 @@ pub fn solve(a: &Matrix, b: &[f64], config: &SolverConfig) -> Result<(Vec<f64>, 
 /// the multigrid hierarchy of its matrix is built when the solver is made,
 /// then serves every right-hand side, and as a preconditioner for other
 /// matrices of the same pattern (the same case at other material values).
-/// A multigrid setup failure or a stalled multigrid solve falls back to
-/// Jacobi, and `SolveReport::method` says so; an unconverged answer is
-/// never returned.
+/// A failed setup or a stalled solve falls back to the next preconditioner
+/// (line multigrid, smoothed aggregation, Jacobi), and
+/// `SolveReport::method` says so; an unconverged answer is never returned.
 pub struct Solver<'a> {
     matrix: &'a Matrix,
     config: SolverConfig,
-    /// The hierarchy, or why it could not be built; `None` when Jacobi was
-    /// asked for.
+    /// The geometric hierarchy, or why it could not be built or failed;
+    /// `None` when the system has no lattice or it was not asked for.
+    lines: Option<Result<LineMultigrid, String>>,
+    /// The algebraic hierarchy, or why it could not be built; built when
+    /// first needed.
     amg: Option<Result<Amg<'a>, AmgError>>,
+}
+
+/// What a solve needs to know of the preconditioner it runs with.
+struct Attempt {
+    /// Iteration limit and tolerance, the work capped.
+    options: SolveOptions,
+    /// Stall window (multigrid only).
+    stall_window: Option<usize>,
 }
 
 impl<'a> Solver<'a> {
     /// Sets up the configured preconditioner for `a`.
     pub fn new(a: &'a Matrix, config: &SolverConfig) -> Solver<'a> {
-        let amg = match config.preconditioner {
-            PreconditionerChoice::Jacobi => None,
-            PreconditionerChoice::Amg(ao) => Some(Amg::new(a, &ao)),
-        };
-        Solver { matrix: a, config: *config, amg }
+        let mut s = Solver { matrix: a, config: *config, lines: None, amg: None };
+        s.build_amg();
+        s
+    }
+
+    /// Sets up the configured preconditioner for `a`, whose unknowns sit
+    /// on the lattice of `structure` (the geometric multigrid's operator,
+    /// `assemble::Pattern::structure`).
+    pub fn structured(a: &'a Matrix, structure: Structure, config: &SolverConfig) -> Solver<'a> {
+        let mut s = Solver { matrix: a, config: *config, lines: None, amg: None };
+        match config.preconditioner {
+            PreconditionerChoice::Multigrid(_) => {
+                s.lines = Some(LineMultigrid::new(structure, a.rows()).map_err(|e| format!("setup failed: {e}")));
+            }
+            _ => s.build_amg(),
+        }
+        s
+    }
+
+    /// Builds the algebraic hierarchy when the configuration asks for one
+    /// and it is not built yet.
+    fn build_amg(&mut self) {
+        if self.amg.is_none()
+            && let PreconditionerChoice::Multigrid(ao) | PreconditionerChoice::Amg(ao) = self.config.preconditioner
+        {
+            self.amg = Some(Amg::new(self.matrix, &ao));
+        }
     }
 
     /// Sets the relative residual later solves must reach.
@@ -212,31 +256,76 @@ impl<'a> Solver<'a> {
         b: &[f64],
         x0: Option<&[f64]>,
     ) -> Result<(Vec<f64>, SolveReport), SolveError> {
-        let opts = self.config.options;
-        let capped = |cost| work_capped(&opts, cost, other.nnz());
-        let (jacobi_opts, amg_opts) = (capped(1.0), capped(AMG_ITERATION_COST));
-        let fallback = |reason: String| {
-            let (x, mut rep) = pcg_from(other, b, x0, &mut Jacobi::new(other), &jacobi_opts, None)?;
-            rep.method = format!("pcg+jacobi (fallback: {reason})");
-            Ok((x, rep))
-        };
         let reused = !std::ptr::eq(other, self.matrix);
+        // a real iteration: one product and one preconditioner application
+        self.with_fallbacks(other, 1.0, 0.0, ("pcg", ""), reused, |m, at| {
+            pcg_from(other, b, x0, m, &at.options, at.stall_window)
+        })
+    }
+
+    /// Runs `solve` with each preconditioner in turn until one converges:
+    /// the line multigrid, smoothed aggregation, Jacobi (of `jacobi_of`,
+    /// the real matrix solved or preconditioned). An iteration costs
+    /// `products` matrix–vector products of `jacobi_of`'s entries besides
+    /// `applications` × the preconditioner's cost.
+    fn with_fallbacks<R>(
+        &mut self,
+        jacobi_of: &Matrix,
+        applications: f64,
+        products: f64,
+        (method, of): (&str, &str),
+        reused: bool,
+        mut solve: impl FnMut(&mut dyn Preconditioner, &Attempt) -> Result<(R, SolveReport), SolveError>,
+    ) -> Result<(R, SolveReport), SolveError> {
+        let opts = self.config.options;
+        let attempt = |cost: f64, stall_window| Attempt {
+            options: work_capped(&opts, applications * cost + products, jacobi_of.nnz()),
+            stall_window,
+        };
+        let reused = if reused { ", hierarchy reused" } else { "" };
+        let mut failed: Vec<String> = Vec::new();
+        if let Some(lines) = &mut self.lines {
+            match lines {
+                Ok(mg) => match solve(mg, &attempt(LINES_ITERATION_COST, Some(STALL_WINDOW))) {
+                    Ok((x, mut rep)) => {
+                        rep.method = format!(
+                            "{method}+line multigrid{of} ({} levels, semicoarsening in y, x-line relaxation{reused})",
+                            mg.depth()
+                        );
+                        return Ok((x, rep));
+                    }
+                    Err(e) => {
+                        let reason = format!("line multigrid failed: {e}");
+                        failed.push(reason.clone());
+                        *lines = Err(reason);
+                    }
+                },
+                Err(e) => failed.push(format!("line multigrid {e}")),
+            }
+            self.build_amg();
+        }
+        let fallback = |failed: &[String]| {
+            if failed.is_empty() { String::new() } else { format!(" (fallback: {})", failed.join("; ")) }
+        };
         match &mut self.amg {
-            None => pcg_from(other, b, x0, &mut Jacobi::new(other), &jacobi_opts, None),
-            Some(Err(e)) => fallback(format!("multigrid setup failed: {e}")),
-            Some(Ok(amg)) => match pcg_from(other, b, x0, amg, &amg_opts, Some(STALL_WINDOW)) {
+            Some(Ok(amg)) => match solve(amg, &attempt(AMG_ITERATION_COST, Some(STALL_WINDOW))) {
                 Ok((x, mut rep)) => {
                     rep.method = format!(
-                        "pcg+amg ({} levels, operator complexity {:.2}{})",
+                        "{method}+amg{of} ({} levels, operator complexity {:.2}{reused}){}",
                         amg.depth(),
                         amg.operator_complexity(),
-                        if reused { ", hierarchy reused" } else { "" }
+                        fallback(&failed)
                     );
-                    Ok((x, rep))
+                    return Ok((x, rep));
                 }
-                Err(e) => fallback(format!("multigrid-preconditioned CG failed: {e}")),
+                Err(e) => failed.push(format!("multigrid-preconditioned {} failed: {e}", method.to_uppercase())),
             },
+            Some(Err(e)) => failed.push(format!("multigrid setup failed: {e}")),
+            None => {}
         }
+        let (x, mut rep) = solve(&mut Jacobi::new(jacobi_of), &attempt(1.0, None))?;
+        rep.method = format!("{method}+jacobi{}", fallback(&failed));
+        Ok((x, rep))
     }
 }
 
@@ -244,39 +333,19 @@ impl Solver<'_> {
     /// Solves the complex symmetric system a·x = b (AC with losses) by COCG,
     /// preconditioned by this setup: the solver's matrix is the real
     /// operator with the magnitudes of the complex coefficients, on the
-    /// pattern of `a`. Falls back to Jacobi as the real solve does.
+    /// pattern of `a`. Falls back as the real solve does.
     pub fn solve_complex(
         &mut self,
         a: &ComplexMatrix,
         b: &ComplexVector,
         x0: Option<&ComplexVector>,
     ) -> Result<(ComplexVector, SolveReport), SolveError> {
-        let opts = self.config.options;
-        // a complex iteration costs two preconditioner applications and a
+        // a complex iteration: two preconditioner applications and a
         // product of twice the values
-        let capped = |cost| work_capped(&opts, cost, a.nnz());
-        let (jacobi_opts, amg_opts) = (capped(4.0), capped(2.0 * AMG_ITERATION_COST + 2.0));
         let magnitude = self.matrix;
-        let fallback = |reason: String| {
-            let (x, mut rep) = complex::cocg(a, b, x0, &mut Jacobi::new(magnitude), &jacobi_opts, None)?;
-            rep.method = format!("cocg+jacobi (fallback: {reason})");
-            Ok((x, rep))
-        };
-        match &mut self.amg {
-            None => complex::cocg(a, b, x0, &mut Jacobi::new(magnitude), &jacobi_opts, None),
-            Some(Err(e)) => fallback(format!("multigrid setup failed: {e}")),
-            Some(Ok(amg)) => match complex::cocg(a, b, x0, amg, &amg_opts, Some(STALL_WINDOW)) {
-                Ok((x, mut rep)) => {
-                    rep.method = format!(
-                        "cocg+amg of |κ| ({} levels, operator complexity {:.2})",
-                        amg.depth(),
-                        amg.operator_complexity()
-                    );
-                    Ok((x, rep))
-                }
-                Err(e) => fallback(format!("multigrid-preconditioned COCG failed: {e}")),
-            },
-        }
+        self.with_fallbacks(magnitude, 2.0, 2.0, ("cocg", " of |κ|"), false, |m, at| {
+            complex::cocg(a, b, x0, m, &at.options, at.stall_window)
+        })
     }
 }
 
@@ -409,7 +478,7 @@ pub fn relative_residual(a: &Matrix, x: &[f64], b: &[f64]) -> f64 {
 pub fn pcg(
     a: &Matrix,
     b: &[f64],
-    m: &mut impl Preconditioner,
+    m: &mut (impl Preconditioner + ?Sized),
     opts: &SolveOptions,
     stall_window: Option<usize>,
 ) -> Result<(Vec<f64>, SolveReport), SolveError> {
@@ -422,7 +491,7 @@ pub fn pcg_from(
     a: &Matrix,
     b: &[f64],
     x0: Option<&[f64]>,
-    m: &mut impl Preconditioner,
+    m: &mut (impl Preconditioner + ?Sized),
     opts: &SolveOptions,
     stall_window: Option<usize>,
 ) -> Result<(Vec<f64>, SolveReport), SolveError> {

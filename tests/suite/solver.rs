@@ -2,7 +2,8 @@
 //! preconditioner, iteration counts across sizes and contrasts, fallback.
 
 use hvstack::solve::{
-    Amg, AmgOptions, Jacobi, Matrix, PreconditionerChoice, SolveOptions, SolverConfig, pcg, relative_residual, solve,
+    Amg, AmgOptions, Jacobi, LineMultigrid, Matrix, PreconditionerChoice, SolveOptions, Solver, SolverConfig, pcg,
+    relative_residual, solve,
 };
 use sprs::TriMat;
 
@@ -27,9 +28,12 @@ fn agree(a: &serde_json::Value, b: &serde_json::Value, tol: f64, path: &str) {
             .iter()
             .any(|k| path.contains(k));
         let tol = if self_check { 1e-3 } else { tol };
-        // the order is a ratio of differences of nearly equal peaks: a
-        // DC case iterated to 1e-7 of the voltage moves it by a few %
-        let tol = if path.contains("observed_order") { 0.05 } else { tol };
+        // the order is the logarithm of a ratio of differences of nearly
+        // equal peaks: the HVDC demo's three peaks differ by 1.3e-5 of the
+        // field while its DC iteration, stopped at 1e-7 of the voltage,
+        // leaves the coarser grids' peaks 5.6e-7 apart between two
+        // solvers (measured), which moves the order by up to 11 %
+        let tol = if path.contains("observed_order") { 0.15 } else { tol };
         // an error estimate is a difference of nearly equal peaks, the
         // coarser ones solved to 1e-8 from a start interpolated from the
         // coarsest grid: agreement to 1e-3 percentage points (1e-5 of the
@@ -40,18 +44,28 @@ fn agree(a: &serde_json::Value, b: &serde_json::Value, tol: f64, path: &str) {
     crate::common::agree_json(a, b, path, &["solve", "reference"], &tolerance);
 }
 
-/// Both preconditioners solve the same system to 1e-10; every reported
-/// figure agrees to 1e-6 (solver tolerance; issue target: identical results).
+/// The three preconditioners solve the same system to 1e-10; every
+/// reported figure agrees to 1e-6 (solver tolerance; issue target: every
+/// result identical to the tolerance).
 #[test]
-fn multigrid_and_jacobi_give_the_same_results_on_every_demo_case() {
+fn line_multigrid_aggregation_and_jacobi_give_the_same_results_on_every_demo_case() {
     for path in crate::common::demo_cases() {
         let p = path.to_str().unwrap();
+        let lines = report(p, PreconditionerChoice::Multigrid(AmgOptions::default()));
         let amg = report(p, PreconditionerChoice::Amg(AmgOptions::default()));
         let jac = report(p, PreconditionerChoice::Jacobi);
         // real systems by CG, AC with losses by COCG
         let method = |r: &serde_json::Value| r["solve"]["method"].as_str().unwrap().to_string();
-        assert!(["pcg+amg", "cocg+amg"].iter().any(|m| method(&amg).starts_with(m)), "{p}");
-        assert!(["pcg+jacobi", "cocg+jacobi"].iter().any(|m| method(&jac).starts_with(m)), "{p}");
+        for (r, names) in [
+            (&lines, ["pcg+line", "cocg+line"]),
+            (&amg, ["pcg+amg", "cocg+amg"]),
+            (&jac, ["pcg+jacobi", "cocg+jacobi"]),
+        ] {
+            assert!(names.iter().any(|m| method(r).starts_with(m)), "{p}: {}", method(r));
+        }
+        // shown with a failure: which case
+        eprintln!("{p}");
+        agree(&lines, &jac, 1e-6, "");
         agree(&amg, &jac, 1e-6, "");
     }
 }
@@ -89,28 +103,96 @@ parts:
 
 /// Iterations stay roughly flat across sizes, with an 80 : 1 contrast, a
 /// floating electrode and cells of aspect ratio above 50 (issue target:
-/// iteration count roughly flat; 30 is about twice what the benchmark needs;
-/// the thin film's default grid, graded toward the foil's ends as well, may
-/// take up to 36).
+/// iteration count roughly flat). Aggregation: 30 is about twice what the
+/// benchmark needs, the thin film's default grid, graded toward the foil's
+/// ends as well, may take up to 36. Line multigrid: textbook multigrid
+/// needs a handful of cycles for 1e-8 (Trottenberg, Oosterlee & Schüller,
+/// *Multigrid*, 2001, ch. 1); we ask at most 12.
 #[test]
 fn multigrid_iterations_stay_flat() {
     let opts = SolveOptions { rel_tol: 1e-8, max_iterations: 1000 };
-    let mut counts = Vec::new();
+    let (mut amg_counts, mut line_counts) = (Vec::new(), Vec::new());
     for (n, thin) in [(65, false), (129, false), (257, false), (0, true)] {
         let p = square_case(n, thin);
         let (min_step, max_step) = p.grid.step_range();
-        let a = &p.service.system.matrix;
-        let mut amg = Amg::new(a, &AmgOptions::default()).unwrap();
-        let (x, rep) = pcg(a, &p.service.system.rhs, &mut amg, &opts, None).unwrap();
-        assert!(relative_residual(a, &x, &p.service.system.rhs) <= 10.0 * opts.rel_tol);
         if thin {
             assert!(max_step / min_step > 50.0, "aspect {}", max_step / min_step);
         }
-        counts.push(rep.iterations);
+        let (a, b) = (&p.service.system.matrix, &p.service.system.rhs);
+        let mut amg = Amg::new(a, &AmgOptions::default()).unwrap();
+        let (x, rep) = pcg(a, b, &mut amg, &opts, None).unwrap();
+        assert!(relative_residual(a, &x, b) <= 10.0 * opts.rel_tol);
+        amg_counts.push(rep.iterations);
+        let mut lines = LineMultigrid::new(p.pattern.structure(&p.grid, &p.service.stencil), a.rows()).unwrap();
+        let (x, rep) = pcg(a, b, &mut lines, &opts, None).unwrap();
+        assert!(relative_residual(a, &x, b) <= 10.0 * opts.rel_tol);
+        line_counts.push(rep.iterations);
     }
-    eprintln!("iterations (65², 129², 257², thin film): {counts:?}");
-    assert!(counts[..3].iter().all(|&c| c <= 30), "{counts:?}");
-    assert!(counts[3] <= 36, "{counts:?}");
+    eprintln!("iterations (65², 129², 257², thin film): aggregation {amg_counts:?}, lines {line_counts:?}");
+    assert!(amg_counts[..3].iter().all(|&c| c <= 30), "{amg_counts:?}");
+    assert!(amg_counts[3] <= 36, "{amg_counts:?}");
+    assert!(line_counts.iter().all(|&c| c <= 12), "{line_counts:?}");
+}
+
+/// The geometric multigrid's lattice operator is the system's matrix:
+/// A = Eᵀ·L·E with E copying each unknown to its points (a floating
+/// electrode's to all of its nodes), on every demo case (identity of the
+/// assembly, exact up to rounding).
+#[test]
+fn the_lattice_operator_embeds_the_matrix_on_every_demo_case() {
+    for path in crate::common::demo_cases() {
+        let text = std::fs::read_to_string(&path).unwrap();
+        let case = hvstack::case::parse(&text, "case.yaml").unwrap();
+        let p = hvstack::prepare(case, "case.yaml", &hvstack::Options::default()).unwrap();
+        let ev = &p.service;
+        let s = p.pattern.structure(&p.grid, ev.system_stencil());
+        let a = &ev.system.matrix;
+        let n = a.rows();
+        let u: Vec<f64> = (0..n).map(|k| ((k * 7 + 3) % 11) as f64 - 5.0).collect();
+        let mut full = vec![0.0; s.lattice.points()];
+        for (r, &q) in s.embedding.points.iter().enumerate() {
+            full[q as usize] = u[r];
+        }
+        let singles = s.embedding.points.len();
+        for (g, points) in s.embedding.groups.iter().enumerate() {
+            points.iter().for_each(|&q| full[q as usize] = u[singles + g]);
+        }
+        let mut lu = vec![0.0; full.len()];
+        s.lattice.apply(&full, &mut lu);
+        let mut au = vec![0.0; n];
+        hvstack::solve::matvec(a, &u, &mut au);
+        let mut etlu: Vec<f64> = s.embedding.points.iter().map(|&q| lu[q as usize]).collect();
+        etlu.extend(s.embedding.groups.iter().map(|points| points.iter().map(|&q| lu[q as usize]).sum::<f64>()));
+        let scale = au.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+        // a group's row sums its nodes' rows, which include the stiff ties
+        // (1e4 of the largest conductance): rounding of those sums
+        let tie = hvstack::assemble::GROUP_TIE * f64::EPSILON * 1e3;
+        for (r, (x, y)) in etlu.iter().zip(&au).enumerate() {
+            let tol = if r < singles { 1e-12 } else { tie };
+            assert!((x - y).abs() <= tol * scale, "{}: row {r}: {x:e} vs {y:e}", path.display());
+        }
+    }
+}
+
+/// A lattice that does not fit the system (here: one unknown too many)
+/// leaves the line multigrid unbuilt; the solve falls back to aggregation
+/// and says so, and the answer meets the tolerance.
+#[test]
+fn a_lattice_that_does_not_fit_falls_back_to_aggregation() {
+    let p = square_case(33, false);
+    let (a, b) = (&p.service.system.matrix, &p.service.system.rhs);
+    let mut structure = p.pattern.structure(&p.grid, &p.service.stencil);
+    structure.embedding.groups.push(vec![0]);
+    let cfg = SolverConfig {
+        options: SolveOptions { rel_tol: 1e-8, max_iterations: 1000 },
+        preconditioner: PreconditionerChoice::Multigrid(AmgOptions::default()),
+    };
+    let (x, rep) = Solver::structured(a, structure, &cfg).solve(b).unwrap();
+    assert!(rep.method.starts_with("pcg+amg") && rep.method.contains("line multigrid setup failed"), "{}", rep.method);
+    // the tolerance asked for (1e-8) with the factor the true residual may drift, common practice
+    assert!(relative_residual(a, &x, b) <= 1e-7);
+    let (_, rep) = Solver::structured(a, p.pattern.structure(&p.grid, &p.service.stencil), &cfg).solve(b).unwrap();
+    assert!(rep.method.starts_with("pcg+line multigrid"), "{}", rep.method);
 }
 
 use hvstack::solve::gallery::laplace_1d;
