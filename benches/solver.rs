@@ -101,7 +101,13 @@ fn run(n: usize, with_jacobi: bool) {
         (Box::new(amg), d, c)
     } else {
         let p = &prepared;
-        let mg = LineMultigrid::new(p.pattern.structure(&p.grid, &p.service.stencil), a.rows()).expect("builds");
+        let t = Instant::now();
+        let structure = p.pattern.structure(&p.grid, &p.service.stencil);
+        let lattice_s = t.elapsed().as_secs_f64();
+        let mg = LineMultigrid::new(structure, a.rows()).expect("builds");
+        if std::env::var("HV_PROBE").is_ok() {
+            eprintln!("lattice {lattice_s:.3} s, hierarchy {:.3} s", t.elapsed().as_secs_f64() - lattice_s);
+        }
         let (d, c) = (mg.depth(), mg.grid_complexity());
         (Box::new(mg), d, c)
     };
@@ -112,11 +118,20 @@ fn run(n: usize, with_jacobi: bool) {
         let n = a.rows();
         let u: Vec<f64> = (0..n).map(|k| ((k * 7 + 3) % 11) as f64 - 5.0).collect();
         let v: Vec<f64> = (0..n).map(|k| ((k * 5 + 1) % 13) as f64 - 6.0).collect();
-        let (mut mu, mut mv) = (vec![0.0; n], vec![0.0; n]);
+        let (mut mu, mut m_v) = (vec![0.0; n], vec![0.0; n]);
         pre.apply(&u, &mut mu);
-        pre.apply(&v, &mut mv);
+        pre.apply(&v, &mut m_v);
         let d = |a: &[f64], b: &[f64]| a.iter().zip(b).map(|(x, y)| x * y).sum::<f64>();
-        eprintln!("symmetry: {:e} vs {:e}", d(&v, &mu), d(&u, &mv));
+        eprintln!("symmetry: {:e} vs {:e}", d(&v, &mu), d(&u, &m_v));
+        let t = Instant::now();
+        for _ in 0..10 {
+            pre.apply(&u, &mut mu);
+        }
+        eprintln!(
+            "one application {:.2} ms = {:.2} products",
+            t.elapsed().as_secs_f64() * 100.0,
+            t.elapsed().as_secs_f64() / 10.0 / mv
+        );
         // the cycle alone as a stationary iteration
         let mut x = vec![0.0; n];
         let mut r = b.clone();

@@ -525,6 +525,11 @@ fn single(
     }
 }
 
+/// Large blocks on transparent huge pages where the kernel offers them
+/// (`cli::memory`).
+#[global_allocator]
+static ALLOCATOR: cli::memory::HugePages = cli::memory::HugePages;
+
 fn main() -> ExitCode {
     // SIGINT, SIGTERM and SIGHUP wait for any write in progress, remove
     // staged folders and say which outputs are complete (cli::signals).

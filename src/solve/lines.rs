@@ -85,6 +85,8 @@ struct Level {
     s: Vec<Stored>,
     sw: Vec<Stored>,
     se: Vec<Stored>,
+    /// Lines with diagonal couplings to the line below (sw or se not zero).
+    diagonal: Vec<bool>,
     /// LDLᵀ of each line's tridiagonal block: l_i = w_i/d_(i−1).
     l: Vec<f64>,
     /// 1/d_i.
@@ -155,9 +157,15 @@ impl LineMultigrid {
             let (l, inv_d) =
                 factor_lines(&a, &c).map_err(|line| LinesError::NotDefinite { level: levels.len(), line })?;
             let coarse = (a.ny > 1).then(|| galerkin(&a, &c, &fixed, &l, &inv_d));
+            let diagonal = (0..a.ny)
+                .map(|j| {
+                    a.sw[j * a.nx..(j + 1) * a.nx].iter().chain(&a.se[j * a.nx..(j + 1) * a.nx]).any(|&v| v != 0.0)
+                })
+                .collect();
             levels.push(Level {
                 nx: a.nx,
                 ny: a.ny,
+                diagonal,
                 c,
                 w: a.w.clone(),
                 s: stored(&a.s),
@@ -306,7 +314,30 @@ fn stored(v: &[f64]) -> Vec<Stored> {
 
 /// The diagonal of every point: its excess minus its couplings.
 fn diagonals(a: &Lattice) -> Vec<f64> {
-    (0..a.points()).into_par_iter().with_min_len(CHUNK).map(|k| a.stencil(k % a.nx, k / a.nx)[1][1]).collect()
+    let (nx, ny) = (a.nx, a.ny);
+    let mut c = a.excess.clone();
+    c.par_chunks_mut(nx).enumerate().for_each(|(j, c)| {
+        let o = j * nx;
+        for (i, c) in c.iter_mut().enumerate() {
+            // own couplings: west, south, south-west, south-east
+            *c -= a.w[o + i] + a.s[o + i] + a.sw[o + i] + a.se[o + i];
+            if i + 1 < nx {
+                *c -= a.w[o + i + 1];
+            }
+            if j + 1 < ny {
+                // the line above's couplings towards this point
+                let q = o + nx + i;
+                *c -= a.s[q];
+                if i > 0 {
+                    *c -= a.se[q - 1];
+                }
+                if i + 1 < nx {
+                    *c -= a.sw[q + 1];
+                }
+            }
+        }
+    });
+    c
 }
 
 /// LDLᵀ factors of every line's tridiagonal block (c on the diagonal, w
@@ -344,6 +375,14 @@ struct Weights {
     down: f64,
     up: f64,
     deficiency: f64,
+}
+
+/// One of the three figures of [`Weights`].
+#[derive(Clone, Copy)]
+enum Part {
+    Up,
+    Down,
+    Deficiency,
 }
 
 /// Interpolation weights of the odd lines from line solves: with T the
@@ -401,79 +440,76 @@ fn solve_factored<T: Lane>(l: &[f64], inv_d: &[f64], x: &mut [T]) {
 
 /// The Galerkin coarse operator `Pᵀ·A·P` of semicoarsening in y (`c`: the
 /// diagonals of `a`), and the coarse fixed points (those of the even
-/// lines). The coarse couplings are the products' off-diagonal entries;
-/// the coarse excess is `Pᵀ·A·P·1 = Pᵀ·A·(1 − d)` with d the
+/// lines). P is vertical: coarse point (i, J) is fine point (i, 2J), and
+/// reaches (i, 2J−1) with that point's weight `up` and (i, 2J+1) with its
+/// `down`; so each coarse entry is a short sum over the fine lines 2J−2 to
+/// 2J+2 (written out below, checked against the dense product in the
+/// tests). The coarse excess is `Pᵀ·A·P·1 = Pᵀ·A·(1 − d)` with d the
 /// deficiencies, which is exactly zero wherever no deficiency is near.
 fn galerkin(a: &Lattice, c: &[f64], fixed: &[bool], l: &[f64], inv_d: &[f64]) -> (Lattice, Vec<bool>) {
     let (nx, ny) = (a.nx, a.ny);
     let nyc = ny.div_ceil(2);
     let weights = line_weights(a, fixed, l, inv_d);
-    let odd = |i: usize, jf: usize| weights[(jf / 2) * nx + i];
-    // weight of fine point (i, jf) towards coarse line jc
-    let weight = |i: usize, jf: usize, jc: usize| -> f64 {
-        if jf.is_multiple_of(2) {
-            if jf == 2 * jc { 1.0 } else { 0.0 }
-        } else if jf == 2 * jc + 1 {
-            odd(i, jf).down
-        } else if jf + 1 == 2 * jc {
-            odd(i, jf).up
-        } else {
-            0.0
-        }
-    };
-    let deficiency = |i: usize, jf: usize| if jf.is_multiple_of(2) { 0.0 } else { odd(i, jf).deficiency };
-    let stencil = |i: usize, j: usize| {
-        let mut m = a.couplings(i, j);
-        m[1][1] = c[a.point(i, j)];
-        m
-    };
-    let rows: Vec<[f64; 5]> = (0..nx * nyc)
-        .into_par_iter()
-        .with_min_len(CHUNK)
-        .map(|k| {
-            let (i, jc) = (k % nx, k / nx);
-            if fixed[a.point(i, 2 * jc)] {
-                return [1.0, 0.0, 0.0, 0.0, 0.0];
-            }
-            let mut acc = [[0.0; 3]; 3];
-            let mut excess = 0.0;
-            let first = (2 * jc).saturating_sub(1);
-            let last = (2 * jc + 1).min(ny - 1);
-            for jf in first..=last {
-                let pf = weight(i, jf, jc);
-                if pf == 0.0 {
-                    continue;
-                }
-                let m = stencil(i, jf);
-                // (A·(1 − d))_f
-                let mut balance = a.excess[a.point(i, jf)];
-                for (dj, row) in m.iter().enumerate() {
-                    let Some(jg) = (jf + dj).checked_sub(1).filter(|&j| j < ny) else { continue };
-                    for (di, &v) in row.iter().enumerate() {
-                        if v == 0.0 {
-                            continue;
-                        }
-                        let Some(ig) = (i + di).checked_sub(1).filter(|&g| g < nx) else { continue };
-                        balance -= v * deficiency(ig, jg);
-                        // the coarse lines g interpolates from
-                        let (lo, hi) = if jg.is_multiple_of(2) { (jg / 2, jg / 2) } else { (jg / 2, jg / 2 + 1) };
-                        for jt in lo..=hi.min(nyc - 1) {
-                            let pg = weight(ig, jg, jt);
-                            if pg != 0.0 {
-                                acc[jt + 1 - jc][di] += pf * v * pg;
-                            }
-                        }
-                    }
-                }
-                excess += pf * balance;
-            }
-            [excess, acc[1][0], acc[0][1], acc[0][0], acc[0][2]]
-        })
-        .collect();
     let mut coarse = Lattice::zeros(nx, nyc);
-    for (k, r) in rows.into_iter().enumerate() {
-        [coarse.excess[k], coarse.w[k], coarse.s[k], coarse.sw[k], coarse.se[k]] = r;
+    let zeros = vec![0.0; nx];
+    let no_weights = vec![Weights::default(); nx];
+    // a fine line's arrays (zeros where the line does not exist)
+    fn line_in<'a>(v: &'a [f64], j: Option<usize>, nx: usize, zeros: &'a [f64]) -> &'a [f64] {
+        j.map_or(zeros, |j| &v[j * nx..(j + 1) * nx])
     }
+    let line = |v, j| line_in(v, j, nx, &zeros);
+    let odd = |j: Option<usize>| j.map_or(&no_weights[..], |j| &weights[(j / 2) * nx..(j / 2 + 1) * nx]);
+    let Lattice { excess: ce, w: cw, s: cs, sw: csw, se: cse, .. } = &mut coarse;
+    let rows = ce.par_chunks_mut(nx).zip(cw.par_chunks_mut(nx)).zip(cs.par_chunks_mut(nx));
+    let rows = rows.zip(csw.par_chunks_mut(nx)).zip(cse.par_chunks_mut(nx));
+    rows.enumerate().for_each(|(jc, ((((ex_c, w_c), s_c), sw_c), se_c))| {
+        let j0 = 2 * jc;
+        let (m, p) = (j0.checked_sub(1), (j0 + 1 < ny).then_some(j0 + 1));
+        let (wm, w0, wp) = (line(&a.w, m), line(&a.w, Some(j0)), line(&a.w, p));
+        let (sm, s0, sp) = (line(&a.s, m), line(&a.s, Some(j0)), line(&a.s, p));
+        let (swm, sw0, swp) = (line(&a.sw, m), line(&a.sw, Some(j0)), line(&a.sw, p));
+        let (sem, se0, sep) = (line(&a.se, m), line(&a.se, Some(j0)), line(&a.se, p));
+        let (cm, cp) = (line(c, m), line(c, p));
+        let (exm, ex0, exp) = (line(&a.excess, m), line(&a.excess, Some(j0)), line(&a.excess, p));
+        let (pm, pp) = (odd(m), odd(p));
+        // value at column i + k (zero beyond the lattice)
+        let at = |v: &[f64], i: usize, k: isize| {
+            (i as isize + k).try_into().ok().and_then(|i: usize| v.get(i)).copied().unwrap_or(0.0)
+        };
+        let wt = |v: &[Weights], i: usize, k: isize, f: Part| {
+            (i as isize + k).try_into().ok().and_then(|i: usize| v.get(i)).map_or(0.0, |w| match f {
+                Part::Up => w.up,
+                Part::Down => w.down,
+                Part::Deficiency => w.deficiency,
+            })
+        };
+        let (up, down, def) = (Part::Up, Part::Down, Part::Deficiency);
+        for i in 0..nx {
+            if fixed[j0 * nx + i] {
+                (ex_c[i], w_c[i], s_c[i], sw_c[i], se_c[i]) = (1.0, 0.0, 0.0, 0.0, 0.0);
+                continue;
+            }
+            // weights of the odd lines below (m) and above (p)
+            let (um, dm0, dp0) = (pm[i].up, pm[i].down, pp[i].down);
+            s_c[i] = um * (sm[i] + cm[i] * dm0) + s0[i] * dm0;
+            sw_c[i] = um * (swm[i] + wm[i] * wt(pm, i, -1, down)) + sw0[i] * wt(pm, i, -1, down);
+            se_c[i] = um * (sem[i] + at(wm, i, 1) * wt(pm, i, 1, down)) + se0[i] * wt(pm, i, 1, down);
+            w_c[i] = um * (wm[i] * wt(pm, i, -1, up) + at(se0, i, -1))
+                + sw0[i] * wt(pm, i, -1, up)
+                + w0[i]
+                + at(sep, i, -1) * wt(pp, i, -1, down)
+                + dp0 * (swp[i] + wp[i] * wt(pp, i, -1, down));
+            // (A·(1 − d)) on the three fine points of the column
+            let q0 = ex0[i]
+                - (sw0[i] * wt(pm, i, -1, def) + s0[i] * pm[i].deficiency + se0[i] * wt(pm, i, 1, def))
+                - (at(sep, i, -1) * wt(pp, i, -1, def) + sp[i] * pp[i].deficiency + at(swp, i, 1) * wt(pp, i, 1, def));
+            let qm =
+                exm[i] - (cm[i] * pm[i].deficiency + wm[i] * wt(pm, i, -1, def) + at(wm, i, 1) * wt(pm, i, 1, def));
+            let qp =
+                exp[i] - (cp[i] * pp[i].deficiency + wp[i] * wt(pp, i, -1, def) + at(wp, i, 1) * wt(pp, i, 1, def));
+            ex_c[i] = um * qm + q0 + dp0 * qp;
+        }
+    });
     let coarse_fixed = (0..nx * nyc).map(|k| fixed[(2 * (k / nx)) * nx + k % nx]).collect();
     (coarse, coarse_fixed)
 }
@@ -495,6 +531,11 @@ fn cycle<T: Lane>(levels: &[Level], work: &mut [Work<T>]) {
     sweep(level, w, 0, Neighbours::Current);
 }
 
+/// Lines whose tridiagonal solves run interleaved in one task: each solve
+/// is a chain of dependent multiply-adds, so several chains in flight keep
+/// the core busy.
+const INTERLEAVED: usize = 4;
+
 /// Solves every line of one colour (0 even, 1 odd) for the current values
 /// of the other colour's lines.
 fn sweep<T: Lane>(level: &Level, w: &mut Work<T>, colour: usize, neighbours: Neighbours) {
@@ -507,65 +548,136 @@ fn sweep<T: Lane>(level: &Level, w: &mut Work<T>, colour: usize, neighbours: Nei
         let o = level.line_offset(j) - if colour == 0 { split } else { 0 };
         &other[o..o + nx]
     };
-    target.par_chunks_mut(nx).zip(b.par_chunks(nx)).with_min_len(level.lines_per_task()).enumerate().for_each(
-        |(k, (out, b))| {
-            let j = 2 * k + colour;
-            let (down, up) = match neighbours {
-                Neighbours::Zero => (None, None),
-                Neighbours::Current => ((j > 0).then(|| line_of(j - 1)), (j + 1 < ny).then(|| line_of(j + 1))),
-            };
-            solve_line(level, j, b, down, up, out);
-        },
-    );
+    let group = INTERLEAVED * nx;
+    let tasks = (level.lines_per_task() / INTERLEAVED).max(1);
+    target.par_chunks_mut(group).zip(b.par_chunks(group)).with_min_len(tasks).enumerate().for_each(|(g, (out, b))| {
+        let first = INTERLEAVED * g;
+        for (k, (x, b)) in out.chunks_exact_mut(nx).zip(b.chunks_exact(nx)).enumerate() {
+            let j = 2 * (first + k) + colour;
+            match neighbours {
+                Neighbours::Zero => x.copy_from_slice(b),
+                Neighbours::Current => {
+                    let below = (j > 0).then(|| line_of(j - 1));
+                    let above = (j + 1 < ny).then(|| line_of(j + 1));
+                    subtract_neighbours(level, j, b, below, above, x);
+                }
+            }
+        }
+        let line = |k: usize| (2 * (first + k) + colour) * nx;
+        if out.len() == group {
+            let mut lines = out.chunks_exact_mut(nx);
+            let x: [&mut [T]; INTERLEAVED] = std::array::from_fn(|_| lines.next().expect("a full group"));
+            let o: [usize; INTERLEAVED] = std::array::from_fn(line);
+            solve_interleaved(x, o.map(|o| &level.l[o..o + nx]), o.map(|o| &level.inv_d[o..o + nx]));
+        } else {
+            for (k, x) in out.chunks_exact_mut(nx).enumerate() {
+                let o = line(k);
+                solve_factored(&level.l[o..o + nx], &level.inv_d[o..o + nx], x);
+            }
+        }
+    });
 }
 
-/// x_j = T_j⁻¹·(b_j − S_j·x_(j−1) − N_j·x_(j+1)) for line j.
-fn solve_line<T: Lane>(level: &Level, j: usize, b: &[T], down: Option<&[T]>, up: Option<&[T]>, x: &mut [T]) {
-    let nx = level.nx;
-    let o = j * nx;
-    x.copy_from_slice(b);
-    if let Some(d) = down {
-        let (s, sw, se) = (&level.s[o..o + nx], &level.sw[o..o + nx], &level.se[o..o + nx]);
-        subtract_couplings(x, d, s, sw, se);
+/// [`solve_factored`] for N lines at once, their recurrences interleaved.
+fn solve_interleaved<T: Lane, const N: usize>(x: [&mut [T]; N], l: [&[f64]; N], inv_d: [&[f64]; N]) {
+    let n = x[0].len();
+    assert!(x.iter().all(|x| x.len() == n) && l.iter().chain(&inv_d).all(|v| v.len() == n));
+    let mut prev: [T; N] = std::array::from_fn(|k| x[k][0]);
+    for i in 1..n {
+        for k in 0..N {
+            let v = x[k][i] - prev[k] * l[k][i];
+            x[k][i] = v;
+            prev[k] = v;
+        }
     }
-    if let Some(u) = up {
-        // the couplings to the line above are that line's own s, se, sw
-        let o = o + nx;
-        let (s, sw, se) = (&level.s[o..o + nx], &level.sw[o..o + nx], &level.se[o..o + nx]);
-        subtract_couplings_above(x, u, s, sw, se);
+    let mut next: [T; N] = std::array::from_fn(|k| x[k][n - 1] * inv_d[k][n - 1]);
+    for k in 0..N {
+        x[k][n - 1] = next[k];
     }
-    solve_factored(&level.l[o..o + nx], &level.inv_d[o..o + nx], x);
+    for i in (0..n - 1).rev() {
+        for k in 0..N {
+            let v = x[k][i] * inv_d[k][i] - next[k] * l[k][i + 1];
+            x[k][i] = v;
+            next[k] = v;
+        }
+    }
 }
 
-/// x_i −= s_i·d_i + sw_i·d_(i−1) + se_i·d_(i+1): the couplings of a line to
-/// the line below (its own s, sw, se).
-fn subtract_couplings<T: Lane>(x: &mut [T], d: &[T], s: &[Stored], sw: &[Stored], se: &[Stored]) {
+/// The couplings of line j to a neighbouring line, as slices over the
+/// line's points: `centre_i` couples point i to point i of the other line;
+/// with diagonal couplings, `left_k` couples point k+1 to the other line's
+/// point k and `right_k` point k to its point k+1.
+struct Coupling<'a> {
+    centre: &'a [Stored],
+    sides: Option<(&'a [Stored], &'a [Stored])>,
+}
+
+impl Level {
+    /// Couplings of line j to the line below: its own s, sw, se.
+    fn below(&self, j: usize) -> Coupling<'_> {
+        let (nx, o) = (self.nx, j * self.nx);
+        Coupling {
+            centre: &self.s[o..o + nx],
+            sides: self.diagonal[j].then(|| (&self.sw[o + 1..o + nx], &self.se[o..o + nx - 1])),
+        }
+    }
+
+    /// Couplings of line j to the line above: that line's s, se (from its
+    /// point i−1) and sw (from its point i+1).
+    fn above(&self, j: usize) -> Coupling<'_> {
+        let (nx, o) = (self.nx, (j + 1) * self.nx);
+        Coupling {
+            centre: &self.s[o..o + nx],
+            sides: self.diagonal[j + 1].then(|| (&self.se[o..o + nx - 1], &self.sw[o + 1..o + nx])),
+        }
+    }
+}
+
+/// out = b − S_j·below − N_j·above (a neighbour line that does not exist
+/// contributes nothing).
+fn subtract_neighbours<T: Lane>(
+    level: &Level,
+    j: usize,
+    b: &[T],
+    below: Option<&[T]>,
+    above: Option<&[T]>,
+    out: &mut [T],
+) {
+    let n = out.len();
+    let empty: &[Stored] = &[];
+    let (cb, ca) = (below.map_or(empty, |_| level.below(j).centre), above.map_or(empty, |_| level.above(j).centre));
+    match (below, above) {
+        (Some(vb), Some(va)) => {
+            assert!(b.len() == n && vb.len() == n && va.len() == n && cb.len() == n && ca.len() == n);
+            for i in 0..n {
+                out[i] = b[i] - vb[i] * f64::from(cb[i]) - va[i] * f64::from(ca[i]);
+            }
+        }
+        (Some(v), None) | (None, Some(v)) => {
+            let c = if below.is_some() { cb } else { ca };
+            assert!(b.len() == n && v.len() == n && c.len() == n);
+            for i in 0..n {
+                out[i] = b[i] - v[i] * f64::from(c[i]);
+            }
+        }
+        (None, None) => out.copy_from_slice(b),
+    }
+    for (v, coupling) in [(below, below.map(|_| level.below(j))), (above, above.map(|_| level.above(j)))] {
+        if let (Some(v), Some(Coupling { sides: Some((left, right)), .. })) = (v, coupling) {
+            subtract_sides(out, v, left, right);
+        }
+    }
+}
+
+/// x_(k+1) −= v_k·left_k and x_k −= v_(k+1)·right_k.
+fn subtract_sides<T: Lane>(x: &mut [T], v: &[T], left: &[Stored], right: &[Stored]) {
     let n = x.len();
-    for i in 0..n {
-        let mut acc = d[i] * f64::from(s[i]);
-        if i > 0 {
-            acc += d[i - 1] * f64::from(sw[i]);
-        }
-        if i + 1 < n {
-            acc += d[i + 1] * f64::from(se[i]);
-        }
-        x[i] = x[i] - acc;
+    assert!(v.len() == n && left.len() + 1 == n && right.len() + 1 == n);
+    for k in 0..n - 1 {
+        x[k + 1] = x[k + 1] - v[k] * f64::from(left[k]);
     }
-}
-
-/// x_i −= s'_i·u_i + se'_(i−1)·u_(i−1) + sw'_(i+1)·u_(i+1), with s', sw',
-/// se' the stored couplings of the line above (towards this line).
-fn subtract_couplings_above<T: Lane>(x: &mut [T], u: &[T], s: &[Stored], sw: &[Stored], se: &[Stored]) {
-    let n = x.len();
-    for i in 0..n {
-        let mut acc = u[i] * f64::from(s[i]);
-        if i > 0 {
-            acc += u[i - 1] * f64::from(se[i - 1]);
-        }
-        if i + 1 < n {
-            acc += u[i + 1] * f64::from(sw[i + 1]);
-        }
-        x[i] = x[i] - acc;
+    for k in 0..n - 1 {
+        x[k] = x[k] - v[k + 1] * f64::from(right[k]);
     }
 }
 
@@ -573,48 +685,43 @@ fn subtract_couplings_above<T: Lane>(x: &mut [T], u: &[T], s: &[Stored], sw: &[S
 /// lines' residual is zero right after they were solved). Fine even line
 /// 2J is coarse line J.
 fn restrict<T: Lane>(level: &Level, w: &Work<T>, coarse_b: &mut [T]) {
-    let (nx, ny) = (level.nx, level.ny);
+    let nx = level.nx;
     let coarse_even = level.ny.div_ceil(2).div_ceil(2) * nx;
     let (ce, co) = coarse_b.split_at_mut(coarse_even);
     for (colour, out) in [(0, ce), (1, co)] {
         out.par_chunks_mut(nx).with_min_len(level.lines_per_task()).enumerate().for_each(|(m, out)| {
             let jc = 2 * m + colour;
-            residual_line(level, w, 2 * jc, ny, out);
+            residual_line(level, w, 2 * jc, out);
         });
     }
 }
 
 /// r = b − A·x on the even line j.
-fn residual_line<T: Lane>(level: &Level, w: &Work<T>, j: usize, ny: usize, r: &mut [T]) {
-    let nx = level.nx;
-    let o = j * nx;
+fn residual_line<T: Lane>(level: &Level, w: &Work<T>, j: usize, r: &mut [T]) {
+    let (nx, ny) = (level.nx, level.ny);
     let at = |j: usize| {
         let s = level.line_offset(j);
         &w.x[s..s + nx]
     };
-    let x = at(j);
-    let b = {
-        let s = level.line_offset(j);
-        &w.b[s..s + nx]
-    };
-    let (c, wc) = (&level.c[o..o + nx], &level.w[o..o + nx]);
-    for i in 0..nx {
-        let mut acc = x[i] * c[i];
-        if i > 0 {
-            acc += x[i - 1] * wc[i];
-        }
-        if i + 1 < nx {
-            acc += x[i + 1] * wc[i + 1];
-        }
-        r[i] = b[i] - acc;
+    let below = (j > 0).then(|| at(j - 1));
+    let above = (j + 1 < ny).then(|| at(j + 1));
+    subtract_neighbours(level, j, at_b(level, w, j), below, above, r);
+    let o = j * nx;
+    let (x, c, wc) = (at(j), &level.c[o..o + nx], &level.w[o..o + nx]);
+    assert!(x.len() == nx && r.len() == nx && c.len() == nx && wc.len() == nx);
+    r[0] = r[0] - x[0] * c[0];
+    for i in 1..nx {
+        r[i] = r[i] - x[i] * c[i] - x[i - 1] * wc[i];
     }
-    if j > 0 {
-        subtract_couplings(r, at(j - 1), &level.s[o..o + nx], &level.sw[o..o + nx], &level.se[o..o + nx]);
+    for i in 1..nx {
+        r[i - 1] = r[i - 1] - x[i] * wc[i];
     }
-    if j + 1 < ny {
-        let o = o + nx;
-        subtract_couplings_above(r, at(j + 1), &level.s[o..o + nx], &level.sw[o..o + nx], &level.se[o..o + nx]);
-    }
+}
+
+/// The right-hand side of line j.
+fn at_b<'a, T>(level: &Level, w: &'a Work<T>, j: usize) -> &'a [T] {
+    let s = level.line_offset(j);
+    &w.b[s..s + level.nx]
 }
 
 /// x ← x + P·e on the even lines (coarse line J onto fine line 2J).
@@ -746,27 +853,30 @@ mod tests {
         let p = l.point(4, 4);
         l.sw[p] = -0.3 * l.w[p];
         l.se[p + 1] = 0.2 * l.w[p];
-        let fixed_at = l.point(6, 5);
-        for k in 0..l.points() {
-            let m = l.couplings(k % 9, k / 9);
-            // couplings to the fixed point move into the neighbours' excess
-            for (dj, row) in m.iter().enumerate() {
-                for (di, v) in row.iter().enumerate() {
-                    if (k % 9 + di, k / 9 + dj) == (7, 6) && *v != 0.0 {
-                        l.excess[k] += -v;
+        // fixed points on an odd and an even line
+        for (fi, fj) in [(6usize, 5usize), (2, 6)] {
+            let fixed_at = l.point(fi, fj);
+            for k in 0..l.points() {
+                let m = l.couplings(k % 9, k / 9);
+                // couplings to the fixed point move into the neighbours' excess
+                for (dj, row) in m.iter().enumerate() {
+                    for (di, v) in row.iter().enumerate() {
+                        if (k % 9 + di, k / 9 + dj) == (fi + 1, fj + 1) && *v != 0.0 {
+                            l.excess[k] += -v;
+                        }
                     }
                 }
             }
+            l.excess[fixed_at] = 1.0;
+            for v in [&mut l.w, &mut l.s, &mut l.sw, &mut l.se] {
+                v[fixed_at] = 0.0;
+            }
+            l.w[fixed_at + 1] = 0.0;
+            l.s[fixed_at + 9] = 0.0;
+            l.se[fixed_at + 9 - 1] = 0.0;
+            l.sw[fixed_at + 9 + 1] = 0.0;
+            s.embedding.points.retain(|&q| q as usize != fixed_at);
         }
-        l.excess[fixed_at] = 1.0;
-        for v in [&mut l.w, &mut l.s, &mut l.sw, &mut l.se] {
-            v[fixed_at] = 0.0;
-        }
-        l.w[fixed_at + 1] = 0.0;
-        l.s[fixed_at + 9] = 0.0;
-        l.se[fixed_at + 9 - 1] = 0.0;
-        l.sw[fixed_at + 9 + 1] = 0.0;
-        s.embedding.points.retain(|&q| q as usize != fixed_at);
         let mut a = s.lattice.clone();
         round_couplings(&mut a);
         let fixed = s.embedding.fixed(a.points());
