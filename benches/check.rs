@@ -26,6 +26,7 @@ fn main() {
         .find(|a| a.ends_with(".yaml"))
         .unwrap_or_else(|| "benches/cases/square-1024.yaml".into());
     let text = std::fs::read_to_string(&path).expect("benchmark case readable");
+    memory::configure();
     let options = hvstack::Options::default();
     let repeat: usize = std::env::var("HVSTACK_BENCH_REPEAT").ok().and_then(|v| v.parse().ok()).unwrap_or(3);
     let mut best = [f64::INFINITY; 7];

@@ -531,6 +531,7 @@ fn single(
 static ALLOCATOR: cli::memory::HugePages = cli::memory::HugePages;
 
 fn main() -> ExitCode {
+    cli::memory::configure();
     // SIGINT, SIGTERM and SIGHUP wait for any write in progress, remove
     // staged folders and say which outputs are complete (cli::signals).
     if let Err(e) = cli::signals::install() {

@@ -12,6 +12,13 @@
 //! ignored. This is what glibc does for its own large blocks under the
 //! `glibc.malloc.hugetlb=1` tunable, which can only be set from the
 //! environment before the program starts.
+//!
+//! glibc also serves blocks above its mmap threshold (32 MiB at most) with
+//! fresh mappings and returns them on free, so every such vector is zeroed
+//! again by the kernel: at 2048² nodes (34 MB vectors) 29 % of the check
+//! was the kernel clearing pages, and the check took 3.3-4.7 s against
+//! 0.77 s at 1024² (8 MB vectors, which the heap recycles). [`configure`]
+//! keeps large blocks on the heap: 2.8-3.2 s, the same peak memory.
 
 use std::alloc::{GlobalAlloc, Layout, System};
 
@@ -20,6 +27,18 @@ use std::alloc::{GlobalAlloc, Layout, System};
 const ADVISED_BYTES: usize = 4 << 20;
 /// The huge page size of x86-64 and of most 64-bit ARM kernels.
 const HUGE_PAGE: usize = 2 << 20;
+
+/// Sets glibc's allocator to serve every block from its heaps and keep
+/// what is freed for reuse (see the module docs); nothing elsewhere.
+pub fn configure() {
+    #[cfg(all(target_os = "linux", target_env = "gnu"))]
+    // SAFETY: mallopt only changes the allocator's policy; it is called
+    // first thing in `main`, before any thread exists.
+    unsafe {
+        libc::mallopt(libc::M_MMAP_MAX, 0);
+        libc::mallopt(libc::M_TRIM_THRESHOLD, i32::MAX);
+    }
+}
 
 /// The system allocator with huge-page advice on large blocks.
 pub struct HugePages;
