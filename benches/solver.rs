@@ -9,10 +9,23 @@
 //! a child process so that its peak memory (VmHWM) is its own, three times
 //! (`HVSTACK_BENCH_REPEAT`), and the fastest run is shown: the machines this
 //! runs on are shared and their timings vary by tens of percent.
+//!
+//! Preconditioner: the line multigrid on the case's lattice (the default of
+//! `hvstack check`), or with `HV_AMG=1` the aggregation hierarchy; `lvls`
+//! and `opcx` are its levels and its grid (line multigrid) or operator
+//! (aggregation) complexity. Knobs are listed in DEVELOPERS.md, Benchmarks.
 
 use hvstack::grid::Grid;
 use hvstack::solve::{Amg, AmgOptions, Jacobi, LineMultigrid, Preconditioner, SolveOptions, matvec, pcg};
 use std::time::Instant;
+
+/// The command's allocator (huge pages, large blocks kept on the heap), so
+/// that the figures are those of `hvstack check`.
+#[path = "../src/cli/memory.rs"]
+mod memory;
+
+#[global_allocator]
+static ALLOCATOR: memory::HugePages = memory::HugePages;
 
 const CASE: &str = "
 title: benchmark square
@@ -178,6 +191,7 @@ fn run(n: usize, with_jacobi: bool) {
 }
 
 fn main() {
+    memory::configure();
     let args: Vec<String> = std::env::args().skip(1).filter(|a| !a.starts_with('-')).collect();
     if let Some(n) = std::env::var("HVSTACK_BENCH_CHILD").ok().and_then(|v| v.parse::<usize>().ok()) {
         run(n, std::env::var("HVSTACK_BENCH_JACOBI").is_ok());
@@ -211,7 +225,10 @@ fn main() {
         // The machine is shared: run each size `repeat` times, keep the fastest.
         let mut best: Option<(f64, String)> = None;
         for _ in 0..repeat {
-            let out = std::process::Command::new(&exe).env("HVSTACK_BENCH_CHILD", n.to_string()).output();
+            let out = std::process::Command::new(&exe)
+                .env("HVSTACK_BENCH_CHILD", n.to_string())
+                .stderr(std::process::Stdio::inherit())
+                .output();
             let Some(out) = out.ok().filter(|o| o.status.success()) else {
                 println!("{n}: failed");
                 break;
